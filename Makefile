@@ -1,0 +1,32 @@
+# Two commands on a fresh machine: `make demo` and `make test` (Python 3.11+ and make only).
+PYTHON ?= python3
+VENV   := .venv
+BIN    := $(VENV)/bin
+STAMP  := $(VENV)/.installed
+
+.PHONY: demo test lint typecheck bench clean
+
+$(STAMP): pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+	$(BIN)/python -m pip install --quiet -e '.[test]'
+	touch $(STAMP)
+
+demo: $(STAMP)
+	$(BIN)/fluxledger demo --out demo-output/
+
+lint: $(STAMP)
+	$(BIN)/ruff check .
+	$(BIN)/ruff format --check .
+
+typecheck: $(STAMP)
+	$(BIN)/mypy ledger/science ledger/rules
+
+test: lint typecheck
+	$(BIN)/python -m pytest -q
+
+bench: $(STAMP)
+	$(BIN)/python bench/run.py
+
+clean:
+	rm -rf $(VENV) demo-output .pytest_cache .mypy_cache .ruff_cache .hypothesis

@@ -1,0 +1,44 @@
+"""What every command shares: the --json option and the one place that reports user errors."""
+
+from __future__ import annotations
+
+import functools
+from collections.abc import Callable
+from typing import Any, TypeVar
+
+import typer
+
+from ledger.errors import LedgerError
+
+JSON_OPTION = typer.Option(
+    False, "--json", help="Print one JSON object (quantities as value and unit) instead of tables."
+)
+
+F = TypeVar("F", bound=Callable[..., Any])
+
+
+def explain(err: LedgerError, options: dict[str, Any]) -> str:
+    """One line naming the option (when the error's field is one), the value and the rule.
+
+    ``options`` are the command's keyword arguments; an error whose field is one of them is
+    shown with that option's flag (our options are always spelled ``--field-name``).
+    """
+    text = str(err)
+    if err.field in options and not text.startswith("--"):
+        flag = "--" + err.field.replace("_", "-")
+        return f"{flag} {options[err.field]!r}: {text}"
+    return text
+
+
+def guarded(fn: F) -> F:
+    """Turn a LedgerError into one line on stderr and its exit code (no traceback)."""
+
+    @functools.wraps(fn)
+    def wrapper(*args: Any, **kwargs: Any) -> Any:
+        try:
+            return fn(*args, **kwargs)
+        except LedgerError as err:
+            typer.echo(f"error: {explain(err, kwargs)}", err=True)
+            raise typer.Exit(err.exit_code) from None
+
+    return wrapper  # type: ignore[return-value]

@@ -1,0 +1,56 @@
+"""Entry point of the ``fluxledger`` command. Heavy imports stay inside the commands."""
+
+from __future__ import annotations
+
+import sys
+
+import typer
+
+from ledger import __version__
+from ledger.cli.common import guarded
+
+app = typer.Typer(
+    name="fluxledger",
+    help=(
+        "Module history, fit-for-reuse decisions and batch records for hollow-fiber TFF.\n\n"
+        "Acceptance limits come from your site's validated procedures and its quality unit; "
+        "this tool supports their decisions and does not replace them."
+    ),
+    no_args_is_help=True,
+    pretty_exceptions_enable=False,
+    add_completion=False,
+)
+
+
+def _version(value: bool) -> None:
+    if value:
+        typer.echo(f"fluxledger {__version__}")
+        raise typer.Exit()
+
+
+@app.callback()
+def root(
+    version: bool = typer.Option(
+        False, "--version", callback=_version, is_eager=True, help="Print the version and exit."
+    ),
+) -> None:
+    """Module history, fit-for-reuse decisions and batch records for hollow-fiber TFF."""
+
+
+def _register() -> None:
+    from ledger.cli import calc, demo
+
+    app.add_typer(calc.app, name="calc")
+    app.command("demo")(guarded(demo.demo))
+
+
+_register()
+
+
+def main() -> None:
+    """Console-script entry point."""
+    app(prog_name="fluxledger")
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

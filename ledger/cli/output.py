@@ -1,0 +1,167 @@
+"""Reports printed by commands: a readable table on the terminal, or one JSON object.
+
+JSON follows DESIGN §10: every physical quantity is ``{"value": <number>, "unit": "<pint
+unit>"}``, verdicts are strings, timestamps ISO 8601 with offset.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+from dataclasses import dataclass, field
+from typing import Any
+
+from ledger import units
+
+# Human spellings of display units; JSON keeps the pint spelling.
+_HUMAN_UNITS = {
+    "L/(m^2*h)": "LMH",
+    "L/(m^2*h*bar)": "LMH/bar",
+    "degC": "°C",
+    "percent": "%",
+    "m^2": "m²",
+    "mPa*s": "mPa·s",
+    "kg/m^3": "kg/m³",
+    "L/m^2": "L/m²",
+    "g/m^2": "g/m²",
+    "um": "µm",
+    "um/s": "µm/s",
+    "mm^2/s": "mm²/s",
+}
+
+
+@dataclass(frozen=True)
+class Q:
+    """An SI value of a physical kind, printed in ``unit`` (default: the kind's display unit)."""
+
+    value: float
+    kind: str
+    unit: str | None = None
+
+
+def _number(x: float, digits: int = 4) -> str:
+    if x == 0 or not math.isfinite(x):
+        return str(x)
+    x = float(f"{x:.{digits}g}")  # round to significant digits before choosing the layout
+    if 1e-3 <= abs(x) < 1e6:
+        magnitude = math.floor(math.log10(abs(x)))
+        decimals = max(0, digits - 1 - magnitude)
+        return f"{x:,.{decimals}f}"
+    return f"{x:.{digits - 1}e}"
+
+
+def human(value: Any) -> str:
+    """Format one report value for the terminal."""
+    if isinstance(value, Q):
+        shown = units.quantity(value.value, value.kind, value.unit)
+        unit = _HUMAN_UNITS.get(shown["unit"], shown["unit"])
+        return f"{_number(shown['value'])} {unit}"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, float):
+        return _number(value)
+    if value is None:
+        return "—"
+    return str(value)
+
+
+def plain(value: Any) -> Any:
+    """Convert one report value to its JSON form."""
+    if isinstance(value, Q):
+        q = units.quantity(value.value, value.kind, value.unit)
+        return {"value": q["value"] if math.isfinite(q["value"]) else None, "unit": q["unit"]}
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    if isinstance(value, dict):
+        return {k: plain(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [plain(v) for v in value]
+    return value
+
+
+@dataclass
+class Section:
+    """A titled list of (key, label, value) rows."""
+
+    title: str
+    rows: list[tuple[str, str, Any]] = field(default_factory=list)
+
+    def add(self, key: str, value: Any, label: str | None = None) -> Section:
+        """Add a row; ``label`` defaults to the key with spaces."""
+        self.rows.append((key, label or key.replace("_", " "), value))
+        return self
+
+
+@dataclass
+class Table:
+    """A table of points: column keys with labels, and rows of values."""
+
+    title: str
+    columns: list[tuple[str, str]]
+    rows: list[list[Any]] = field(default_factory=list)
+
+
+@dataclass
+class Report:
+    """What a command reports. ``verdict`` (if any) is a plain word such as PASS or FAIL."""
+
+    command: str
+    sections: list[Section] = field(default_factory=list)
+    tables: list[Table] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+    verdict: str | None = None
+
+    def section(self, title: str) -> Section:
+        """Start a new section and return it."""
+        s = Section(title)
+        self.sections.append(s)
+        return s
+
+    def to_json(self) -> dict[str, Any]:
+        """The report as one JSON-ready object."""
+        out: dict[str, Any] = {"command": self.command}
+        if self.verdict is not None:
+            out["verdict"] = self.verdict
+        for s in self.sections:
+            out[_key(s.title)] = {k: plain(v) for k, _, v in s.rows}
+        for t in self.tables:
+            out[_key(t.title)] = [
+                {k: plain(v) for (k, _), v in zip(t.columns, row, strict=True)} for row in t.rows
+            ]
+        out["notes"] = list(self.notes)
+        return out
+
+    def print(self, as_json: bool) -> None:
+        """Print the report to stdout: JSON or rich tables."""
+        if as_json:
+            sys.stdout.write(json.dumps(self.to_json(), indent=2, ensure_ascii=False) + "\n")
+            return
+        from rich.console import Console
+        from rich.table import Table as RichTable
+
+        console = Console(highlight=False)
+        for s in self.sections:
+            table = RichTable(title=s.title, title_justify="left", show_header=False, box=None)
+            table.add_column(style="bold")
+            table.add_column()
+            for _, label, value in s.rows:
+                table.add_row(label, human(value))
+            console.print(table)
+            console.print()
+        for t in self.tables:
+            table = RichTable(title=t.title, title_justify="left")
+            for _, label in t.columns:
+                table.add_column(label, justify="right")
+            for row in t.rows:
+                table.add_row(*(human(v) for v in row))
+            console.print(table)
+            console.print()
+        if self.verdict is not None:
+            console.print(f"[bold]Verdict:[/bold] {self.verdict}")
+        for note in self.notes:
+            console.print(f"note: {note}")
+
+
+def _key(title: str) -> str:
+    return "_".join(title.lower().replace("-", " ").split())

@@ -1,0 +1,65 @@
+"""Argument guards shared by the science modules (they raise DomainError naming the parameter)."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+
+import numpy as np
+from numpy.typing import NDArray
+
+from ledger.errors import DomainError, out_of_range
+
+
+def finite(name: str, value: float) -> float:
+    """Return ``value`` as float; refuse NaN, infinity and non-numbers."""
+    try:
+        x = float(value)
+    except (TypeError, ValueError):
+        raise DomainError(
+            f"{name} = {value!r} is not a number", field=name, value=value, expected="a number"
+        ) from None
+    if not math.isfinite(x):
+        raise out_of_range(name, value, "a finite number")
+    return x
+
+
+def positive(name: str, value: float) -> float:
+    """Return ``value`` if finite and > 0."""
+    x = finite(name, value)
+    if x <= 0:
+        raise out_of_range(name, value, "a value greater than zero")
+    return x
+
+
+def non_negative(name: str, value: float) -> float:
+    """Return ``value`` if finite and >= 0."""
+    x = finite(name, value)
+    if x < 0:
+        raise out_of_range(name, value, "a value of zero or more")
+    return x
+
+
+def within(name: str, value: float, low: float, high: float, expected: str) -> float:
+    """Return ``value`` if finite and low <= value <= high."""
+    x = finite(name, value)
+    if not low <= x <= high:
+        raise out_of_range(name, value, expected)
+    return x
+
+
+def series(
+    name: str, values: Sequence[float] | NDArray[np.float64], minimum: int
+) -> NDArray[np.float64]:
+    """Return ``values`` as a 1-D float array of at least ``minimum`` finite entries."""
+    arr = np.asarray(values, dtype=float).ravel()
+    if arr.size < minimum:
+        raise DomainError(
+            f"{name} has {arr.size} value(s); at least {minimum} are needed",
+            field=name,
+            value=arr.size,
+            expected=f"at least {minimum} values",
+        )
+    if not np.all(np.isfinite(arr)):
+        raise out_of_range(name, "non-finite entry", "finite numbers only")
+    return arr

@@ -1,0 +1,207 @@
+"""`fluxledger calc ...` through the CLI runner: values, JSON shape, and bad input."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+import pint
+import pytest
+
+from tests.cli.conftest import Outcome
+
+Run = Callable[..., Outcome]
+STOCK = pint.UnitRegistry()
+
+
+def quantities(obj: Any) -> list[dict[str, Any]]:
+    """Every {"value", "unit"} object inside a JSON report."""
+    found: list[dict[str, Any]] = []
+    if isinstance(obj, dict):
+        if set(obj) == {"value", "unit"}:
+            return [obj]
+        for v in obj.values():
+            found += quantities(v)
+    elif isinstance(obj, list):
+        for v in obj:
+            found += quantities(v)
+    return found
+
+
+def ok_json(cli: Run, *args: str) -> dict[str, Any]:
+    out = cli(*args, "--json")
+    assert out.exception is None, out.exception
+    assert out.code == 0, out.stderr
+    data = out.json()
+    for q in quantities(data):
+        STOCK.Quantity(1.0, q["unit"])  # DESIGN §10: a unit string that pint parses
+        assert isinstance(q["value"], float | int)
+    return data
+
+
+def in_unit(q: dict[str, Any], unit: str) -> float:
+    return float(STOCK.Quantity(q["value"], q["unit"]).to(unit).magnitude)
+
+
+def test_viscosity(cli: Run) -> None:
+    data = ok_json(cli, "calc", "viscosity", "--temperature", "25 degC")
+    # DESIGN §4 handbook value: 0.8900 mPa·s at 25 °C.
+    assert in_unit(data["results"]["viscosity"], "mPa*s") == pytest.approx(0.8900, rel=1e-3)
+    assert in_unit(data["inputs"]["temperature"], "K") == pytest.approx(298.15)
+
+
+def test_viscosity_human_output(cli: Run) -> None:
+    out = cli("calc", "viscosity", "--temperature", "68 degF")
+    assert out.code == 0
+    assert "1.002 mPa·s" in out.stdout
+
+
+def test_nwp_single_point(cli: Run) -> None:
+    # Worked by hand: 250 mL/min, 0.1 m², TMP = (11 + 9)/2 − 0 = 10 psi at 20 °C:
+    # J = 150 LMH, NWP = 150 / 0.689476 bar = 217.56 LMH/bar.
+    data = ok_json(
+        cli, "calc", "nwp", "--permeate-flow", "250 mL/min", "--area", "0.1 m^2",
+        "--feed", "11 psi", "--retentate", "9 psi", "--permeate", "0 psi",
+        "--temperature", "20 degC", "--baseline", "250 LMH/bar",
+    )  # fmt: skip
+    res = data["results"]
+    assert in_unit(res["tmp"], "psi") == pytest.approx(10.0)
+    assert in_unit(res["flux"], "L/m^2/h") == pytest.approx(150.0)
+    assert in_unit(res["nwp"], "L/m^2/h/bar") == pytest.approx(217.56, rel=1e-4)
+    assert in_unit(res["recovery"], "percent") == pytest.approx(217.56 / 250 * 100, rel=1e-4)
+
+
+def test_nwp_temperature_correction_matches_iapws(cli: Run) -> None:
+    import iapws
+
+    data = ok_json(
+        cli, "calc", "nwp", "--permeate-flow", "250 mL/min", "--area", "0.1 m^2",
+        "--feed", "11 psi", "--retentate", "9 psi", "--temperature", "12 degC",
+    )  # fmt: skip
+    # Source: `iapws` package viscosities at 0.101325 MPa.
+    ratio = iapws.IAPWS95(T=285.15, P=0.101325).mu / iapws.IAPWS95(T=293.15, P=0.101325).mu
+    assert data["results"]["correction_factor"] == pytest.approx(ratio, rel=1e-3)
+
+
+def test_nwp_exponential_needs_u(cli: Run) -> None:
+    args = ["calc", "nwp", "--permeate-flow", "250 mL/min", "--area", "0.1 m^2", "--feed",
+            "11 psi", "--retentate", "9 psi", "--temperature", "12 degC",
+            "--correction", "exponential"]  # fmt: skip
+    out = cli(*args)
+    assert out.code == 2 and "--u-constant" in out.stderr
+    data = ok_json(cli, *args, "--u-constant", "2640 K")
+    assert data["inputs"]["correction"] == "exponential"
+
+
+def test_nwp_points_file(cli: Run, tmp_path: Path) -> None:
+    p = tmp_path / "pts.csv"
+    # Points on a straight line of 200 LMH/bar at 20 °C (0.1 m² -> 1 LMH = 1.6667 mL/min).
+    p.write_text(
+        "permeate_flow [mL/min],tmp [bar],temperature [degC]\n"
+        + "\n".join(f"{200 * t * 1000 / 600:.6f},{t},20" for t in (0.2, 0.4, 0.6, 0.8))
+    )
+    data = ok_json(cli, "calc", "nwp", "--area", "0.1 m^2", "--points-file", str(p))
+    assert in_unit(data["results"]["nwp"], "L/m^2/h/bar") == pytest.approx(200.0, rel=1e-6)
+    assert data["results"]["r_squared"] == pytest.approx(1.0)
+    assert len(data["points"]) == 4
+
+
+def test_shear_target(cli: Run) -> None:
+    data = ok_json(
+        cli, "calc", "shear", "--fibers", "120", "--lumen-id", "0.5 mm",
+        "--target-shear", "4000 1/s", "--length", "30 cm",
+    )  # fmt: skip
+    # Worked by hand: Q = N·γ·π·D³/32 = 120 · 4000 · π · (0.5e-3)³ / 32 = 5.890e-6 m³/s.
+    assert in_unit(data["results"]["feed_flow"], "m^3/s") == pytest.approx(5.890486e-6, rel=1e-6)
+    assert data["results"]["laminar"] is True
+
+
+def test_shear_turbulent_note(cli: Run) -> None:
+    data = ok_json(cli, "calc", "shear", "--fibers", "1", "--lumen-id", "2 mm",
+                   "--feed-flow", "300 mL/min")  # fmt: skip
+    assert data["results"]["laminar"] is False
+    assert any("2100" in n for n in data["notes"])
+
+
+def test_diafiltration(cli: Run) -> None:
+    data = ok_json(cli, "calc", "diafiltration", "--removal", "99.9 %", "--volume", "0.5 L")
+    assert data["results"]["diavolumes"] == pytest.approx(6.9078, rel=1e-4)
+    assert in_unit(data["results"]["buffer_volume"], "L") == pytest.approx(3.4539, rel=1e-4)
+    back = ok_json(cli, "calc", "diafiltration", "--diavolumes", "3", "--sieving", "0.5")
+    assert in_unit(back["results"]["remaining"], "") == pytest.approx(0.22313, rel=1e-4)
+
+
+def test_concentration(cli: Run) -> None:
+    data = ok_json(
+        cli, "calc", "concentration", "--initial-volume", "2 L", "--final-volume", "250 mL",
+        "--rejection", "99.5 %", "--initial-concentration", "0.1 g/L", "--area", "565 cm^2",
+    )  # fmt: skip
+    res = data["results"]
+    assert res["factor"] == pytest.approx(8.0)
+    assert res["concentration_ratio"] == pytest.approx(8**0.995)
+    assert in_unit(res["yield"], "percent") == pytest.approx(100 * 8**-0.005)
+    assert in_unit(res["volume_loading"], "L/m^2") == pytest.approx(2 / 0.0565)
+
+
+BAD = [
+    (["calc", "viscosity", "--temperature", "20"], "--temperature", "no unit"),
+    (["calc", "viscosity", "--temperature", "20 psi"], "--temperature", "expected a temperature"),
+    (["calc", "viscosity", "--temperature", "150 degC"], "--temperature", "273.15 K to 373.15 K"),
+    (["calc", "viscosity", "--temperature", "nan degC"], "--temperature", "finite"),
+    (
+        ["calc", "nwp", "--area", "0.1 m^2", "--permeate-flow", "2 L/min", "--feed", "2 L/min",
+         "--retentate", "1 psi", "--temperature", "20 degC"],
+        "--feed", "expected a pressure",
+    ),
+    (
+        ["calc", "nwp", "--area", "0.1 m^2", "--permeate-flow", "-2 L/min", "--feed", "2 psi",
+         "--retentate", "1 psi", "--temperature", "20 degC"],
+        "--permeate-flow", "negative",
+    ),
+    (
+        ["calc", "nwp", "--area", "0.1 m^2", "--permeate-flow", "2 L/min", "--feed", "1 psi",
+         "--retentate", "1 psi", "--permeate", "3 psi", "--temperature", "20 degC"],
+        "--feed", "positive TMP",
+    ),
+    (["calc", "nwp", "--area", "0.1 m^2", "--feed", "1 psi"], "--permeate-flow", "missing"),
+    (["calc", "shear", "--fibers", "10", "--lumen-id", "0.5 mm"], "--feed-flow", "exactly one"),
+    (["calc", "shear", "--fibers", "0", "--lumen-id", "0.5 mm", "--feed-flow", "1 L/min"],
+     "--fibers", "greater than zero"),
+    (["calc", "shear", "--fibers", "10", "--lumen-id", "0.5 L", "--feed-flow", "1 L/min"],
+     "--lumen-id", "expected a length"),
+    (["calc", "diafiltration", "--removal", "100 %"], "--removal", "below 100 %"),
+    (["calc", "diafiltration", "--removal", "99 %", "--sieving", "0"], "--sieving", "never"),
+    (["calc", "diafiltration", "--removal", "abc"], "--removal", "not a number"),
+    (["calc", "concentration", "--factor", "0.5"], "--factor", "below 1"),
+    (["calc", "concentration", "--initial-volume", "1 L", "--final-volume", "2 L"],
+     "--final-volume", "exceeds"),
+    (["calc", "concentration", "--factor", "2", "--rejection", "150 %"], "--rejection", "0 to 1"),
+]  # fmt: skip
+
+
+@pytest.mark.parametrize(("args", "option", "says"), BAD)
+def test_bad_input_exits_2_naming_the_option(cli: Run, args: list[str], option: str, says: str) -> None:
+    out = cli(*args)
+    assert out.exception is None, f"traceback: {out.exception!r}"
+    assert out.code == 2
+    assert out.stdout == ""
+    assert out.stderr.startswith("error: ")
+    assert option in out.stderr
+    assert says in out.stderr
+    assert "Traceback" not in out.stderr
+
+
+def test_points_file_errors_name_file_and_line(cli: Run, tmp_path: Path) -> None:
+    p = tmp_path / "pts.csv"
+    p.write_text("permeate_flow [mL/min],tmp [bar]\n10,0.2\n20,zero\n")
+    out = cli("calc", "nwp", "--area", "0.1 m^2", "--temperature", "20 degC",
+              "--points-file", str(p))  # fmt: skip
+    assert out.code == 2
+    assert f"{p}:3:" in out.stderr and "'tmp'" in out.stderr
+
+
+def test_usage_errors_exit_2(cli: Run) -> None:
+    out = cli("calc", "viscosity")
+    assert out.code == 2
+    assert "--temperature" in out.stderr
