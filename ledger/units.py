@@ -158,26 +158,44 @@ def split_number(text: str, *, field: str, expected: str) -> tuple[float, str]:
     return number, m.group(2)
 
 
-def parse(text: str, kind: str, *, field: str, default_unit: str | None = None) -> float:
+def parse(
+    text: str,
+    kind: str,
+    *,
+    field: str,
+    default_unit: str | None = None,
+    positive: bool = False,
+) -> float:
     """Parse a quantity as people type it into the SI unit of ``kind``.
 
     A bare number is refused unless ``default_unit`` is given (and stated in the option's help).
-    A fraction accepts "99.9 %" or a bare ratio such as "0.999".
+    A fraction accepts "99.9 %" or a bare ratio such as "0.999". With ``positive`` a value of
+    zero or less is refused (areas, volumes, diameters...).
     """
     expected = _expected(kind)
     number, unit = split_number(text, field=field, expected=expected)
     if not unit:
         if kind == "fraction":
-            return number
-        if default_unit is None:
+            value = number
+        elif default_unit is None:
             raise InputError(
                 f"{field}: {text!r} has no unit; expected {expected}",
                 field=field,
                 value=text,
                 expected=expected,
             )
-        unit = default_unit
-    return to_si(number, unit, kind, field=field, raw=text)
+        else:
+            value = to_si(number, default_unit, kind, field=field, raw=text)
+    else:
+        value = to_si(number, unit, kind, field=field, raw=text)
+    if positive and value <= 0:
+        raise InputError(
+            f"{field}: {text!r} must be greater than zero",
+            field=field,
+            value=text,
+            expected=f"a {_dimension_word(kind)} greater than zero",
+        )
+    return value
 
 
 def split_header(header: str) -> tuple[str, str | None]:

@@ -24,9 +24,14 @@ def explain(err: LedgerError, options: dict[str, Any]) -> str:
     shown with that option's flag (our options are always spelled ``--field-name``).
     """
     text = str(err)
-    if err.field in options and not text.startswith("--"):
-        flag = "--" + err.field.replace("_", "-")
-        return f"{flag} {options[err.field]!r}: {text}"
+    if not err.field or text.startswith("--"):
+        return text
+    # Science parameters may carry an SI suffix ("test_pressure_pa"); try shorter names too.
+    parts = err.field.split("_")
+    for end in range(len(parts), 0, -1):
+        name = "_".join(parts[:end])
+        if name in options:
+            return f"--{name.replace('_', '-')} {options[name]!r}: {text}"
     return text
 
 

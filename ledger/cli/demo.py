@@ -10,6 +10,7 @@ from __future__ import annotations
 import contextlib
 import io
 import json
+import os
 import shlex
 import tomllib
 from pathlib import Path
@@ -38,6 +39,20 @@ def _run(args: list[str]) -> tuple[int, str]:
     return code, out.getvalue()
 
 
+def _shown(path: Path) -> str:
+    """A path as short as it can be said from the current folder."""
+    rel = os.path.relpath(path)
+    return path.as_posix() if rel.startswith("..") else Path(rel).as_posix()
+
+
+def _write_atomically(target: Path, text: str) -> Path:
+    """Write through a temporary file and rename, so a crash never leaves half a file."""
+    tmp = target.with_name(target.name + ".tmp")
+    tmp.write_text(text, encoding="utf-8")
+    tmp.replace(target)
+    return target
+
+
 def demo(
     out: Path = typer.Option(..., "--out", help="Folder to write the demo's outputs into."),
     samples: Path = typer.Option(
@@ -60,22 +75,24 @@ def demo(
     typer.echo(site["disclaimer"])
     written: list[Path] = []
     results: dict[str, object] = {}
+    transcript: list[str] = [site["company"] + " — " + site["setting"], site["disclaimer"]]
     for step in scenario["steps"]:
-        args = shlex.split(step["command"].replace("{samples}", shlex.quote(str(samples))))
+        args = shlex.split(step["command"].replace("{samples}", shlex.quote(_shown(samples))))
         typer.echo("")
         typer.echo(f"== {step['title']}")
-        typer.echo(f"$ fluxledger {' '.join(shlex.quote(a) for a in args)}")
+        typer.echo(f"$ fluxledger {shlex.join(args)}")
         code, text = _run(args)
         typer.echo(text.rstrip())
+        transcript += ["", f"== {step['title']}", f"$ fluxledger {shlex.join(args)}", text.rstrip()]
         jcode, jtext = _run([*args, "--json"])
         if jcode != code or jcode not in (0, 1):
             raise RuntimeError(f"demo step {step['name']!r} failed with exit code {jcode}")
         results[step["name"]] = {"exit_code": jcode, "report": json.loads(jtext)}
-    target = out / "bench_calculations.json"
-    tmp = target.with_suffix(".json.tmp")
-    tmp.write_text(json.dumps(results, indent=2, ensure_ascii=False) + "\n", encoding="utf-8")
-    tmp.replace(target)
-    written.append(target)
+    for name, text in (
+        ("bench_calculations.json", json.dumps(results, indent=2, ensure_ascii=False)),
+        ("bench_session.txt", "\n".join(transcript)),
+    ):
+        written.append(_write_atomically(out / name, text + "\n"))
     typer.echo("")
     typer.echo("Wrote:")
     for path in written:

@@ -18,6 +18,7 @@ app = typer.Typer(
     ),
     no_args_is_help=True,
     pretty_exceptions_enable=False,
+    rich_markup_mode=None,
     add_completion=False,
 )
 

@@ -41,7 +41,9 @@ class Q:
 
 
 def _number(x: float, digits: int = 4) -> str:
-    if x == 0 or not math.isfinite(x):
+    if x == 0:
+        return "0"
+    if not math.isfinite(x):
         return str(x)
     x = float(f"{x:.{digits}g}")  # round to significant digits before choosing the layout
     if 1e-3 <= abs(x) < 1e6:
@@ -60,7 +62,9 @@ def human(value: Any) -> str:
     if isinstance(value, bool):
         return "yes" if value else "no"
     if isinstance(value, float):
-        return _number(value)
+        return str(int(value)) if value.is_integer() and abs(value) < 1e9 else _number(value)
+    if isinstance(value, list | tuple):
+        return ", ".join(human(v) for v in value)
     if value is None:
         return "—"
     return str(value)
@@ -151,8 +155,9 @@ class Report:
             console.print()
         for t in self.tables:
             table = RichTable(title=t.title, title_justify="left")
-            for _, label in t.columns:
-                table.add_column(label, justify="right")
+            for i, (_, label) in enumerate(t.columns):
+                texty = bool(t.rows) and isinstance(t.rows[0][i], str | list)
+                table.add_column(label, justify="left" if texty else "right")
             for row in t.rows:
                 table.add_row(*(human(v) for v in row))
             console.print(table)

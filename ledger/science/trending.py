@@ -370,6 +370,8 @@ def _bound_crossing(
     # The bound is concave in x, so on [x_first, inf) it rises to one maximum and then falls; the
     # crossing wanted is on the falling side. The bound lies below the fitted line, so the fitted
     # crossing closes the bracket on the right.
+    # Far to the left the bound's slope tends to slope + t·se(slope), which is positive only when
+    # |slope| < t·se(slope); only then does it peak, at x_mean + u, where its slope is zero.
     x_top = x_first
     se_b = fit.slope_se
     q = (fit.slope / (t * se_b)) ** 2 if se_b > 0 else math.inf

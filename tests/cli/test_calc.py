@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -181,7 +182,9 @@ BAD = [
 
 
 @pytest.mark.parametrize(("args", "option", "says"), BAD)
-def test_bad_input_exits_2_naming_the_option(cli: Run, args: list[str], option: str, says: str) -> None:
+def test_bad_input_exits_2_naming_the_option(
+    cli: Run, args: list[str], option: str, says: str
+) -> None:
     out = cli(*args)
     assert out.exception is None, f"traceback: {out.exception!r}"
     assert out.code == 2
@@ -205,3 +208,161 @@ def test_usage_errors_exit_2(cli: Run) -> None:
     out = cli("calc", "viscosity")
     assert out.code == 2
     assert "--temperature" in out.stderr
+
+
+def _decay_file(tmp_path: Path, rate_psi_per_min: float) -> Path:
+    p = tmp_path / "decay.csv"
+    rows = [f"{t},{15.0 - rate_psi_per_min * t}" for t in range(6)]
+    p.write_text("time [min],pressure [psi]\n" + "\n".join(rows) + "\n")
+    return p
+
+
+def test_decay_from_readings_pass_and_gas_flow(cli: Run, tmp_path: Path) -> None:
+    p = _decay_file(tmp_path, 0.05)
+    data = ok_json(cli, "calc", "decay", "--volume", "45 mL", "--readings-file", str(p),
+                   "--limit", "0.1 psi/min")  # fmt: skip
+    assert data["verdict"] == "PASS"
+    assert in_unit(data["results"]["decay_rate"], "psi/min") == pytest.approx(0.05, rel=1e-9)
+    # Independent: ideal gas, isothermal. Moles lost per second n' = V·dP/dt/(R·T); at
+    # 1 atm that is a volume flow n'·R·T/P_atm = V·(dP/dt)/P_atm (the T cancels).
+    dpdt = 0.05 * 6894.757293168 / 60
+    expected = 45e-6 * dpdt / 101325.0
+    assert in_unit(data["results"]["gas_flow"], "m^3/s") == pytest.approx(expected, rel=1e-9)
+
+
+def test_decay_fail_exits_1(cli: Run, tmp_path: Path) -> None:
+    p = _decay_file(tmp_path, 0.3)
+    out = cli("calc", "decay", "--volume", "45 mL", "--readings-file", str(p),
+              "--limit", "0.1 psi/min")  # fmt: skip
+    assert out.code == 1
+    assert "Verdict: FAIL" in out.stdout
+
+
+def test_decay_gas_flow_limit_and_lrv(cli: Run) -> None:
+    data = ok_json(
+        cli, "calc", "decay", "--volume", "100 mL", "--rate", "0.2 psi/min",
+        "--limit", "2 mL/min", "--test-pressure", "15 psi", "--operating-tmp", "5 psi",
+        "--filtrate-flow", "1 L/min",
+    )  # fmt: skip
+    res = data["results"]
+    gas = in_unit(res["gas_flow"], "m^3/s")
+    # LRV = log10(Qp·ALCR/(VCF·Q_air)) (USEPA MFGM), recomputed here from the printed ALCR.
+    assert res["lrv"] == pytest.approx(math.log10((1e-3 / 60) * res["alcr"] / gas), rel=1e-9)
+    # By hand: 0.2 psi/min = 22.98 Pa/s; 1e-4 m³ · 22.98 / 101325 = 1.361 mL/min <= 2 mL/min.
+    assert gas * 6e7 == pytest.approx(1.3610, rel=1e-4)
+    assert data["verdict"] == "PASS"
+
+
+def test_bubble_point_round_trip(cli: Run) -> None:
+    data = ok_json(cli, "calc", "bubble-point", "--pore-size", "0.2 um")
+    p = data["results"]["bubble_point"]
+    # Young–Laplace by hand: 4 · 0.07274 N/m / 0.2e-6 m = 1.4547e6 Pa (γ from IAPWS 2014).
+    assert in_unit(p, "Pa") == pytest.approx(1.4547e6, rel=1e-3)
+    back = ok_json(cli, "calc", "bubble-point", "--pressure", f"{p['value']} {p['unit']}")
+    assert in_unit(back["results"]["pore_size"], "um") == pytest.approx(0.2, rel=1e-9)
+
+
+def test_optimum_against_numerical_minimization(cli: Run, tmp_path: Path) -> None:
+    from scipy import optimize
+
+    k_lmh, cg = 25.0, 30.0  # exact synthetic points on J = k·ln(Cg/C)
+    p = tmp_path / "gel.csv"
+    p.write_text(
+        "concentration [g/L],flux [LMH]\n"
+        + "\n".join(f"{c},{k_lmh * math.log(cg / c)!r}" for c in (1, 2, 4, 8, 16))
+    )
+    data = ok_json(cli, "calc", "optimum", "--points-file", str(p))
+    # Independent: minimize t ∝ 1/(C·J(C)) numerically (scipy), not by the Cg/e formula.
+    best = optimize.minimize_scalar(
+        lambda c: 1 / (c * k_lmh * math.log(cg / c)),
+        bounds=(0.5, cg * 0.99),
+        method="bounded",
+        options={"xatol": 1e-9},
+    )
+    opt = in_unit(data["results"]["optimum_concentration"], "g/L")
+    assert opt == pytest.approx(best.x, rel=1e-5)
+    assert in_unit(data["results"]["k"], "L/m^2/h") == pytest.approx(k_lmh, rel=1e-9)
+
+
+def test_lifetime_against_statsmodels(cli: Run, tmp_path: Path) -> None:
+    import numpy as np
+    import statsmodels.api as sm
+
+    cycles = np.arange(1, 11, dtype=float)
+    rec = 100 - 1.2 * cycles + np.array([0.3, -0.2, 0.1, 0.4, -0.5, 0.2, -0.1, 0.3, -0.4, 0.1])
+    p = tmp_path / "life.csv"
+    p.write_text(
+        "cycle,recovery [%]\n"
+        + "\n".join(f"{c:g},{float(r)!r}" for c, r in zip(cycles, rec, strict=True))
+    )
+    data = ok_json(cli, "calc", "lifetime", "--points-file", str(p), "--limit", "80 %")
+    crossing = data["results"]["bound_crossing"]
+    # Source: statsmodels OLS; one-sided 95 % lower bound = lower end of a 90 % interval.
+    model = sm.OLS(rec / 100, sm.add_constant(cycles)).fit()
+    pred = model.get_prediction(np.array([[1.0, crossing]])).conf_int(alpha=0.10)
+    assert pred[0, 0] == pytest.approx(0.80, abs=1e-6)
+
+
+def test_lifetime_control_chart_signals(cli: Run, tmp_path: Path) -> None:
+    p = tmp_path / "life.csv"
+    values = [98, 97, 98.5, 97.5, 98, 97, 90]  # the last point falls far below the baseline
+    p.write_text("cycle,recovery [%]\n" + "\n".join(f"{i + 1},{v}" for i, v in enumerate(values)))
+    data = ok_json(cli, "calc", "lifetime", "--points-file", str(p), "--limit", "80 %",
+                   "--baseline-cycles", "6")  # fmt: skip
+    rules = {(s["rule_set"], s["rule"]) for s in data["signals"]}
+    assert ("western_electric", 1) in rules and ("nelson", 1) in rules
+    assert [
+        s["cycles"] for s in data["signals"] if s["rule_set"] == "nelson" and s["rule"] == 1
+    ] == [[7]]
+
+
+BAD_MORE = [
+    (["calc", "decay", "--volume", "45 mL"], "--rate", "exactly one"),
+    (["calc", "decay", "--volume", "45 psi", "--rate", "0.1 psi/min"], "--volume", "volume"),
+    (["calc", "decay", "--volume", "45 mL", "--rate", "0.1 psi"], "--rate", "pressure rate"),
+    (["calc", "decay", "--volume", "45 mL", "--rate", "0.1 psi/min", "--limit", "3 psi"],
+     "--limit", "neither"),
+    (["calc", "decay", "--volume", "45 mL", "--rate", "0.1 psi/min", "--test-pressure", "15 psi"],
+     "--operating-tmp", "both"),
+    (["calc", "decay", "--volume", "-45 mL", "--rate", "0.1 psi/min"], "--volume", "greater"),
+    (["calc", "bubble-point"], "--pore-size", "exactly one"),
+    (["calc", "bubble-point", "--pore-size", "0.2 psi"], "--pore-size", "length"),
+    (["calc", "bubble-point", "--pore-size", "0.2 um", "--contact-angle", "95"],
+     "--contact-angle", "contact"),
+    (["calc", "lifetime", "--points-file", "nope.csv", "--limit", "80 %"], "nope.csv",
+     "no such file"),
+    (["calc", "optimum", "--points-file", "nope.csv"], "nope.csv", "no such file"),
+]  # fmt: skip
+
+
+@pytest.mark.parametrize(("args", "option", "says"), BAD_MORE)
+def test_more_bad_input_exits_2(cli: Run, args: list[str], option: str, says: str) -> None:
+    out = cli(*args)
+    assert out.exception is None, f"traceback: {out.exception!r}"
+    assert out.code == 2, out.stderr
+    assert option in out.stderr and says in out.stderr
+    assert out.stdout == ""
+
+
+@pytest.mark.parametrize(
+    ("command", "text", "says"),
+    [
+        ("optimum", "concentration [g/L],flux [LMH]\n1,10\n2,20\n4,30\n", "does not fall"),
+        ("optimum", "concentration [g/L],flux [LMH]\n1,10\n-2,20\n", "concentration"),
+        ("lifetime", "cycle,recovery [%]\n1,99\n2,98\n", "at least 3"),
+        ("lifetime", "cycle,recovery\n1,99\n2,98\nx,97\n", "not a number"),
+        ("decay", "time [s],pressure [psi]\n0,15\n0,14.9\n", "time"),
+        ("decay", "time [s],pressure [psi]\n0,15\n", "at least 2"),
+    ],
+)
+def test_bad_points_files_exit_2(
+    cli: Run, tmp_path: Path, command: str, text: str, says: str
+) -> None:
+    p = tmp_path / "pts.csv"
+    p.write_text(text)
+    extra = {"optimum": [], "lifetime": ["--limit", "80 %"], "decay": ["--volume", "45 mL"]}
+    flag = "--readings-file" if command == "decay" else "--points-file"
+    out = cli("calc", command, flag, str(p), *extra[command])
+    assert out.exception is None, f"traceback: {out.exception!r}"
+    assert out.code == 2, out.stderr
+    assert str(p) in out.stderr and says in out.stderr

@@ -162,6 +162,9 @@ RECOVERY = np.array([100.0, 98.6, 98.1, 96.0, 95.9, 94.2, 93.1, 92.8, 90.7, 90.5
 # Few, noisy points: the bound rises to a maximum after the first cycle before it falls.
 FEW_CYCLES = np.array([0.0, 1.0, 2.0, 3.0, 4.0])
 FEW_RECOVERY = np.array([99.0, 97.0, 98.5, 95.0, 96.5])
+# Nearly flat: the bound starts below the limit of 94 %, rises above it, then falls through it.
+FLAT_CYCLES = np.arange(6, dtype=float)
+FLAT_RECOVERY = np.array([95.0, 97.0, 94.0, 96.5, 95.5, 94.8])
 
 
 def _ols(x: NDArray[np.float64], y: NDArray[np.float64]) -> Any:
@@ -183,6 +186,7 @@ CASES = [
     (CYCLES / 100, RECOVERY / 100, 0.80, "linear", 0.95),
     (FEW_CYCLES, FEW_RECOVERY, 90.0, "linear", 0.95),
     (FEW_CYCLES, FEW_RECOVERY, 90.0, "exponential", 0.95),
+    (FLAT_CYCLES, FLAT_RECOVERY, 94.0, "linear", 0.95),
 ]
 
 

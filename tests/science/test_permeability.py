@@ -20,7 +20,9 @@ def test_correction_there_and_back_is_identity(t: float, t_ref: float) -> None:
 
 
 @given(liquid, liquid, st.floats(min_value=500, max_value=5000))
-def test_exponential_correction_there_and_back_is_identity(t: float, t_ref: float, u: float) -> None:
+def test_exponential_correction_there_and_back_is_identity(
+    t: float, t_ref: float, u: float
+) -> None:
     there = perm.correction_factor(t, t_ref, "exponential", u)
     assert there * perm.correction_factor(t_ref, t, "exponential", u) == pytest.approx(1.0)
 

@@ -224,6 +224,16 @@ def test_higher_confidence_gives_an_earlier_end_of_life() -> None:
     assert p99.fitted_crossing == pytest.approx(p95.fitted_crossing)
 
 
+def test_crossing_is_found_when_the_bound_starts_below_the_limit() -> None:
+    # Nearly flat, noisy data: the bound is below 94 at cycle 0, above it around cycle 2, and
+    # the end of life is where it falls back through 94.
+    p = project_life([0, 1, 2, 3, 4, 5], [95.0, 97.0, 94.0, 96.5, 95.5, 94.8], 94.0)
+    assert lower_bound(p, 0.0) < 94.0 < lower_bound(p, 2.0)
+    assert p.status == "projected" and p.bound_crossing is not None
+    assert 2.0 < p.bound_crossing < 10.0
+    assert lower_bound(p, p.bound_crossing) == pytest.approx(94.0, abs=1e-8)
+
+
 def test_rising_recovery_gets_no_crossing() -> None:
     p = project_life([0, 1, 2, 3, 4], [95.0, 96.2, 95.9, 97.0, 97.4], 80.0)
     assert p.status == "not_declining"

@@ -1,0 +1,63 @@
+"""Benchmarks of fluxledger, each printed beside a baseline measured in the same run (§9).
+
+Run with `make bench`. Nothing here is asserted by the test suite; the figures are ratios
+against a baseline taken on the same machine at the same time, so they travel between machines.
+"""
+
+from __future__ import annotations
+
+import argparse
+import shutil
+import statistics
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+
+def _wall(cmd: list[str]) -> float:
+    start = time.perf_counter()
+    subprocess.run(cmd, check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    return time.perf_counter() - start
+
+
+def compare(
+    name: str, baseline: list[str], subject: list[str], repeats: int, target: float
+) -> bool:
+    """Time two commands alternately; print medians and the ratio against the target."""
+    _wall(baseline), _wall(subject)  # warm the file cache
+    base, subj = [], []
+    for _ in range(repeats):
+        base.append(_wall(baseline))
+        subj.append(_wall(subject))
+    b, s = statistics.median(base), statistics.median(subj)
+    ratio = s / b
+    verdict = "meets" if ratio <= target else "MISSES"
+    print(f"{name}")
+    print(f"  baseline  {' '.join(baseline[-2:]):<40} median {b * 1e3:7.1f} ms")
+    print(f"  measured  {' '.join(subject[-2:]):<40} median {s * 1e3:7.1f} ms")
+    print(f"  ratio     {ratio:.2f}x  (target <= {target}x: {verdict}; {repeats} runs each)")
+    return ratio <= target
+
+
+def main() -> int:
+    parser = argparse.ArgumentParser(description=__doc__)
+    parser.add_argument("--repeats", type=int, default=15)
+    args = parser.parse_args()
+    exe = sys.executable
+    script = shutil.which("fluxledger", path=str(Path(exe).parent)) or shutil.which("fluxledger")
+    if script is None:
+        print("fluxledger is not installed in this environment; run `make bench`", file=sys.stderr)
+        return 2
+    ok = compare(
+        "CLI start-up: `fluxledger --help` against bare `import typer`",
+        [exe, "-c", "import typer"],
+        [script, "--help"],
+        args.repeats,
+        2.5,
+    )
+    return 0 if ok else 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,62 @@
+"""DESIGN §2: imports point one way; science/ and rules/ stay pure; the CLI starts light."""
+
+from __future__ import annotations
+
+import ast
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+PURE = ["ledger/science", "ledger/rules"]
+FORBIDDEN_IN_PURE = {"pandas", "pint", "sqlmodel", "sqlalchemy", "typer", "rich", "reportlab"}
+FORBIDDEN_LEDGER = {"ledger.store", "ledger.logbook", "ledger.runs", "ledger.records", "ledger.cli",
+                    "ledger.units", "ledger.pointsfile"}  # fmt: skip
+
+
+def imported_modules(path: Path) -> set[str]:
+    tree = ast.parse(path.read_text(encoding="utf-8"))
+    names: set[str] = set()
+    for node in ast.walk(tree):
+        if isinstance(node, ast.Import):
+            names.update(alias.name for alias in node.names)
+        elif isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
+            names.add(node.module)
+    return names
+
+
+@pytest.mark.parametrize(
+    "path", sorted(p for folder in PURE for p in (ROOT / folder).rglob("*.py")), ids=str
+)
+def test_pure_layers_import_nothing_above_them(path: Path) -> None:
+    for name in imported_modules(path):
+        top = name.split(".")[0]
+        assert top not in FORBIDDEN_IN_PURE, f"{path.name} imports {name}"
+        assert not any(name == f or name.startswith(f + ".") for f in FORBIDDEN_LEDGER), (
+            f"{path.name} imports {name}"
+        )
+
+
+def _loaded_after(statement: str) -> set[str]:
+    code = f"import sys; {statement}; print('\\n'.join(sorted(sys.modules)))"
+    out = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True, cwd=ROOT
+    )
+    return set(out.stdout.split())
+
+
+def test_science_loads_without_pandas_or_pint() -> None:
+    mods = _loaded_after(
+        "import ledger.science.water, ledger.science.permeability, ledger.science.hydraulics, "
+        "ledger.science.concentration, ledger.science.integrity, ledger.science.gel, "
+        "ledger.science.trending, ledger.science.fit"
+    )
+    assert not {"pandas", "pint", "sqlalchemy", "sqlmodel"} & mods
+
+
+def test_cli_start_up_path_has_no_heavy_imports() -> None:
+    # `fluxledger --help` must stay close to bare typer (DESIGN §9): no numpy, pint, pandas.
+    mods = _loaded_after("import ledger.cli.main")
+    assert not {"numpy", "pint", "pandas", "scipy", "sqlalchemy", "reportlab"} & mods
