@@ -72,7 +72,11 @@ def registry() -> pint.UnitRegistry:
     """The application's unit registry, with the trade's flux units added."""
     import pint
 
-    ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+    try:
+        # pint's on-disk cache of its parsed definitions saves ~0.1 s on every command.
+        ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=":auto:")
+    except OSError:  # no writable cache folder: parse the definitions every time
+        ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
     ureg.define("LMH = liter / meter ** 2 / hour")
     ureg.define("GFD = gallon / foot ** 2 / day")
     return ureg

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import typer
 
-from ledger.cli.common import JSON_OPTION, guarded
+from ledger.cli.common import JSON_OPTION, guarded, quantity_option
 from ledger.errors import InputError
 
 app = typer.Typer(
@@ -68,7 +68,7 @@ def _typed_unit(text: str | None, kind: str | None = None) -> str | None:
 @app.command("viscosity")
 @guarded
 def viscosity(
-    temperature: str = typer.Option(
+    temperature: str = quantity_option(
         ..., "--temperature", help="Water temperature with unit, e.g. '20 degC', '68 degF'."
     ),
     as_json: bool = JSON_OPTION,
@@ -98,19 +98,21 @@ def viscosity(
 @app.command("nwp")
 @guarded
 def nwp(
-    area: str = typer.Option(..., "--area", help="Membrane area, e.g. '0.5 m^2', '1200 cm^2'."),
-    permeate_flow: str | None = typer.Option(
+    area: str = quantity_option(..., "--area", help="Membrane area, e.g. '0.5 m^2', '1200 cm^2'."),
+    permeate_flow: str | None = quantity_option(
         None, "--permeate-flow", help="Clean-water permeate flow, e.g. '250 mL/min'."
     ),
-    feed: str | None = typer.Option(None, "--feed", help="Feed (inlet) pressure. " + GAUGE),
-    retentate: str | None = typer.Option(None, "--retentate", help="Retentate pressure. " + GAUGE),
-    permeate: str = typer.Option(
+    feed: str | None = quantity_option(None, "--feed", help="Feed (inlet) pressure. " + GAUGE),
+    retentate: str | None = quantity_option(
+        None, "--retentate", help="Retentate pressure. " + GAUGE
+    ),
+    permeate: str = quantity_option(
         "0 bar", "--permeate", help="Permeate pressure (default 0 bar: open). " + GAUGE
     ),
-    temperature: str | None = typer.Option(
+    temperature: str | None = quantity_option(
         None, "--temperature", help="Water temperature, e.g. '18.5 degC'."
     ),
-    reference_temperature: str = typer.Option(
+    reference_temperature: str = quantity_option(
         "20 degC", "--reference-temperature", help="Temperature to normalize to."
     ),
     correction: CorrectionMethod = typer.Option(
@@ -119,10 +121,10 @@ def nwp(
         help="viscosity: µ(T)/µ(Tref), right for water through UF/MF. exponential: "
         "exp(U(1/T-1/Tref)), the RO form; it over-corrects UF water flux.",
     ),
-    u_constant: str | None = typer.Option(
+    u_constant: str | None = quantity_option(
         None, "--u-constant", help="U of the exponential form, in K (bare number = K)."
     ),
-    baseline: str | None = typer.Option(
+    baseline: str | None = quantity_option(
         None, "--baseline", help="Baseline NWP for recovery, e.g. '420 LMH/bar'."
     ),
     points_file: Path | None = typer.Option(
@@ -326,17 +328,17 @@ def nwp(
 @guarded
 def shear(
     fibers: int = typer.Option(..., "--fibers", help="Number of fibers in the module."),
-    lumen_id: str = typer.Option(..., "--lumen-id", help="Fiber inner diameter, e.g. '0.5 mm'."),
-    feed_flow: str | None = typer.Option(
+    lumen_id: str = quantity_option(..., "--lumen-id", help="Fiber inner diameter, e.g. '0.5 mm'."),
+    feed_flow: str | None = quantity_option(
         None, "--feed-flow", help="Total feed flow, e.g. '1.2 L/min'."
     ),
-    target_shear: str | None = typer.Option(
+    target_shear: str | None = quantity_option(
         None, "--target-shear", help="Wall shear rate wanted, e.g. '4000 1/s'."
     ),
-    length: str | None = typer.Option(
+    length: str | None = quantity_option(
         None, "--length", help="Effective fiber length for the pressure drop, e.g. '30 cm'."
     ),
-    temperature: str = typer.Option(
+    temperature: str = quantity_option(
         "20 degC", "--temperature", help="Fluid temperature (water properties)."
     ),
     as_json: bool = JSON_OPTION,
@@ -394,14 +396,14 @@ def shear(
 @app.command("diafiltration")
 @guarded
 def diafiltration(
-    removal: str | None = typer.Option(
+    removal: str | None = quantity_option(
         None, "--removal", help="Removal wanted, e.g. '99.9 %' (a bare number is a fraction)."
     ),
     diavolumes: float | None = typer.Option(None, "--diavolumes", help="Diavolumes to run."),
-    sieving: str = typer.Option(
+    sieving: str = quantity_option(
         "1", "--sieving", help="Sieving coefficient S = 1 - rejection (default 1: passes freely)."
     ),
-    volume: str | None = typer.Option(
+    volume: str | None = quantity_option(
         None, "--volume", help="Retentate volume held during diafiltration, e.g. '2 L'."
     ),
     dilution_factor: float | None = typer.Option(
@@ -467,19 +469,19 @@ def diafiltration(
 @guarded
 def concentration(
     factor: float | None = typer.Option(None, "--factor", help="Concentration factor V0/Vf."),
-    initial_volume: str | None = typer.Option(
+    initial_volume: str | None = quantity_option(
         None, "--initial-volume", help="Volume before concentration, e.g. '5 L'."
     ),
-    final_volume: str | None = typer.Option(
+    final_volume: str | None = quantity_option(
         None, "--final-volume", help="Volume after concentration, e.g. '500 mL'."
     ),
-    rejection: str = typer.Option(
+    rejection: str = quantity_option(
         "1", "--rejection", help="Observed rejection of the product (default 1 = fully retained)."
     ),
-    initial_concentration: str | None = typer.Option(
+    initial_concentration: str | None = quantity_option(
         None, "--initial-concentration", help="Product concentration before, e.g. '0.5 g/L'."
     ),
-    area: str | None = typer.Option(
+    area: str | None = quantity_option(
         None, "--area", help="Membrane area, for the module loading, e.g. '0.1 m^2'."
     ),
     as_json: bool = JSON_OPTION,
@@ -554,10 +556,10 @@ def concentration(
 @app.command("decay")
 @guarded
 def decay(
-    volume: str = typer.Option(
+    volume: str = quantity_option(
         ..., "--volume", help="Upstream (pressurized) gas volume of the test, e.g. '45 mL'."
     ),
-    rate: str | None = typer.Option(
+    rate: str | None = quantity_option(
         None, "--rate", help="Measured pressure-decay rate, e.g. '0.05 psi/min'."
     ),
     readings_file: Path | None = typer.Option(
@@ -566,31 +568,31 @@ def decay(
         help="CSV of readings with units in the headers: 'time [s]' (or [min]) and "
         "'pressure [psi]' (gauge).",
     ),
-    atmosphere: str = typer.Option(
+    atmosphere: str = quantity_option(
         "1 atm", "--atmosphere", help="ABSOLUTE atmospheric pressure, e.g. '1013 mbar'."
     ),
-    limit: str | None = typer.Option(
+    limit: str | None = quantity_option(
         None,
         "--limit",
         help="Allowed decay rate ('0.1 psi/min') or allowed gas flow ('2 mL/min') from the "
         "module type's validated procedure.",
     ),
-    test_pressure: str | None = typer.Option(
+    test_pressure: str | None = quantity_option(
         None, "--test-pressure", help="For ALCR/LRV: test pressure (gauge), e.g. '15 psi'."
     ),
-    back_pressure: str = typer.Option(
+    back_pressure: str = quantity_option(
         "0 psi", "--back-pressure", help="For ALCR/LRV: pressure on the other side (gauge)."
     ),
-    operating_tmp: str | None = typer.Option(
+    operating_tmp: str | None = quantity_option(
         None, "--operating-tmp", help="For ALCR/LRV: TMP in normal operation, e.g. '5 psi'."
     ),
-    filtrate_flow: str | None = typer.Option(
+    filtrate_flow: str | None = quantity_option(
         None, "--filtrate-flow", help="For LRV: filtrate flow of the unit, e.g. '200 mL/min'."
     ),
     vcf: float = typer.Option(
         1.0, "--vcf", help="For LRV: volumetric concentration factor (default 1)."
     ),
-    temperature: str = typer.Option(
+    temperature: str = quantity_option(
         "20 degC", "--temperature", help="Test temperature (air and water viscosity)."
     ),
     as_json: bool = JSON_OPTION,
@@ -698,19 +700,19 @@ def decay(
 @app.command("bubble-point")
 @guarded
 def bubble_point(
-    pore_size: str | None = typer.Option(
+    pore_size: str | None = quantity_option(
         None, "--pore-size", help="Largest pore diameter, e.g. '0.2 um'."
     ),
-    pressure: str | None = typer.Option(
+    pressure: str | None = quantity_option(
         None, "--pressure", help="Measured bubble point (differential), e.g. '50 psi'."
     ),
-    surface_tension: str | None = typer.Option(
+    surface_tension: str | None = quantity_option(
         None,
         "--surface-tension",
         help="Wetting liquid surface tension, e.g. '22.3 mN/m'; default: water at --temperature.",
     ),
     contact_angle: float = typer.Option(0.0, "--contact-angle", help="Contact angle in degrees."),
-    temperature: str = typer.Option("20 degC", "--temperature", help="Liquid temperature."),
+    temperature: str = quantity_option("20 degC", "--temperature", help="Liquid temperature."),
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Young–Laplace bubble point from a pore size, or the pore size from a bubble point."""
@@ -766,12 +768,12 @@ def optimum(
         "--points-file",
         help="CSV of flux against concentration: 'concentration [g/L]', 'flux [LMH]'.",
     ),
-    product_mass: str | None = typer.Option(
+    product_mass: str | None = quantity_option(
         None, "--product-mass", help="Product mass in the batch, e.g. '25 g' (for time/buffer)."
     ),
     diavolumes: float | None = typer.Option(None, "--diavolumes", help="Diavolumes planned."),
-    area: str | None = typer.Option(None, "--area", help="Membrane area, e.g. '0.5 m^2'."),
-    at_concentration: str | None = typer.Option(
+    area: str | None = quantity_option(None, "--area", help="Membrane area, e.g. '0.5 m^2'."),
+    at_concentration: str | None = quantity_option(
         None, "--at-concentration", help="A concentration to compare with the optimum."
     ),
     as_json: bool = JSON_OPTION,
@@ -854,7 +856,7 @@ def lifetime(
         "--points-file",
         help="CSV of post-clean NWP recovery per cycle: 'cycle', 'recovery [%]'.",
     ),
-    limit: str = typer.Option(
+    limit: str = quantity_option(
         ..., "--limit", help="Lowest acceptable recovery from the site's procedure, e.g. '80 %'."
     ),
     model: LifeModel = typer.Option(

@@ -14,6 +14,12 @@ JSON_OPTION = typer.Option(
     False, "--json", help="Print one JSON object (quantities as value and unit) instead of tables."
 )
 
+
+def quantity_option(default: Any, *flags: str, help: str) -> Any:
+    """An option that takes a number with its unit ("20 psi"), shown as QUANTITY in help."""
+    return typer.Option(default, *flags, help=help, metavar="QUANTITY")
+
+
 F = TypeVar("F", bound=Callable[..., Any])
 
 

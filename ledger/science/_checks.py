@@ -63,3 +63,36 @@ def series(
     if not np.all(np.isfinite(arr)):
         raise out_of_range(name, "non-finite entry", "finite numbers only")
     return arr
+
+
+def whole(name: str, value: float, minimum: int = 1) -> int:
+    """Return ``value`` as int if it is a whole number of at least ``minimum``."""
+    x = finite(name, value)
+    if x != int(x) or x < minimum:
+        raise DomainError(
+            f"{name} = {value!r} is not a whole number of {minimum} or more",
+            field=name,
+            value=value,
+            expected=f"a whole number, {minimum} or more",
+        )
+    return int(x)
+
+
+def paired(
+    x_name: str,
+    x: Sequence[float] | NDArray[np.float64],
+    y_name: str,
+    y: Sequence[float] | NDArray[np.float64],
+    minimum: int,
+) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """Two series of equal length (at least ``minimum`` finite values each), as float arrays."""
+    xa = series(x_name, x, minimum)
+    ya = series(y_name, y, minimum)
+    if xa.size != ya.size:
+        raise DomainError(
+            f"{y_name} has {ya.size} values but {x_name} has {xa.size}",
+            field=y_name,
+            value=int(ya.size),
+            expected=f"{xa.size} values, one per {x_name}",
+        )
+    return xa, ya

@@ -19,7 +19,7 @@ import math
 from dataclasses import dataclass
 
 from ledger.errors import DomainError
-from ledger.science._checks import non_negative, positive, within
+from ledger.science._checks import non_negative, positive, whole, within
 
 
 def _fraction(name: str, value: float) -> float:
@@ -104,6 +104,18 @@ def buffer_volume(diavolumes: float, volume_m3: float) -> float:
     return non_negative("diavolumes", diavolumes) * positive("volume", volume_m3)
 
 
+def _dilution(dilution_factor: float) -> float:
+    d = positive("dilution_factor", dilution_factor)
+    if d <= 1.0:
+        raise DomainError(
+            f"dilution_factor = {dilution_factor!r} does not dilute",
+            field="dilution_factor",
+            value=dilution_factor,
+            expected="a dilution factor above 1 (e.g. 2 = add one volume of buffer)",
+        )
+    return d
+
+
 @dataclass(frozen=True)
 class Discontinuous:
     """Outcome of n dilute/concentrate steps of dilution factor d (volumes in units of V)."""
@@ -119,22 +131,8 @@ def discontinuous_diafiltration(
     dilution_factor: float, steps: int, sieving: float = 1.0
 ) -> Discontinuous:
     """Remaining fraction d^(-n·S) and buffer n·(d-1)·V after n dilute/concentrate steps."""
-    d = positive("dilution_factor", dilution_factor)
-    if d <= 1.0:
-        raise DomainError(
-            f"dilution_factor = {dilution_factor!r} does not dilute",
-            field="dilution_factor",
-            value=dilution_factor,
-            expected="a dilution factor above 1 (e.g. 2 = add one volume of buffer)",
-        )
-    n = int(positive("steps", steps))
-    if n != steps:
-        raise DomainError(
-            f"steps = {steps!r} is not a whole number",
-            field="steps",
-            value=steps,
-            expected="a whole number of steps, 1 or more",
-        )
+    d = _dilution(dilution_factor)
+    n = whole("steps", steps)
     s = _sieving(sieving)
     remaining = d ** (-n * s)
     return Discontinuous(
@@ -149,14 +147,7 @@ def discontinuous_diafiltration(
 def steps_for_removal(removal: float, dilution_factor: float, sieving: float = 1.0) -> int:
     """Fewest dilute/concentrate steps of factor d that reach the removal fraction."""
     n_cont = diavolumes_for_removal(removal, sieving)
-    d = positive("dilution_factor", dilution_factor)
-    if d <= 1.0:
-        raise DomainError(
-            f"dilution_factor = {dilution_factor!r} does not dilute",
-            field="dilution_factor",
-            value=dilution_factor,
-            expected="a dilution factor above 1",
-        )
+    d = _dilution(dilution_factor)
     # n·S·ln d >= N·S  <=>  n >= N / ln d; the tolerance keeps exact cases from rounding up.
     return max(1, math.ceil(n_cont / math.log(d) - 1e-9))
 

@@ -15,7 +15,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ledger.errors import DomainError
-from ledger.science._checks import series
+from ledger.science._checks import paired
 
 
 @dataclass(frozen=True)
@@ -50,15 +50,7 @@ def fit_line(
     y_name: str = "y",
 ) -> LineFit:
     """Fit y = a + b·x by least squares. Needs >= 2 points and at least two distinct x."""
-    xa = series(x_name, x, 2)
-    ya = series(y_name, y, 2)
-    if xa.size != ya.size:
-        raise DomainError(
-            f"{x_name} and {y_name} differ in length ({xa.size} vs {ya.size})",
-            field=y_name,
-            value=ya.size,
-            expected=f"{xa.size} values, one per {x_name}",
-        )
+    xa, ya = paired(x_name, x, y_name, y, 2)
     n = int(xa.size)
     x_mean = float(xa.mean())
     y_mean = float(ya.mean())

@@ -25,7 +25,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ledger.errors import DomainError, out_of_range
-from ledger.science._checks import positive, series
+from ledger.science._checks import paired, positive
 from ledger.science.fit import fit_line
 
 
@@ -130,15 +130,7 @@ def fit_gel_model(
     with concentration (k ≤ 0) is refused. Sources: Ng, Lundblad & Mitra, Sep. Sci. 11 (1976)
     499; van Reis & Zydney, J. Membr. Sci. 297 (2007) 16.
     """
-    c = series("concentrations_kg_m3", concentrations_kg_m3, 2)
-    j = series("fluxes_m_s", fluxes_m_s, 2)
-    if j.size != c.size:
-        raise DomainError(
-            f"fluxes_m_s has {j.size} values but concentrations_kg_m3 has {c.size}",
-            field="fluxes_m_s",
-            value=int(j.size),
-            expected=f"{c.size} values, one per concentration",
-        )
+    c, j = paired("concentrations_kg_m3", concentrations_kg_m3, "fluxes_m_s", fluxes_m_s, 2)
     if np.any(c <= 0.0):
         raise out_of_range(
             "concentrations_kg_m3", float(c[np.argmax(c <= 0.0)]), "values greater than zero"

@@ -19,7 +19,7 @@ from dataclasses import dataclass
 
 from ledger.errors import DomainError
 from ledger.science import water
-from ledger.science._checks import positive
+from ledger.science._checks import positive, whole
 
 LAMINAR_LIMIT = 2100.0
 
@@ -30,15 +30,7 @@ def per_fiber_flow(feed_flow_m3_s: float, fibers: int) -> float:
 
 
 def _fibers(fibers: int) -> int:
-    n = positive("fibers", fibers)
-    if n != int(n):
-        raise DomainError(
-            f"fibers = {fibers!r} is not a whole number",
-            field="fibers",
-            value=fibers,
-            expected="a whole number of fibers, 1 or more",
-        )
-    return int(n)
+    return whole("fibers", fibers)
 
 
 def wall_shear_rate(fiber_flow_m3_s: float, lumen_diameter_m: float) -> float:

@@ -24,7 +24,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ledger.errors import DomainError, out_of_range
-from ledger.science._checks import finite, non_negative, positive, series, within
+from ledger.science._checks import finite, non_negative, paired, positive, within
 from ledger.science.fit import fit_line
 
 STANDARD_ATMOSPHERE_PA = 101325.0
@@ -83,15 +83,7 @@ def decay_rate(
     slope of the ordinary least-squares line, so every reading counts, not only the first and
     last (DESIGN §4; pressure-decay test per EPA 815-R-06-009, 2005, ch. 4).
     """
-    t = series("times_s", times_s, 2)
-    p = series("pressures_pa", pressures_pa, 2)
-    if p.size != t.size:
-        raise DomainError(
-            f"pressures_pa has {p.size} values but times_s has {t.size}",
-            field="pressures_pa",
-            value=int(p.size),
-            expected=f"{t.size} values, one per time",
-        )
+    t, p = paired("times_s", times_s, "pressures_pa", pressures_pa, 2)
     steps = np.diff(t)
     if np.any(steps <= 0.0):
         i = int(np.argmax(steps <= 0.0))

@@ -168,7 +168,7 @@ BAD = [
     (["calc", "nwp", "--area", "0.1 m^2", "--feed", "1 psi"], "--permeate-flow", "missing"),
     (["calc", "shear", "--fibers", "10", "--lumen-id", "0.5 mm"], "--feed-flow", "exactly one"),
     (["calc", "shear", "--fibers", "0", "--lumen-id", "0.5 mm", "--feed-flow", "1 L/min"],
-     "--fibers", "greater than zero"),
+     "--fibers", "whole number"),
     (["calc", "shear", "--fibers", "10", "--lumen-id", "0.5 L", "--feed-flow", "1 L/min"],
      "--lumen-id", "expected a length"),
     (["calc", "diafiltration", "--removal", "100 %"], "--removal", "below 100 %"),

@@ -21,7 +21,9 @@ def test_diavolumes_and_washout_are_inverses(removal: float, s: float) -> None:
 @given(st.floats(min_value=0, max_value=30), sieving)
 def test_washout_then_diavolumes(n: float, s: float) -> None:
     remaining = conc.washout_remaining(n, s)
-    if remaining < 1.0 - 1e-12:
+    # Only where 1 - remaining is well conditioned in floating point: below 1e-8 remaining,
+    # the subtraction itself loses the digits (found by hypothesis at n = 29, s = 1).
+    if 1e-8 < remaining < 1.0 - 1e-12:
         assert conc.diavolumes_for_removal(1.0 - remaining, s) == pytest.approx(n, rel=1e-6)
 
 
