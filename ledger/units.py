@@ -115,9 +115,8 @@ def to_si(value: float, unit: str, kind: str, *, field: str, raw: object = None)
         ) from exc
     target = ureg.Quantity(1.0, k.si) if k.si else ureg.Quantity(1.0)
     if q.dimensionality != target.dimensionality:
-        got = str(q.dimensionality) if str(q.dimensionality) else "dimensionless"
         raise InputError(
-            f"{field}: {shown!r} has dimension {got}; expected {_expected(kind)}",
+            f"{field}: {shown!r} is {_what_it_is(q, ureg)}; expected {_expected(kind)}",
             field=field,
             value=shown,
             expected=_expected(kind),
@@ -131,6 +130,15 @@ def to_si(value: float, unit: str, kind: str, *, field: str, raw: object = None)
             expected=_expected(kind),
         )
     return si
+
+
+def _what_it_is(q: Any, ureg: Any) -> str:
+    """Name the kind a mistyped quantity has ("a flow"), or its dimensionality."""
+    for name, k in KINDS.items():
+        probe = ureg.Quantity(1.0, k.si) if k.si else ureg.Quantity(1.0)
+        if probe.dimensionality == q.dimensionality:
+            return f"a {_dimension_word(name)}"
+    return f"of dimension {q.dimensionality or 'dimensionless'}"
 
 
 def split_number(text: str, *, field: str, expected: str) -> tuple[float, str]:

@@ -17,6 +17,7 @@ from pathlib import Path
 
 import typer
 
+from ledger.cli.common import JSON_OPTION
 from ledger.errors import InputError
 
 SAMPLES = Path(__file__).resolve().parents[2] / "sample_records"
@@ -58,6 +59,7 @@ def demo(
     samples: Path = typer.Option(
         SAMPLES, "--samples", help="Folder holding the demo scenario (sample_records/)."
     ),
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Build the invented demo scenario into OUT and print what was written."""
     scenario_file = samples / "bench_session.toml"
@@ -69,30 +71,41 @@ def demo(
             expected="the sample_records/ folder of fluxledger",
         )
     scenario = tomllib.loads(scenario_file.read_text(encoding="utf-8"))
-    out.mkdir(parents=True, exist_ok=True)
     site = scenario["site"]
-    typer.echo(f"Demo scenario: {site['company']} — {site['setting']}")
-    typer.echo(site["disclaimer"])
-    written: list[Path] = []
-    results: dict[str, object] = {}
-    transcript: list[str] = [site["company"] + " — " + site["setting"], site["disclaimer"]]
+    transcript = [f"Demo scenario: {site['company']} — {site['setting']}", site["disclaimer"]]
+    if not as_json:
+        typer.echo("\n".join(transcript))
+    results: dict[str, dict[str, object]] = {}
     for step in scenario["steps"]:
         args = shlex.split(step["command"].replace("{samples}", shlex.quote(_shown(samples))))
-        typer.echo("")
-        typer.echo(f"== {step['title']}")
-        typer.echo(f"$ fluxledger {shlex.join(args)}")
         code, text = _run(args)
-        typer.echo(text.rstrip())
-        transcript += ["", f"== {step['title']}", f"$ fluxledger {shlex.join(args)}", text.rstrip()]
         jcode, jtext = _run([*args, "--json"])
         if jcode != code or jcode not in (0, 1):
+            # The scenario is ours, so a failing step is a bug, not user input.
             raise RuntimeError(f"demo step {step['name']!r} failed with exit code {jcode}")
         results[step["name"]] = {"exit_code": jcode, "report": json.loads(jtext)}
-    for name, text in (
-        ("bench_calculations.json", json.dumps(results, indent=2, ensure_ascii=False)),
-        ("bench_session.txt", "\n".join(transcript)),
-    ):
-        written.append(_write_atomically(out / name, text + "\n"))
+        chunk = ["", f"== {step['title']}", f"$ fluxledger {shlex.join(args)}", text.rstrip()]
+        transcript += chunk
+        if not as_json:
+            typer.echo("\n".join(chunk))
+    out.mkdir(parents=True, exist_ok=True)
+    written = [
+        _write_atomically(out / name, text + "\n")
+        for name, text in (
+            ("bench_calculations.json", json.dumps(results, indent=2, ensure_ascii=False)),
+            ("bench_session.txt", "\n".join(transcript)),
+        )
+    ]
+    if as_json:
+        summary = {
+            "command": "demo",
+            "scenario": f"{site['company']} — {site['setting']}",
+            "steps": [{"name": k, "exit_code": v["exit_code"]} for k, v in results.items()],
+            "written": [str(p) for p in written],
+            "notes": [site["disclaimer"]],
+        }
+        typer.echo(json.dumps(summary, indent=2, ensure_ascii=False))
+        return
     typer.echo("")
     typer.echo("Wrote:")
     for path in written:

@@ -17,7 +17,8 @@ from __future__ import annotations
 
 import math
 
-from ledger.science._checks import within
+from ledger.errors import DomainError
+from ledger.science._checks import finite
 
 T_MIN = 273.15
 T_MAX = 373.15
@@ -41,7 +42,15 @@ _H1 = (
 
 def check_temperature(temperature_k: float, name: str = "temperature") -> float:
     """Return the temperature if it lies in the liquid range at 1 atm, else raise."""
-    return within(name, temperature_k, T_MIN, T_MAX, _RANGE)
+    t = finite(name, temperature_k)
+    if not T_MIN <= t <= T_MAX:
+        raise DomainError(
+            f"{name} = {t:.2f} K ({t - 273.15:.2f} °C) is outside the valid range",
+            field=name,
+            value=temperature_k,
+            expected=_RANGE,
+        )
+    return t
 
 
 def viscosity_iapws2008(temperature_k: float, density_kg_m3: float) -> float:
