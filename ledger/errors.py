@@ -22,6 +22,7 @@ class LedgerError(Exception):
         expected: str | None = None,
         source: str | None = None,
         line: int | None = None,
+        index: int | None = None,
     ) -> None:
         super().__init__(message)
         self.message = message
@@ -30,6 +31,7 @@ class LedgerError(Exception):
         self.expected = expected
         self.source = source
         self.line = line
+        self.index = index  # position in a series, so a caller can name the file line
 
     def __str__(self) -> str:
         where = ""

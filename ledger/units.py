@@ -177,17 +177,19 @@ def parse(
     field: str,
     default_unit: str | None = None,
     positive: bool = False,
+    bare_ratio: bool = True,
 ) -> float:
     """Parse a quantity as people type it into the SI unit of ``kind``.
 
     A bare number is refused unless ``default_unit`` is given (and stated in the option's help).
-    A fraction accepts "99.9 %" or a bare ratio such as "0.999". With ``positive`` a value of
-    zero or less is refused (areas, volumes, diameters...).
+    A fraction accepts "99.9 %" or, unless ``bare_ratio`` is False, a bare ratio such as
+    "0.999" (the option's help must say so). With ``positive`` a value of zero or less is
+    refused (areas, volumes, diameters...).
     """
     expected = _expected(kind)
     number, unit = split_number(text, field=field, expected=expected)
     if not unit:
-        if kind == "fraction":
+        if kind == "fraction" and bare_ratio:
             value = number
         elif default_unit is None:
             raise InputError(

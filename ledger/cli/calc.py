@@ -401,7 +401,10 @@ def diafiltration(
     ),
     diavolumes: float | None = typer.Option(None, "--diavolumes", help="Diavolumes to run."),
     sieving: str = quantity_option(
-        "1", "--sieving", help="Sieving coefficient S = 1 - rejection (default 1: passes freely)."
+        "1",
+        "--sieving",
+        help="Sieving coefficient S = 1 - rejection, as '60 %' or a bare ratio (default 1: "
+        "passes freely).",
     ),
     volume: str | None = quantity_option(
         None, "--volume", help="Retentate volume held during diafiltration, e.g. '2 L'."
@@ -476,7 +479,10 @@ def concentration(
         None, "--final-volume", help="Volume after concentration, e.g. '500 mL'."
     ),
     rejection: str = quantity_option(
-        "1", "--rejection", help="Observed rejection of the product (default 1 = fully retained)."
+        "1",
+        "--rejection",
+        help="Observed rejection of the product, as '99.5 %' or a bare ratio (default 1: fully "
+        "retained).",
     ),
     initial_concentration: str | None = quantity_option(
         None, "--initial-concentration", help="Product concentration before, e.g. '0.5 g/L'."
@@ -628,6 +634,8 @@ def decay(
             fit = integrity.decay_rate(pts.columns["time"], pts.columns["pressure"])
         except InputError as exc:
             exc.source = pts.source
+            if exc.index is not None:
+                exc.line = pts.lines[exc.index]
             raise
         r = fit.rate_pa_s
         inputs.add("readings_file", str(readings_file), "readings file")
@@ -875,7 +883,7 @@ def lifetime(
     from ledger.pointsfile import Column, read_points
     from ledger.science import trending
 
-    lim = units.parse(limit, "fraction", field="--limit")
+    lim = units.parse(limit, "fraction", field="--limit", positive=True, bare_ratio=False)
     pts = read_points(
         points_file, [Column("cycle", None), Column("recovery", "fraction")], minimum=3
     )

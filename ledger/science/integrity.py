@@ -88,11 +88,12 @@ def decay_rate(
     if np.any(steps <= 0.0):
         i = int(np.argmax(steps <= 0.0))
         raise DomainError(
-            f"times_s must be strictly increasing; entry {i + 1} ({t[i + 1]!r} s) does not "
-            f"follow entry {i} ({t[i]!r} s)",
+            f"times_s must be strictly increasing; reading {i + 2} ({float(t[i + 1]):g} s) "
+            f"does not follow reading {i + 1} ({float(t[i]):g} s)",
             field="times_s",
             value=float(t[i + 1]),
             expected="strictly increasing times without duplicates",
+            index=i + 1,
         )
     line = fit_line(t, p, x_name="times_s", y_name="pressures_pa")
     return DecayFit(

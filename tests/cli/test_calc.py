@@ -11,6 +11,7 @@ import pint
 import pytest
 
 from tests.cli.conftest import Outcome
+from tests.reference.test_water_reference import HANDBOOK_MPAS
 
 Run = Callable[..., Outcome]
 STOCK = pint.UnitRegistry()
@@ -326,6 +327,15 @@ BAD_MORE = [
      "--operating-tmp", "both"),
     (["calc", "decay", "--volume", "-45 mL", "--rate", "0.1 psi/min"], "--volume", "greater"),
     (["calc", "bubble-point"], "--pore-size", "exactly one"),
+    (["calc", "lifetime", "--points-file", "sample_records/qmb0142_recovery_history.csv",
+      "--limit", "80"], "--limit", "no unit"),
+    (["calc", "lifetime", "--points-file", "sample_records/qmb0142_recovery_history.csv",
+      "--limit", "80 %", "--baseline-cycles", "1"], "--baseline-cycles", "outside"),
+    (["calc", "optimum", "--points-file", "sample_records/qb117_scouting_flux.csv",
+      "--product-mass", "2 g"], "--product-mass", "together"),
+    (["calc", "optimum", "--points-file", "sample_records/qb117_scouting_flux.csv",
+      "--product-mass", "2 mL", "--diavolumes", "7", "--area", "1 m^2"], "--product-mass",
+     "expected a mass"),
     (["calc", "bubble-point", "--pore-size", "0.2 psi"], "--pore-size", "length"),
     (["calc", "bubble-point", "--pore-size", "0.2 um", "--contact-angle", "95"],
      "--contact-angle", "contact"),
@@ -336,7 +346,10 @@ BAD_MORE = [
 
 
 @pytest.mark.parametrize(("args", "option", "says"), BAD_MORE)
-def test_more_bad_input_exits_2(cli: Run, args: list[str], option: str, says: str) -> None:
+def test_more_bad_input_exits_2(
+    cli: Run, args: list[str], option: str, says: str, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.chdir(Path(__file__).resolve().parents[2])
     out = cli(*args)
     assert out.exception is None, f"traceback: {out.exception!r}"
     assert out.code == 2, out.stderr
@@ -366,3 +379,18 @@ def test_bad_points_files_exit_2(
     assert out.exception is None, f"traceback: {out.exception!r}"
     assert out.code == 2, out.stderr
     assert str(p) in out.stderr and says in out.stderr
+
+
+def test_decay_backwards_time_names_the_file_line(cli: Run, tmp_path: Path) -> None:
+    p = tmp_path / "decay.csv"
+    p.write_text("# hold test\ntime [s],pressure [psi]\n0,15\n60,14.9\n30,14.8\n")
+    out = cli("calc", "decay", "--volume", "45 mL", "--readings-file", str(p))
+    assert out.code == 2
+    assert out.stderr.startswith(f"error: {p}:5: ")
+
+
+@pytest.mark.parametrize(("celsius", "mu_mpas"), HANDBOOK_MPAS)
+def test_viscosity_command_against_handbook(cli: Run, celsius: float, mu_mpas: float) -> None:
+    # Handbook table of water viscosity at 1 atm (sources in tests/reference), within 0.1 %.
+    data = ok_json(cli, "calc", "viscosity", "--temperature", f"{celsius} degC")
+    assert in_unit(data["results"]["viscosity"], "mPa*s") == pytest.approx(mu_mpas, rel=1e-3)
