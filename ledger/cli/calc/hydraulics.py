@@ -1,0 +1,77 @@
+"""`calc shear`: wall shear, pressure drop and Reynolds number in the fibers."""
+
+from __future__ import annotations
+
+import typer
+
+from ledger.cli.calc import app, one_of
+from ledger.cli.common import JSON_OPTION, guarded, quantity_option
+
+
+@app.command("shear")
+@guarded
+def shear(
+    fibers: int = typer.Option(..., "--fibers", help="Number of fibers in the module."),
+    lumen_id: str = quantity_option(..., "--lumen-id", help="Fiber inner diameter, e.g. '0.5 mm'."),
+    feed_flow: str | None = quantity_option(
+        None, "--feed-flow", help="Total feed flow, e.g. '1.2 L/min'."
+    ),
+    target_shear: str | None = quantity_option(
+        None, "--target-shear", help="Wall shear rate wanted, e.g. '4000 1/s'."
+    ),
+    length: str | None = quantity_option(
+        None, "--length", help="Effective fiber length for the pressure drop, e.g. '30 cm'."
+    ),
+    temperature: str = quantity_option(
+        "20 degC", "--temperature", help="Fluid temperature (water properties)."
+    ),
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Wall shear rate, pressure drop and Reynolds number in the fibers (laminar flow)."""
+    from ledger import units
+    from ledger.cli.output import Q, Report
+    from ledger.science import hydraulics
+
+    one_of(("--feed-flow", feed_flow), ("--target-shear", target_shear))
+    d = units.parse(lumen_id, "length", field="--lumen-id", positive=True)
+    t = units.parse(temperature, "temperature", field="--temperature")
+    q = (
+        None
+        if feed_flow is None
+        else units.parse(feed_flow, "flow", field="--feed-flow", positive=True)
+    )
+    g = (
+        None
+        if target_shear is None
+        else units.parse(target_shear, "shear_rate", field="--target-shear", positive=True)
+    )
+    length_m = (
+        None if length is None else units.parse(length, "length", field="--length", positive=True)
+    )
+    h = hydraulics.module_hydraulics(
+        fibers, d, feed_flow_m3_s=q, target_shear_1_s=g, length_m=length_m, temperature_k=t
+    )
+    report = Report("calc shear")
+    inputs = report.section("Inputs")
+    inputs.add("fibers", fibers)
+    inputs.add("lumen_id", Q(d, "length"), "lumen ID")
+    if length_m is not None:
+        inputs.add("length", Q(length_m, "fiber_length"))
+    inputs.add("temperature", Q(t, "temperature"))
+    res = report.section("Results")
+    res.add("feed_flow", Q(h.feed_flow, "flow"), "feed flow")
+    res.add("fiber_flow", Q(h.fiber_flow, "flow", "mL/min"), "flow per fiber")
+    res.add("velocity", Q(h.velocity, "velocity"), "mean velocity")
+    res.add("wall_shear_rate", Q(h.wall_shear_rate, "shear_rate"), "wall shear rate")
+    res.add("wall_shear_stress", Q(h.wall_shear_stress, "pressure", "Pa"), "wall shear stress")
+    res.add("reynolds", h.reynolds, "Reynolds number")
+    res.add("laminar", h.laminar)
+    if h.pressure_drop is not None:
+        res.add("pressure_drop", Q(h.pressure_drop, "pressure"), "channel ΔP")
+    if not h.laminar:
+        report.notes.append(
+            f"Re = {h.reynolds:.0f} exceeds 2100: the laminar formulas for shear and pressure "
+            "drop do not hold; treat these values as rough estimates"
+        )
+    report.notes.append("water properties at the stated temperature; Hagen–Poiseuille flow")
+    report.print(as_json)
