@@ -59,7 +59,6 @@ KINDS: dict[str, Kind] = {
     "velocity": Kind("[length] / [time]", "m/s", "m/s", "0.5 m/s"),
     "fiber_length": Kind("[length]", "m", "cm", "30 cm"),
     "u_constant": Kind("[temperature]", "K", "K", "2640 K"),
-    "diffusion_velocity": Kind("[length] / [time]", "m/s", "um/s", "12 um/s"),
 }
 
 _NUMBER = re.compile(r"^\s*([-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")

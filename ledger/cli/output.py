@@ -26,7 +26,6 @@ _HUMAN_UNITS = {
     "L/m^2": "L/m²",
     "g/m^2": "g/m²",
     "um": "µm",
-    "um/s": "µm/s",
     "mm^2/s": "mm²/s",
 }
 
