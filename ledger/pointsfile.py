@@ -9,6 +9,8 @@ skipped. The files are small (tens of rows), so the standard library's csv modul
 from __future__ import annotations
 
 import csv
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -39,6 +41,17 @@ class Points:
     def has(self, name: str) -> bool:
         """True when the file had the column ``name``."""
         return name in self.columns
+
+    @contextmanager
+    def blame(self) -> Iterator[None]:
+        """Attribute an InputError raised on these points to the file (and the row's line)."""
+        try:
+            yield
+        except InputError as exc:
+            exc.source = self.source
+            if exc.index is not None and 0 <= exc.index < len(self.lines):
+                exc.line = self.lines[exc.index]
+            raise
 
 
 def read_points(path: str | Path, spec: list[Column], *, minimum: int = 1) -> Points:

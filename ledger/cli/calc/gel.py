@@ -8,7 +8,6 @@ import typer
 
 from ledger.cli.calc import app, together
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.errors import InputError
 
 
 @app.command("optimum")
@@ -40,11 +39,8 @@ def optimum(
         [Column("concentration", "concentration"), Column("flux", "flux")],
         minimum=2,
     )
-    try:
+    with pts.blame():
         fit = gel.fit_gel_model(pts.columns["concentration"], pts.columns["flux"])
-    except InputError as exc:
-        exc.source = pts.source
-        raise
     c_opt = gel.optimum_concentration(fit)
     report = Report("calc optimum")
     report.section("Inputs").add("points_file", str(points_file), "points file")

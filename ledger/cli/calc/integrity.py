@@ -82,13 +82,8 @@ def decay(
         pts = read_points(
             readings_file, [Column("time", "time"), Column("pressure", "pressure")], minimum=2
         )
-        try:
+        with pts.blame():
             fit = integrity.decay_rate(pts.columns["time"], pts.columns["pressure"])
-        except InputError as exc:
-            exc.source = pts.source
-            if exc.index is not None:
-                exc.line = pts.lines[exc.index]
-            raise
         r = fit.rate_pa_s
         inputs.add("readings_file", str(readings_file), "readings file")
         res.add("readings", fit.n)

@@ -49,11 +49,8 @@ def lifetime(
         points_file, [Column("cycle", None), Column("recovery", "fraction")], minimum=3
     )
     cycles, recovery = pts.columns["cycle"], pts.columns["recovery"]
-    try:
+    with pts.blame():
         proj = trending.project_life(cycles, recovery, lim, model.value)
-    except InputError as exc:
-        exc.source = pts.source
-        raise
     report = Report("calc lifetime")
     inputs = report.section("Inputs")
     inputs.add("points_file", str(points_file), "points file")
