@@ -15,21 +15,27 @@ import time
 from pathlib import Path
 
 
-def _wall(cmd: list[str]) -> float:
+def _wall(cmd: list[str], stdin: str | None = None) -> float:
     start = time.perf_counter()
-    subprocess.run(cmd, check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    subprocess.run(cmd, check=True, input=stdin, text=True, stdout=subprocess.DEVNULL,
+                   stderr=subprocess.DEVNULL)  # fmt: skip
     return time.perf_counter() - start
 
 
 def compare(
-    name: str, baseline: list[str], subject: list[str], repeats: int, target: float
+    name: str,
+    baseline: list[str],
+    subject: list[str],
+    repeats: int,
+    target: float,
+    subject_input: str | None = None,
 ) -> bool:
     """Time two commands alternately; print medians and the ratio against the target."""
-    _wall(baseline), _wall(subject)  # warm the file cache
+    _wall(baseline), _wall(subject, subject_input)  # warm the file cache
     base, subj = [], []
     for _ in range(repeats):
         base.append(_wall(baseline))
-        subj.append(_wall(subject))
+        subj.append(_wall(subject, subject_input))
     b, s = statistics.median(base), statistics.median(subj)
     ratio = s / b
     verdict = "meets" if ratio <= target else "MISSES"
@@ -43,6 +49,19 @@ def compare(
 def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__)
     parser.add_argument("--repeats", type=int, default=15)
+    parser.add_argument(
+        "--skip-fitness", action="store_true", help="skip the fitness-verdict benchmark"
+    )
+    parser.add_argument(
+        "--modules", type=int, default=10_000, help="modules in the fitness database"
+    )
+    parser.add_argument(
+        "--tests", type=int, default=1_000_000, help="water-flux tests in the fitness database"
+    )
+    parser.add_argument("--verdicts", type=int, default=300, help="fitness verdicts timed")
+    parser.add_argument(
+        "--skip-commands", action="store_true", help="skip the logbook command start-up timings"
+    )
     args = parser.parse_args()
     exe = sys.executable
     script = shutil.which("fluxledger", path=str(Path(exe).parent)) or shutil.which("fluxledger")
@@ -56,6 +75,16 @@ def main() -> int:
         args.repeats,
         2.5,
     )
+    sys.path.insert(0, str(Path(__file__).resolve().parent))
+    if not args.skip_commands:
+        import commands  # bench/commands.py
+
+        ok = commands.run(exe, script, args.repeats, compare) and ok
+    if not args.skip_fitness:
+        print()
+        import fitness  # bench/fitness.py; imported here so --skip-fitness loads no database code
+
+        ok = fitness.run(args.modules, args.tests, args.verdicts) and ok
     return 0 if ok else 1
 
 

@@ -59,6 +59,10 @@ KINDS: dict[str, Kind] = {
     "velocity": Kind("[length] / [time]", "m/s", "m/s", "0.5 m/s"),
     "fiber_length": Kind("[length]", "m", "cm", "30 cm"),
     "u_constant": Kind("[temperature]", "K", "K", "2640 K"),
+    "conductivity": Kind(
+        "[current] ** 2 * [time] ** 3 / [mass] / [length] ** 3", "S/m", "uS/cm", "1.2 uS/cm"
+    ),
+    "molarity": Kind("[substance] / [volume]", "mol/m**3", "mol/L", "0.5 mol/L, 500 mM"),
 }
 
 _NUMBER = re.compile(r"^\s*([-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
@@ -76,8 +80,13 @@ def registry() -> pint.UnitRegistry:
         ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=":auto:")
     except OSError:  # no writable cache folder: parse the definitions every time
         ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
-    ureg.define("LMH = liter / meter ** 2 / hour")
-    ureg.define("GFD = gallon / foot ** 2 / day")
+    # The on-disk cache may already hold them; defining twice only logs a warning.
+    for name, definition in (
+        ("LMH", "LMH = liter / meter ** 2 / hour"),
+        ("GFD", "GFD = gallon / foot ** 2 / day"),
+    ):
+        if name not in ureg:
+            ureg.define(definition)
     return ureg
 
 

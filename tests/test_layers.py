@@ -60,3 +60,33 @@ def test_cli_start_up_path_has_no_heavy_imports() -> None:
     # `fluxledger --help` must stay close to bare typer (DESIGN §9): no numpy, pint, pandas.
     mods = _loaded_after("import ledger.cli.main")
     assert not {"numpy", "pint", "pandas", "scipy", "sqlalchemy", "reportlab"} & mods
+
+
+# Each layer may use the ones below it only (DESIGN §2).
+ABOVE = {
+    "ledger/store": {"ledger.logbook", "ledger.runs", "ledger.records", "ledger.cli",
+                     "ledger.rules"},
+    "ledger/logbook": {"ledger.runs", "ledger.records", "ledger.cli"},
+    "migrations": {"ledger.logbook", "ledger.runs", "ledger.records", "ledger.cli",
+                   "ledger.rules", "ledger.science"},
+}  # fmt: skip
+
+
+@pytest.mark.parametrize(
+    ("path", "forbidden"),
+    [(p, ABOVE[folder]) for folder in ABOVE for p in sorted((ROOT / folder).rglob("*.py"))],
+    ids=lambda v: str(v) if isinstance(v, Path) else "",
+)
+def test_layers_import_only_downwards(path: Path, forbidden: set[str]) -> None:
+    for name in imported_modules(path):
+        assert not any(name == f or name.startswith(f + ".") for f in forbidden), (
+            f"{path.relative_to(ROOT)} imports {name}"
+        )
+
+
+def test_logbook_commands_do_not_load_pandas_or_reportlab() -> None:
+    mods = _loaded_after(
+        "import ledger.logbook.waterflux, ledger.logbook.integrity, ledger.logbook.care, "
+        "ledger.logbook.uses, ledger.logbook.fitness, ledger.store.audit"
+    )
+    assert not {"pandas", "reportlab", "scipy"} & mods

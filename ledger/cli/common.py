@@ -23,6 +23,10 @@ def quantity_option(default: Any, *flags: str, help: str) -> Any:
 F = TypeVar("F", bound=Callable[..., Any])
 
 
+# Fields that are positional arguments on the command line: their messages name them already.
+POSITIONAL = frozenset({"serial", "login", "kind", "record_id", "code"})
+
+
 def explain(err: LedgerError, options: dict[str, Any]) -> str:
     """One line naming the option (when the error's field is one), the value and the rule.
 
@@ -30,7 +34,7 @@ def explain(err: LedgerError, options: dict[str, Any]) -> str:
     shown with that option's flag (our options are always spelled ``--field-name``).
     """
     text = str(err)
-    if not err.field or text.startswith("--"):
+    if not err.field or text.startswith("--") or err.field in POSITIONAL:
         return text
     # Science parameters may carry an SI suffix ("test_pressure_pa"); try shorter names too.
     parts = err.field.split("_")

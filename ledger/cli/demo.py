@@ -1,8 +1,9 @@
 """``fluxledger demo``: run the invented demo scenario from sample_records/ and write its outputs.
 
-For now the scenario is a bench session on one invented module: each step is a ``calc``
-command line, run in-process exactly as a user would type it, printed to the terminal and
-saved as JSON under the output folder.
+Two parts, each a list of command lines run in-process exactly as a user would type them:
+a bench session of calculators on one module, and the module logbook (users, a module type,
+three modules and their history, the fit-for-reuse verdicts, the audit check) in a fresh
+SQLite database under the output folder.
 """
 
 from __future__ import annotations
@@ -12,7 +13,9 @@ import io
 import json
 import os
 import shlex
+import sys
 import tomllib
+from datetime import timedelta
 from pathlib import Path
 
 import typer
@@ -23,7 +26,7 @@ from ledger.errors import InputError
 SAMPLES = Path(__file__).resolve().parents[2] / "sample_records"
 
 
-def _run(args: list[str]) -> tuple[int, str]:
+def _run(args: list[str], stdin: str = "") -> tuple[int, str]:
     """Run one fluxledger command in-process; return its exit code and stdout."""
     from typer.main import get_command
 
@@ -31,7 +34,9 @@ def _run(args: list[str]) -> tuple[int, str]:
 
     out = io.StringIO()
     code = 0
-    with contextlib.redirect_stdout(out):
+    saved_stdin, sys.stdin = sys.stdin, io.StringIO(stdin)
+    with contextlib.redirect_stdout(out), contextlib.ExitStack() as restore:
+        restore.callback(setattr, sys, "stdin", saved_stdin)
         try:
             result = get_command(app).main(args=args, prog_name="fluxledger", standalone_mode=False)
             code = result if isinstance(result, int) else 0
@@ -96,6 +101,7 @@ def demo(
             ("bench_session.txt", "\n".join(transcript)),
         )
     ]
+    written += _logbook(out, samples, as_json)
     if as_json:
         summary = {
             "command": "demo",
@@ -110,3 +116,72 @@ def demo(
     typer.echo("Wrote:")
     for path in written:
         typer.echo(f"  {path}")
+
+
+def _fresh_database(out: Path) -> Path:
+    """The demo's own database file, recreated on every run."""
+    db = out / "fluxledger.db"
+    for leftover in (db, db.with_name(db.name + "-wal"), db.with_name(db.name + "-shm")):
+        leftover.unlink(missing_ok=True)
+    return db
+
+
+def _expand(command: str, samples: Path, now: object) -> list[str]:
+    import re
+
+    def days_ago(m: re.Match[str]) -> str:
+        when = now - timedelta(days=float(m.group(1)))  # type: ignore[operator]
+        return str(when.isoformat(timespec="seconds"))
+
+    text = re.sub(r"\{days_ago:([0-9.]+)\}", days_ago, command)
+    return shlex.split(text.replace("{samples}", shlex.quote(_shown(samples))))
+
+
+def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
+    """Build the logbook part of the scenario in OUT/fluxledger.db; return the files written."""
+    from ledger.store.types import utc_now
+
+    scenario = tomllib.loads((samples / "logbook_history.toml").read_text(encoding="utf-8"))
+    users = scenario["users"]
+    db = ["--db", str(_fresh_database(out))]
+    admin = next(login for login, u in users.items() if u["role"] == "admin")
+    setup: list[tuple[list[str], str]] = [
+        (["init", "--admin", admin, "--name", users[admin]["name"], "--password-stdin"],
+         users[admin]["password"] + "\n"),
+    ]  # fmt: skip
+    for login, u in users.items():
+        if login != admin:
+            setup.append((
+                ["user", "add", login, "--name", u["name"], "--role", u["role"], "--user", admin,
+                 "--password-stdin"],
+                f"{users[admin]['password']}\n{u['password']}\n",
+            ))  # fmt: skip
+    now = utc_now()
+    steps: list[tuple[str | None, list[str], str, str | None]] = [
+        ("Users of the logbook" if i == 0 else None, args, stdin, None)
+        for i, (args, stdin) in enumerate(setup)
+    ]
+    for step in scenario["steps"]:
+        args = _expand(step["command"], samples, now)
+        stdin = ""
+        if "user" in step:
+            args += ["--user", step["user"], "--password-stdin"]
+            stdin = users[step["user"]]["password"] + "\n"
+        steps.append((step.get("title"), args, stdin, step.get("save")))
+    transcript = ["", f"Demo scenario: {scenario['site']['title']}"]
+    written: list[Path] = []
+    for title, args, stdin, save in steps:
+        code, text = _run([*args, *db], stdin)
+        if code not in (0, 1):
+            raise RuntimeError(f"demo step {shlex.join(args)!r} failed with exit code {code}")
+        chunk = [""] + ([f"== {title}"] if title else [])
+        chunk += [f"$ fluxledger {shlex.join(args)}", text.rstrip()]
+        transcript += chunk
+        if not as_json:
+            typer.echo("\n".join(chunk))
+        if save:
+            _, jtext = _run([*args, *db, "--json"], stdin)
+            written.append(_write_atomically(out / save, jtext))
+    written.insert(0, out / "fluxledger.db")
+    written.append(_write_atomically(out / "logbook_session.txt", "\n".join(transcript) + "\n"))
+    return written

@@ -36,11 +36,24 @@ def root(
     ),
 ) -> None:
     """Module history, fit-for-reuse decisions and batch records for hollow-fiber TFF."""
+    from ledger.cli.session import reset_stdin
+
+    reset_stdin()
 
 
 def _register() -> None:
-    from ledger.cli import calc, demo
+    from ledger.cli import audit, calc, demo, fitness, modules, records, setup, users
 
+    app.command("init")(setup.init)
+    app.add_typer(modules.types_app, name="module-type")
+    app.add_typer(modules.app, name="module")
+    app.add_typer(records.test_app, name="test")
+    app.add_typer(records.care_app, name="care")
+    app.add_typer(records.use_app, name="use")
+    app.command("void")(records.void)
+    app.command("fitness")(fitness.fitness)
+    app.add_typer(audit.app, name="audit")
+    app.add_typer(users.app, name="user")
     app.add_typer(calc.app, name="calc")
     app.command("demo")(guarded(demo.demo))
 

@@ -10,6 +10,7 @@ import json
 import math
 import sys
 from dataclasses import dataclass, field
+from datetime import UTC, datetime
 from typing import Any
 
 from ledger import units
@@ -58,6 +59,8 @@ def human(value: Any) -> str:
         shown = units.quantity(value.value, value.kind, value.unit)
         unit = _HUMAN_UNITS.get(shown["unit"], shown["unit"])
         return f"{_number(shown['value'])} {unit}"
+    if isinstance(value, datetime):
+        return value.astimezone(UTC).strftime("%Y-%m-%d %H:%M")
     if isinstance(value, bool):
         return "yes" if value else "no"
     if isinstance(value, float):
@@ -74,6 +77,8 @@ def plain(value: Any) -> Any:
     if isinstance(value, Q):
         q = units.quantity(value.value, value.kind, value.unit)
         return {"value": q["value"] if math.isfinite(q["value"]) else None, "unit": q["unit"]}
+    if isinstance(value, datetime):
+        return value.isoformat()
     if isinstance(value, float) and not math.isfinite(value):
         return None
     if isinstance(value, dict):
@@ -155,7 +160,11 @@ class Report:
         for t in self.tables:
             table = RichTable(title=t.title, title_justify="left")
             for i, (_, label) in enumerate(t.columns):
-                texty = bool(t.rows) and isinstance(t.rows[0][i], str | list)
+                first = t.rows[0][i] if t.rows else None
+                if isinstance(first, datetime):
+                    table.add_column(label, no_wrap=True, min_width=16)
+                    continue
+                texty = isinstance(first, str | list)
                 table.add_column(label, justify="left" if texty else "right")
             for row in t.rows:
                 table.add_row(*(human(v) for v in row))

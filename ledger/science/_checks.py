@@ -4,11 +4,13 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-
-import numpy as np
-from numpy.typing import NDArray
+from typing import TYPE_CHECKING
 
 from ledger.errors import DomainError, out_of_range
+
+if TYPE_CHECKING:  # numpy loads only where arrays are used: scalar modules stay light
+    import numpy as np
+    from numpy.typing import NDArray
 
 
 def finite(name: str, value: float) -> float:
@@ -52,6 +54,8 @@ def series(
     name: str, values: Sequence[float] | NDArray[np.float64], minimum: int
 ) -> NDArray[np.float64]:
     """Return ``values`` as a 1-D float array of at least ``minimum`` finite entries."""
+    import numpy as np
+
     arr = np.asarray(values, dtype=float).ravel()
     if arr.size < minimum:
         raise DomainError(

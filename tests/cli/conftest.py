@@ -28,8 +28,8 @@ class Outcome:
 def cli() -> Callable[..., Outcome]:
     runner = CliRunner()
 
-    def run(*args: str) -> Outcome:
-        result = runner.invoke(app, list(args))
+    def run(*args: str, input: str | None = None, env: dict[str, str] | None = None) -> Outcome:
+        result = runner.invoke(app, list(args), input=input, env=env)
         # A SystemExit is how typer reports exit codes; anything else escaped as a traceback.
         exc = result.exception if not isinstance(result.exception, SystemExit) else None
         return Outcome(result.exit_code, result.stdout, result.stderr, exc)

@@ -38,3 +38,36 @@ def test_demo_refuses_a_folder_without_the_scenario(cli: Run, tmp_path: Path) ->
     out = cli("demo", "--out", str(tmp_path / "o"), "--samples", str(tmp_path))
     assert out.code == 2 and "--samples" in out.stderr
     assert not (tmp_path / "o").exists()
+
+
+def test_demo_builds_the_logbook_and_its_verdicts(cli: Run, tmp_path: Path) -> None:
+    out = cli("demo", "--out", str(tmp_path), "--json")
+    assert out.code == 0, out.stderr
+    written = out.json()["written"]
+    assert str(tmp_path / "fluxledger.db") in written
+    fit = json.loads((tmp_path / "fitness_qmb0142.json").read_text())
+    assert fit["verdict"] == "FIT"
+    reasons = {r["check"]: r["outcome"] for r in fit["reasons"]}
+    assert reasons["recovery"] == "alert"  # 82.9 % of baseline: above 80 %, below 90 %
+    held = json.loads((tmp_path / "fitness_qmb0143.json").read_text())
+    assert held["verdict"] == "NOT FIT"
+    assert {r["check"] for r in held["reasons"] if r["outcome"] == "fail"} == {
+        "status",
+        "recovery",
+    }
+    session = (tmp_path / "logbook_session.txt").read_text()
+    assert "Verdict: intact" in session and "(late entry)" in session
+    # The demo's database is a real logbook: it verifies, and lists the three modules.
+    listed = cli("module", "list", "--db", str(tmp_path / "fluxledger.db"), "--json").json()
+    assert [(m["serial"], m["status"]) for m in listed["modules"]] == [
+        ("QMB-0142", "available"),
+        ("QMB-0143", "on_hold"),
+        ("QMB-0151", "commissioning"),
+    ]
+    assert cli("audit", "verify", "--db", str(tmp_path / "fluxledger.db")).code == 0
+
+
+def test_demo_runs_twice_into_the_same_folder(cli: Run, tmp_path: Path) -> None:
+    assert cli("demo", "--out", str(tmp_path), "--json").code == 0
+    again = cli("demo", "--out", str(tmp_path), "--json")
+    assert again.code == 0, again.stderr

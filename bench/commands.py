@@ -1,0 +1,63 @@
+"""Whole-process time of logbook commands against `python -c "import sqlmodel, typer"` (§9).
+
+A read (`module list`, `fitness`) and a write (`care store`, which also checks the user's
+argon2 password hash) run on a small fresh SQLite logbook made here with the CLI itself.
+Target: within 1.5x of the bare import of sqlmodel and typer, measured in the same run.
+"""
+
+from __future__ import annotations
+
+import subprocess
+import tempfile
+from pathlib import Path
+
+PASSWORD = "bench-pass-2026"  # an invented account of a throwaway database
+
+
+def _cli(script: str, db: str, *args: str, stdin: str = "") -> None:
+    subprocess.run([script, *args, "--db", db], input=stdin, text=True, check=True,
+                   stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)  # fmt: skip
+
+
+def prepare(script: str, folder: Path) -> str:
+    """A logbook with an engineer, an operator, one module type and one available module."""
+    db = str(folder / "bench.db")
+    pw = f"{PASSWORD}\n"
+    _cli(script, db, "init", "--admin", "bench.admin", "--password-stdin", stdin=pw)
+    for login, role in (("bench.eng", "engineer"), ("bench.op", "operator")):
+        _cli(script, db, "user", "add", login, "--name", login, "--role", role, "--user",
+             "bench.admin", "--password-stdin", stdin=pw + pw)  # fmt: skip
+    _cli(script, db, "module-type", "add", "BENCH-1", "--membrane", "mPES", "--pore-rating",
+         "750 kDa", "--lumen-diameter", "0.5 mm", "--fibers", "120", "--length", "30 cm",
+         "--area", "565 cm^2", "--decay-limit", "0.05 psi/min", "--test-pressure", "15 psi",
+         "--reuse-limit", "20", "--storage-limit", "30 d", "--user", "bench.eng",
+         "--password-stdin", stdin=pw)  # fmt: skip
+    op = ["--user", "bench.op", "--password-stdin"]
+    _cli(script, db, "module", "add", "BM-0001", "--type", "BENCH-1", *op, stdin=pw)
+    _cli(script, db, "test", "water", "BM-0001", "--stage", "baseline", "--feed", "4.6 psi",
+         "--retentate", "4.2 psi", "--flow", "240 mL/min", "--temperature", "20 degC", *op,
+         stdin=pw)  # fmt: skip
+    _cli(script, db, "test", "integrity", "BM-0001", "--start", "15 psi", "--end", "14.95 psi",
+         "--hold-time", "5 min", *op, stdin=pw)  # fmt: skip
+    return db
+
+
+def run(exe: str, script: str, repeats: int, compare: object) -> bool:
+    """Time the three commands; ``compare`` is run.compare (kept there, shared)."""
+    ok = True
+    baseline = [exe, "-c", "import sqlmodel, typer"]
+    with tempfile.TemporaryDirectory(prefix="fluxledger-bench-") as tmp:
+        db = prepare(script, Path(tmp))
+        cases = [
+            ("Read command: `fluxledger module list`", [script, "module", "list", "--db", db],
+             None),
+            ("Read command: `fluxledger fitness BM-0001`",
+             [script, "fitness", "BM-0001", "--db", db], None),
+            ("Write command: `fluxledger care store` (argon2 password check included)",
+             [script, "care", "store", "BM-0001", "--solution", "20 % ethanol", "--user",
+              "bench.op", "--password-stdin", "--db", db], f"{PASSWORD}\n"),
+        ]  # fmt: skip
+        for name, cmd, stdin in cases:
+            print()
+            ok = compare(name, baseline, cmd, repeats, 1.5, subject_input=stdin) and ok  # type: ignore[operator]
+    return ok

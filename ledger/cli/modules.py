@@ -1,0 +1,328 @@
+"""`fluxledger module-type ...` and `fluxledger module ...`: what is on the shelf."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import typer
+
+from ledger.cli.common import JSON_OPTION, guarded, quantity_option
+from ledger.cli.session import DB_OPTION, PASSWORD_STDIN, USER_OPTION, read, write
+
+types_app = typer.Typer(
+    help="Module types: geometry, membrane and the site's limits.", no_args_is_help=True
+)
+app = typer.Typer(
+    help="Modules: register, list, show history, hold, release, retire.", no_args_is_help=True
+)
+
+
+@types_app.command("add")
+@guarded
+def type_add(
+    code: str = typer.Argument(..., help="The type's code, e.g. HF-750-120."),
+    membrane: str = typer.Option(..., "--membrane", help="Membrane material, e.g. mPES."),
+    pore_rating: str = typer.Option(..., "--pore-rating", help="As stated: '750 kDa', '0.2 um'."),
+    lumen_diameter: str = quantity_option(
+        ..., "--lumen-diameter", help="Fiber lumen ID, '0.5 mm'."
+    ),
+    fibers: int = typer.Option(..., "--fibers", help="Number of fibers."),
+    length: str = quantity_option(..., "--length", help="Effective fiber length, '30 cm'."),
+    area: str = quantity_option(..., "--area", help="Membrane area, '565 cm^2'."),
+    decay_limit: str = quantity_option(
+        ..., "--decay-limit", help="Pressure-decay limit, e.g. '0.3 psi/min'."
+    ),
+    test_pressure: str = quantity_option(
+        ..., "--test-pressure", help="The gauge pressure that limit holds at, e.g. '30 psi'."
+    ),
+    reuse_limit: int = typer.Option(..., "--reuse-limit", help="Validated reuse limit, cycles."),
+    storage_limit: str = quantity_option(..., "--storage-limit", help="Longest storage, '30 d'."),
+    bubble_point_min: str | None = quantity_option(
+        None, "--bubble-point-min", help="Lowest passing bubble point, e.g. '50 psi'."
+    ),
+    supplier: str | None = typer.Option(None, "--supplier", help="Supplier (free text)."),
+    reference_temperature: str = quantity_option(
+        "20 degC", "--reference-temperature", help="T_ref of NWP (default 20 degC)."
+    ),
+    recovery_min: str = quantity_option(
+        "80 %", "--recovery-min", help="Post-clean recovery minimum (default 80 %)."
+    ),
+    recovery_alert: str = quantity_option(
+        "90 %", "--recovery-alert", help="Alert below (default 90 %)."
+    ),
+    damage_ratio: str = quantity_option(
+        "120 %", "--damage-ratio", help="NWP above this share of baseline suggests damage (120 %)."
+    ),
+    preuse_band: str = quantity_option(
+        "10 %", "--preuse-band", help="Pre-use NWP band around the last post-clean (±10 %)."
+    ),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Define a module type. The limits are your site's validated ones; defaults are common
+    practice only."""
+    from ledger import units
+    from ledger.logbook.modules import TypeSpec, add_type
+
+    def q(text: str, kind: str, flag: str) -> float:
+        return units.parse(text, kind, field=flag, bare_ratio=False)
+
+    spec = TypeSpec(
+        code=code.strip(),
+        membrane=membrane,
+        pore_rating=pore_rating,
+        lumen_diameter_m=q(lumen_diameter, "length", "--lumen-diameter"),
+        fiber_count=fibers,
+        effective_length_m=q(length, "length", "--length"),
+        area_m2=q(area, "area", "--area"),
+        decay_limit_pa_s=q(decay_limit, "pressure_rate", "--decay-limit"),
+        integrity_test_pressure_pa=q(test_pressure, "pressure", "--test-pressure"),
+        reuse_limit_cycles=reuse_limit,
+        storage_limit_s=q(storage_limit, "time", "--storage-limit"),
+        bubble_point_min_pa=q(bubble_point_min, "pressure", "--bubble-point-min")
+        if bubble_point_min
+        else None,
+        supplier=supplier,
+        reference_temperature_k=q(reference_temperature, "temperature", "--reference-temperature"),
+        recovery_min=q(recovery_min, "fraction", "--recovery-min"),
+        recovery_alert=q(recovery_alert, "fraction", "--recovery-alert"),
+        damage_ratio=q(damage_ratio, "fraction", "--damage-ratio"),
+        preuse_band=q(preuse_band, "fraction", "--preuse-band"),
+    )
+    created = write(db, user, password_stdin, lambda s, a: add_type(s, a, spec))
+    typer.echo(f"added module type {created.code}")
+
+
+def _type_report(t: Any) -> Any:
+    from ledger.cli.output import Q, Report
+
+    report = Report("module-type show")
+    g = report.section(f"Module type {t.code}")
+    g.add("code", t.code)
+    g.add("supplier", t.supplier)
+    g.add("membrane", t.membrane)
+    g.add("pore_rating", t.pore_rating, "pore rating")
+    g.add("lumen_diameter", Q(t.lumen_diameter_m, "length"), "lumen diameter")
+    g.add("fibers", t.fiber_count)
+    g.add("length", Q(t.effective_length_m, "fiber_length"), "effective length")
+    g.add("area", Q(t.area_m2, "area"))
+    lim = report.section("Site limits")
+    lim.add(
+        "reference_temperature",
+        Q(t.reference_temperature_k, "temperature"),
+        "NWP reference temperature",
+    )
+    lim.add("recovery_min", Q(t.recovery_min, "fraction"), "post-clean recovery minimum")
+    lim.add("recovery_alert", Q(t.recovery_alert, "fraction"), "recovery alert below")
+    lim.add("damage_ratio", Q(t.damage_ratio, "fraction"), "damage suspected above")
+    lim.add("preuse_band", Q(t.preuse_band, "fraction"), "pre-use band ±")
+    lim.add("decay_limit", Q(t.decay_limit_pa_s, "pressure_rate"), "pressure-decay limit")
+    lim.add("test_pressure", Q(t.integrity_test_pressure_pa, "pressure", "psi"), "at test pressure")
+    if t.bubble_point_min_pa is not None:
+        lim.add(
+            "bubble_point_min", Q(t.bubble_point_min_pa, "pressure", "psi"), "bubble point minimum"
+        )
+    lim.add("reuse_limit", t.reuse_limit_cycles, "validated reuse limit (cycles)")
+    lim.add("storage_limit", Q(t.storage_limit_s, "time", "d"), "storage limit")
+    report.notes.append(SITE_NOTE)
+    return report
+
+
+SITE_NOTE = (
+    "Acceptance limits come from the site's validated procedures and its quality unit; "
+    "fluxledger applies them and does not set them."
+)
+
+
+@types_app.command("show")
+@guarded
+def type_show(
+    code: str = typer.Argument(...), db: str | None = DB_OPTION, as_json: bool = JSON_OPTION
+) -> None:
+    """Show a module type and its limits."""
+    from ledger.logbook.modules import get_type
+
+    read(db, lambda s: _type_report(get_type(s, code))).print(as_json)
+
+
+@types_app.command("list")
+@guarded
+def type_list(db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> None:
+    """List module types."""
+    from ledger.cli.output import Q, Report, Table
+    from ledger.logbook.modules import list_types
+
+    report = Report("module-type list")
+    table = Table(
+        "Module types",
+        [
+            ("code", "code"),
+            ("membrane", "membrane"),
+            ("pore_rating", "pore rating"),
+            ("area", "area"),
+            ("reuse_limit", "reuse limit"),
+        ],
+    )
+    for t in read(db, list_types):
+        table.rows.append(
+            [t.code, t.membrane, t.pore_rating, Q(t.area_m2, "area"), t.reuse_limit_cycles]
+        )
+    report.tables.append(table)
+    report.print(as_json)
+
+
+@app.command("add")
+@guarded
+def module_add(
+    serial: str = typer.Argument(..., help="The module's serial number."),
+    type_code: str = typer.Option(..., "--type", help="Its module type code."),
+    manufacturer_lot: str | None = typer.Option(None, "--manufacturer-lot", help="Free text."),
+    received: str | None = typer.Option(None, "--received", help="Date received, 2026-11-03."),
+    note: str | None = typer.Option(None, "--note"),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Register a module. It starts in commissioning: baseline water flux and integrity next."""
+    from datetime import date
+
+    from ledger.errors import InputError
+    from ledger.logbook.modules import add_module
+
+    received_on = None
+    if received:
+        try:
+            received_on = date.fromisoformat(received)
+        except ValueError:
+            raise InputError(
+                f"{received!r} is not a date",
+                field="received",
+                value=received,
+                expected="a date such as 2026-11-03",
+            ) from None
+    created = write(
+        db,
+        user,
+        password_stdin,
+        lambda s, a: add_module(
+            s,
+            a,
+            serial,
+            type_code,
+            manufacturer_lot=manufacturer_lot,
+            received_on=received_on,
+            note=note,
+        ),
+    )
+    typer.echo(
+        f"registered module {created.serial} ({type_code}): commissioning — record a "
+        "baseline water-flux test and an integrity test next"
+    )
+
+
+@app.command("list")
+@guarded
+def module_list(
+    status: str | None = typer.Option(None, "--status", help="Only modules with this status."),
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """List modules with their type, status, product and cycles."""
+    from ledger.cli.output import Report, Table
+    from ledger.logbook import latest
+    from ledger.logbook.modules import list_modules
+
+    def gather(s: Any) -> Any:
+        return [(m, t, latest.cycles(s, m.id)) for m, t in list_modules(s, status)]
+
+    report = Report("module list")
+    table = Table(
+        "Modules",
+        [
+            ("serial", "serial"),
+            ("type", "type"),
+            ("status", "status"),
+            ("product", "dedicated to"),
+            ("cycles", "cycles"),
+        ],
+    )
+    for m, t, n in read(db, gather):
+        table.rows.append(
+            [
+                m.serial,
+                t.code,
+                m.status,
+                m.dedicated_product,
+                f"{n} of {t.reuse_limit_cycles}",
+            ]
+        )
+    report.tables.append(table)
+    report.print(as_json)
+
+
+@app.command("show")
+@guarded
+def module_show(
+    serial: str = typer.Argument(...), db: str | None = DB_OPTION, as_json: bool = JSON_OPTION
+) -> None:
+    """A module's details and its whole history, oldest first."""
+    from ledger.cli.describe import history_report
+
+    read(db, lambda s: history_report(s, serial)).print(as_json)
+
+
+@app.command("hold")
+@guarded
+def module_hold(
+    serial: str = typer.Argument(...),
+    reason: str = typer.Option(..., "--reason", help="Why the module is held."),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Put a module on hold until an engineer or QA signs its disposition."""
+    from ledger.logbook.modules import hold
+
+    write(db, user, password_stdin, lambda s, a: hold(s, a, serial, reason))
+    typer.echo(f"module {serial} is on hold")
+
+
+@app.command("release")
+@guarded
+def module_release(
+    serial: str = typer.Argument(...),
+    decision: str = typer.Option(
+        ...,
+        "--decision",
+        help="retest (clean and test again), return (manual holds only) or retire.",
+    ),
+    reason: str = typer.Option(..., "--reason", help="The reason for the disposition."),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Sign the disposition of a hold (engineer or QA; your password is your signature)."""
+    from ledger.logbook.modules import release
+
+    done = write(db, user, password_stdin, lambda s, a: release(s, a, serial, decision, reason))
+    typer.echo(
+        f"module {serial}: disposition {done.decision} signed by {done.decided_by} "
+        f"at {done.decided_at.isoformat() if done.decided_at else ''} (approved)"
+    )
+
+
+@app.command("retire")
+@guarded
+def module_retire(
+    serial: str = typer.Argument(...),
+    reason: str = typer.Option(..., "--reason", help="Why it is retired."),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Retire a module for good (engineer or QA)."""
+    from ledger.logbook.modules import retire
+
+    write(db, user, password_stdin, lambda s, a: retire(s, a, serial, reason))
+    typer.echo(f"module {serial} is retired")

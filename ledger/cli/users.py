@@ -1,0 +1,114 @@
+"""`fluxledger user ...`: accounts and the lockout policy (administrators)."""
+
+from __future__ import annotations
+
+import typer
+
+from ledger.cli.common import JSON_OPTION, guarded
+from ledger.cli.session import DB_OPTION, PASSWORD_STDIN, USER_OPTION, read_secret, write
+
+app = typer.Typer(
+    help="User accounts: add, change password, disable, list, lockout policy.", no_args_is_help=True
+)
+
+
+@app.command("add")
+@guarded
+def add(
+    login: str = typer.Argument(..., help="The new user ID (never reused)."),
+    name: str = typer.Option(..., "--name", help="Printed name, as on signatures."),
+    role: str = typer.Option(..., "--role", help="operator, engineer, qa or admin."),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Add a user. With --password-stdin, line 1 is your password and line 2 the new one."""
+    from ledger.logbook.users import add_user
+
+    def work(session, actor):  # type: ignore[no-untyped-def]
+        new = read_secret(f"Password for {login}", from_stdin=password_stdin, confirm=True)
+        return add_user(session, actor, login, name, role, new)
+
+    created = write(db, user, password_stdin, work)
+    typer.echo(f"added user {created.login} ({created.role}), ID {created.id}")
+
+
+@app.command("passwd")
+@guarded
+def passwd(
+    login: str = typer.Argument(..., help="Whose password (yours, or anyone's for an admin)."),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Change a password. An administrator's reset also unlocks a locked account."""
+    from ledger.logbook.users import set_password
+
+    def work(session, actor):  # type: ignore[no-untyped-def]
+        new = read_secret(f"New password for {login}", from_stdin=password_stdin, confirm=True)
+        return set_password(session, actor, login, new)
+
+    changed = write(db, user, password_stdin, work)
+    typer.echo(f"password of {changed.login} changed")
+
+
+@app.command("disable")
+@guarded
+def disable(
+    login: str = typer.Argument(..., help="The user ID to disable."),
+    reason: str = typer.Option(..., "--reason", help="Why (kept in the audit trail)."),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Disable a user. The ID stays in the records and is never given to anyone else."""
+    from ledger.logbook.users import disable_user
+
+    done = write(db, user, password_stdin, lambda s, a: disable_user(s, a, login, reason))
+    typer.echo(f"user {done.login} disabled")
+
+
+@app.command("lockout")
+@guarded
+def lockout(
+    max_failures: int = typer.Option(
+        ..., "--max-failures", help="Wrong passwords in a row that lock an account."
+    ),
+    reason: str = typer.Option(..., "--reason", help="Why the policy changes."),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Set the lockout threshold (audited)."""
+    from ledger.logbook.users import set_lockout
+
+    write(db, user, password_stdin, lambda s, a: set_lockout(s, a, max_failures, reason))
+    typer.echo(f"accounts now lock after {max_failures} wrong passwords in a row")
+
+
+@app.command("list")
+@guarded
+def list_(db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> None:
+    """List every user, active or not."""
+    from ledger.cli.output import Report, Table
+    from ledger.cli.session import read
+    from ledger.logbook.users import list_users
+
+    rows = read(db, list_users)
+    report = Report("user list")
+    table = Table(
+        "Users",
+        [
+            ("id", "ID"),
+            ("login", "user"),
+            ("name", "name"),
+            ("role", "role"),
+            ("state", "state"),
+            ("created_at", "created"),
+        ],
+    )
+    for u in rows:
+        state = "disabled" if not u.active else "locked" if u.locked else "active"
+        table.rows.append([u.id, u.login, u.full_name, u.role, state, u.created_at.isoformat()])
+    report.tables.append(table)
+    report.print(as_json)

@@ -1,0 +1,135 @@
+"""Cleanings and storage periods."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import datetime
+
+from sqlmodel import Session
+
+from ledger.errors import InputError
+from ledger.logbook.context import begin, set_status
+from ledger.science.water import T_MAX, T_MIN
+from ledger.store.tables import Cleaning, Storage, UserAccount
+
+CONCENTRATION_UNITS = ("mol/m**3", "kg/m**3", "")
+
+
+@dataclass(frozen=True)
+class CleaningInput:
+    """A cleaning in SI: concentration in mol/m³, kg/m³ or as a fraction ("" unit)."""
+
+    agent: str
+    concentration: float
+    concentration_unit: str
+    temperature_k: float
+    contact_time_s: float
+    reagent_lot: str
+    rinse_ph: float | None = None
+    rinse_conductivity_s_m: float | None = None
+
+
+def _check(c: CleaningInput) -> None:
+    if not c.agent.strip():
+        raise InputError(
+            "the cleaning agent is empty",
+            field="agent",
+            value=c.agent,
+            expected="the agent's name, e.g. sodium hydroxide",
+        )
+    if not c.reagent_lot.strip():
+        raise InputError(
+            "the reagent lot is empty",
+            field="reagent_lot",
+            value=c.reagent_lot,
+            expected="the lot number of the cleaning solution",
+        )
+    if c.concentration_unit not in CONCENTRATION_UNITS or not c.concentration > 0:
+        raise InputError(
+            "the concentration must be positive",
+            field="concentration",
+            value=c.concentration,
+            expected="e.g. 0.5 mol/L, 10 g/L or 0.1 %",
+        )
+    if not T_MIN <= c.temperature_k <= T_MAX:
+        raise InputError(
+            f"cleaning temperature {c.temperature_k - 273.15:.1f} °C is out of range",
+            field="temperature",
+            value=c.temperature_k,
+            expected="an aqueous cleaning between 0 and 100 °C",
+        )
+    if not c.contact_time_s > 0:
+        raise InputError(
+            "the contact time must be positive",
+            field="contact_time",
+            value=c.contact_time_s,
+            expected="a time above zero, e.g. 60 min",
+        )
+    if c.rinse_ph is not None and not 0 <= c.rinse_ph <= 14:
+        raise InputError(
+            f"rinse pH {c.rinse_ph} is out of range",
+            field="rinse_ph",
+            value=c.rinse_ph,
+            expected="a pH from 0 to 14",
+        )
+    if c.rinse_conductivity_s_m is not None and c.rinse_conductivity_s_m < 0:
+        raise InputError(
+            "the rinse conductivity cannot be negative",
+            field="rinse_conductivity",
+            value=c.rinse_conductivity_s_m,
+            expected="zero or more, e.g. 1.5 uS/cm",
+        )
+
+
+def record_cleaning(
+    session: Session,
+    actor: UserAccount,
+    serial: str,
+    c: CleaningInput,
+    *,
+    activity_at: datetime | None = None,
+    note: str | None = None,
+) -> tuple[Cleaning, str | None]:
+    work = begin(session, actor, serial, "cleaning", activity_at)
+    _check(c)
+    cleaning = work.journal.create(
+        Cleaning(
+            module_id=work.module_id,
+            activity_at=work.at,
+            late=work.late,
+            note=note,
+            **c.__dict__,
+        )
+    )
+    if work.module.status in ("available", "awaiting_cleaning", "cleaned"):
+        set_status(work, "cleaned", "cleaned; the post-clean water-flux test is next")
+        return cleaning, "cleaned: record the post-clean water-flux test next"
+    return cleaning, None
+
+
+def record_storage(
+    session: Session,
+    actor: UserAccount,
+    serial: str,
+    solution: str,
+    *,
+    activity_at: datetime | None = None,
+    note: str | None = None,
+) -> Storage:
+    work = begin(session, actor, serial, "storage", activity_at)
+    if not solution.strip():
+        raise InputError(
+            "the storage solution is empty",
+            field="solution",
+            value=solution,
+            expected="e.g. 20 % ethanol, or 0.1 M sodium hydroxide",
+        )
+    return work.journal.create(
+        Storage(
+            module_id=work.module_id,
+            activity_at=work.at,
+            late=work.late,
+            note=note,
+            solution=solution.strip(),
+        )
+    )

@@ -1,0 +1,106 @@
+"""What every module write shares: the acting user, the locked module, the activity time."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import datetime
+
+from sqlalchemy import func
+from sqlmodel import Session, select
+
+from ledger.errors import InputError, RefusedError
+from ledger.logbook.auth import RECORDERS, require_role
+from ledger.logbook.modules import get_module
+from ledger.logbook.times import activity_time
+from ledger.rules.sequence import refusal
+from ledger.store.audit import Journal
+from ledger.store.tables import (
+    Cleaning,
+    IntegrityTest,
+    Module,
+    ModuleType,
+    ModuleUse,
+    Storage,
+    UserAccount,
+    WaterFluxTest,
+)
+
+
+@dataclass
+class Work:
+    """One write on one module: its journal, the module (locked), its type, when it happened."""
+
+    journal: Journal
+    module: Module
+    mtype: ModuleType
+    at: datetime
+    late: bool
+
+    @property
+    def session(self) -> Session:
+        return self.journal.session
+
+    @property
+    def module_id(self) -> int:
+        assert self.module.id is not None
+        return self.module.id
+
+
+def last_activity(session: Session, module_id: int) -> datetime | None:
+    """The newest activity time recorded for a module, over every kind of record."""
+    times: list[datetime] = []
+    for cls in (WaterFluxTest, IntegrityTest, Cleaning, Storage, ModuleUse):
+        t = session.exec(
+            select(func.max(cls.activity_at)).where(  # type: ignore[attr-defined]
+                cls.module_id == module_id,
+                cls.voided_at.is_(None),  # type: ignore[attr-defined]
+            )
+        ).one()
+        if t is not None:
+            times.append(t)
+    ended = session.exec(
+        select(func.max(ModuleUse.ended_at)).where(
+            ModuleUse.module_id == module_id,
+            ModuleUse.voided_at.is_(None),  # type: ignore[union-attr]
+        )
+    ).one()
+    if ended is not None:
+        times.append(ended)
+    from ledger.store.types import UTCDateTime
+
+    # func.max() loses the column type on SQLite, so attach UTC the way the column type does.
+    fix = UTCDateTime().process_result_value
+    return max((fix(t, session.get_bind().dialect) for t in times), default=None)  # type: ignore[type-var]
+
+
+def begin(
+    session: Session,
+    actor: UserAccount,
+    serial: str,
+    action: str,
+    given_time: datetime | None = None,
+) -> Work:
+    """Check role, module, sequence and activity time; return the context of the write."""
+    require_role(actor, RECORDERS, f"record {action.split(':')[0]} results")
+    module = get_module(session, serial, lock=True)
+    message = refusal(action, module.status, module.serial)
+    if message:
+        raise RefusedError(message, field="serial", value=serial)
+    journal = Journal(session, actor.login)
+    at, late = activity_time(given_time, journal.at)
+    previous = last_activity(session, module.id)  # type: ignore[arg-type]
+    if previous is not None and at < previous:
+        raise InputError(
+            f"activity time {at.isoformat()} is before module {serial}'s latest recorded "
+            f"activity ({previous.isoformat()}); enter records in the order they happened",
+            field="activity_time",
+            value=at.isoformat(),
+            expected=f"a time after {previous.isoformat()}",
+        )
+    mtype = session.get(ModuleType, module.type_id)
+    assert mtype is not None
+    return Work(journal, module, mtype, at, late)
+
+
+def set_status(work: Work, status: str, reason: str) -> None:
+    work.journal.change(work.module, {"status": status}, reason=reason, module_id=work.module_id)

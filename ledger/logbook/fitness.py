@@ -1,0 +1,67 @@
+"""Gather a module's facts from the logbook and ask the rules for the fit-for-reuse verdict."""
+
+from __future__ import annotations
+
+from datetime import datetime
+
+from sqlmodel import Session
+
+from ledger.logbook import latest
+from ledger.logbook.modules import get_module, open_hold
+from ledger.rules.fitness import Facts, IntegrityResult, Limits, Verdict, WaterResult, verdict
+from ledger.store.tables import Module, ModuleType, WaterFluxTest
+from ledger.store.types import utc_now
+
+
+def _water(t: WaterFluxTest | None) -> WaterResult | None:
+    if t is None:
+        return None
+    return WaterResult(t.id or 0, t.activity_at, t.stage, t.nwp_m_s_pa, t.recovery)
+
+
+def facts(
+    session: Session, module: Module, product: str | None = None, now: datetime | None = None
+) -> Facts:
+    mtype = session.get(ModuleType, module.type_id)
+    assert mtype is not None and module.id is not None
+    mid = module.id
+    use = latest.use(session, mid)
+    store = latest.storage(session, mid)
+    clean = latest.cleaning(session, mid)
+    in_storage = store is not None and all(
+        other is None or other.activity_at <= store.activity_at for other in (use, clean)
+    )
+    it = latest.integrity(session, mid)
+    hold = open_hold(session, module) if module.status == "on_hold" else None
+    return Facts(
+        serial=module.serial,
+        status=module.status,
+        cycles=latest.cycles(session, mid),
+        limits=Limits(
+            mtype.recovery_min,
+            mtype.recovery_alert,
+            mtype.damage_ratio,
+            mtype.preuse_band,
+            mtype.reuse_limit_cycles,
+            mtype.storage_limit_s,
+        ),
+        now=now or utc_now(),
+        baseline=_water(latest.water(session, mid, "baseline")),
+        last_use_at=use.activity_at if use is not None else None,
+        post_clean=_water(latest.water(session, mid, "post_clean")),
+        pre_use=_water(latest.water(session, mid, "pre_use")),
+        latest_water=_water(latest.water(session, mid)),
+        integrity=IntegrityResult(it.id or 0, it.activity_at, it.passed, it.kind) if it else None,
+        storage_start=store.activity_at if store is not None and in_storage else None,
+        storage_solution=store.solution if store is not None and in_storage else None,
+        hold_reason=hold.reason if hold is not None else None,
+        dedicated_product=module.dedicated_product,
+        product=product,
+    )
+
+
+def fitness(
+    session: Session, serial: str, product: str | None = None, now: datetime | None = None
+) -> Verdict:
+    """The verdict for the module with this serial (read-only)."""
+    return verdict(facts(session, get_module(session, serial), product, now))

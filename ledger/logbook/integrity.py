@@ -1,0 +1,203 @@
+"""Integrity tests: pressure decay (readings, or start and end) or bubble point, judged against
+the module type's limit at its stated test pressure."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import datetime
+
+from sqlmodel import Session
+
+from ledger import __version__
+from ledger.errors import InputError, RefusedError
+from ledger.logbook import latest
+from ledger.logbook.context import Work, begin, set_status
+from ledger.logbook.modules import put_on_hold
+from ledger.logbook.waterflux import phase_start
+from ledger.rules.sequence import after_integrity_test
+from ledger.science import integrity as sci
+from ledger.science import water
+from ledger.store.tables import IntegrityTest, UserAccount
+
+# Common practice (no single source): the test pressure should match the validated one.
+PRESSURE_TOLERANCE = 0.05
+
+
+@dataclass(frozen=True)
+class DecayInput:
+    """Pressure-decay inputs in SI. Either ``readings`` [(t_s, p_pa), ...] or start/end/hold."""
+
+    test_pressure_pa: float | None = None
+    readings: list[tuple[float, float]] | None = None
+    start_pa: float | None = None
+    end_pa: float | None = None
+    hold_time_s: float | None = None
+    upstream_volume_m3: float | None = None
+    temperature_k: float | None = None
+
+
+def _check_pressure(work: Work, test_pressure: float) -> None:
+    stated = work.mtype.integrity_test_pressure_pa
+    if abs(test_pressure / stated - 1.0) > PRESSURE_TOLERANCE:
+        raise InputError(
+            f"test pressure {test_pressure / 1e5:.3g} bar differs from the module type's "
+            f"stated {stated / 1e5:.3g} bar by more than {PRESSURE_TOLERANCE:.0%}",
+            field="test_pressure",
+            value=test_pressure,
+            expected=f"{stated / 1e5:.3g} bar ± {PRESSURE_TOLERANCE:.0%}, the pressure its "
+            "limit was validated at",
+        )
+
+
+def _decay(d: DecayInput) -> tuple[float, float | None, float, float, list[list[float]] | None]:
+    """(rate Pa/s, r², test pressure, hold time, stored readings)."""
+    if d.readings is not None:
+        if d.start_pa is not None or d.end_pa is not None:
+            raise InputError(
+                "give readings or start and end pressures, not both",
+                field="readings",
+                value=len(d.readings),
+                expected="one of the two",
+            )
+        fit = sci.decay_rate([t for t, _ in d.readings], [p for _, p in d.readings])
+        start = d.test_pressure_pa if d.test_pressure_pa is not None else fit.start_pressure_pa
+        return fit.rate_pa_s, fit.r_squared, start, fit.duration_s, [list(r) for r in d.readings]
+    if d.start_pa is None or d.end_pa is None or d.hold_time_s is None:
+        raise InputError(
+            "a pressure-decay test needs readings, or start, end and hold time",
+            field="start",
+            value=None,
+            expected="--readings FILE, or --start, --end and --hold-time",
+        )
+    if not d.hold_time_s > 0:
+        raise InputError(
+            "the hold time must be positive",
+            field="hold_time",
+            value=d.hold_time_s,
+            expected="a time above zero",
+        )
+    if not d.start_pa > 0:
+        raise InputError(
+            "the start pressure must be positive",
+            field="start",
+            value=d.start_pa,
+            expected="a gauge pressure above zero",
+        )
+    rate = (d.start_pa - d.end_pa) / d.hold_time_s
+    start = d.test_pressure_pa if d.test_pressure_pa is not None else d.start_pa
+    return rate, None, start, d.hold_time_s, None
+
+
+def record_decay_test(
+    session: Session,
+    actor: UserAccount,
+    serial: str,
+    d: DecayInput,
+    *,
+    activity_at: datetime | None = None,
+    note: str | None = None,
+) -> tuple[IntegrityTest, str | None]:
+    work = begin(session, actor, serial, "integrity", activity_at)
+    rate, r2, test_pressure, hold, readings = _decay(d)
+    _check_pressure(work, test_pressure)
+    if d.temperature_k is not None:
+        water.check_temperature(d.temperature_k)
+    flow = None
+    if d.upstream_volume_m3 is not None:
+        flow = sci.gas_flow_from_decay(max(rate, 0.0), d.upstream_volume_m3)
+    judged = sci.judge_decay(max(rate, 0.0), work.mtype.decay_limit_pa_s)
+    test = IntegrityTest(
+        module_id=work.module_id,
+        activity_at=work.at,
+        late=work.late,
+        note=note,
+        kind="pressure_decay",
+        test_pressure_pa=test_pressure,
+        hold_time_s=hold,
+        upstream_volume_m3=d.upstream_volume_m3,
+        temperature_k=d.temperature_k,
+        readings=readings,
+        decay_rate_pa_s=rate,
+        r_squared=r2,
+        gas_flow_m3_s=flow,
+        limit_value=work.mtype.decay_limit_pa_s,
+        passed=judged.passed,
+        method="pressure decay: least-squares slope of the readings"
+        if readings
+        else "pressure decay: (start − end) / hold time",
+        method_version=f"fluxledger {__version__}",
+    )
+    work.journal.create(test)
+    return test, _advance(work, test)
+
+
+def record_bubble_point(
+    session: Session,
+    actor: UserAccount,
+    serial: str,
+    bubble_point_pa: float,
+    *,
+    temperature_k: float | None = None,
+    activity_at: datetime | None = None,
+    note: str | None = None,
+) -> tuple[IntegrityTest, str | None]:
+    work = begin(session, actor, serial, "integrity", activity_at)
+    minimum = work.mtype.bubble_point_min_pa
+    if minimum is None:
+        raise RefusedError(
+            f"module type {work.mtype.code} has no bubble-point limit; record a pressure-decay "
+            "test or give the type a bubble-point minimum",
+            field="bubble_point",
+            value=bubble_point_pa,
+        )
+    if not bubble_point_pa > 0:
+        raise InputError(
+            "the bubble point must be positive",
+            field="bubble_point",
+            value=bubble_point_pa,
+            expected="a gauge pressure above zero",
+        )
+    if temperature_k is not None:
+        water.check_temperature(temperature_k)
+    test = IntegrityTest(
+        module_id=work.module_id,
+        activity_at=work.at,
+        late=work.late,
+        note=note,
+        kind="bubble_point",
+        bubble_point_pa=bubble_point_pa,
+        temperature_k=temperature_k,
+        limit_value=minimum,
+        passed=bubble_point_pa >= minimum,
+        method="bubble point: pass at or above the type's minimum",
+        method_version=f"fluxledger {__version__}",
+    )
+    work.journal.create(test)
+    return test, _advance(work, test)
+
+
+def _advance(work: Work, test: IntegrityTest) -> str | None:
+    status = work.module.status
+    baseline = latest.water(work.session, work.module_id, "baseline")
+    post_ok = False
+    if status in ("cleaned", "awaiting_retest"):
+        post = latest.water(work.session, work.module_id, "post_clean", after=phase_start(work))
+        post_ok = (
+            post is not None
+            and post.recovery is not None
+            and post.recovery >= work.mtype.recovery_min
+        )
+    step = after_integrity_test(
+        status, test.passed, has_baseline=baseline is not None, post_clean_passed=post_ok
+    )
+    if step.hold:
+        put_on_hold(
+            work.journal,
+            work.module,
+            step.hold,
+            step.note or step.hold,
+            ("integrity_test", test.id),
+        )
+    elif step.status != status:
+        set_status(work, step.status, step.note or "")
+    return step.note

@@ -1,0 +1,336 @@
+"""Module types and modules: register, look up, hold, disposition, retire."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import date
+from typing import Any
+
+from sqlmodel import Session, select
+
+from ledger.errors import InputError, RefusedError
+from ledger.logbook.auth import DECIDERS, RECORDERS, require_role
+from ledger.rules.sequence import refusal
+from ledger.store.audit import Journal
+from ledger.store.tables import Hold, Module, ModuleType, UserAccount
+
+
+@dataclass(frozen=True)
+class TypeSpec:
+    """A module type as entered, in SI units and fractions."""
+
+    code: str
+    membrane: str
+    pore_rating: str
+    lumen_diameter_m: float
+    fiber_count: int
+    effective_length_m: float
+    area_m2: float
+    decay_limit_pa_s: float
+    integrity_test_pressure_pa: float
+    reuse_limit_cycles: int
+    storage_limit_s: float
+    supplier: str | None = None
+    bubble_point_min_pa: float | None = None
+    reference_temperature_k: float = 293.15
+    recovery_min: float = 0.80
+    recovery_alert: float = 0.90
+    damage_ratio: float = 1.20
+    preuse_band: float = 0.10
+
+
+def _positive(field: str, value: float, what: str) -> None:
+    if not value > 0:
+        raise InputError(
+            f"{field} must be positive",
+            field=field,
+            value=value,
+            expected=f"{what} greater than zero",
+        )
+
+
+def check_type(spec: TypeSpec) -> None:
+    for field in (
+        "lumen_diameter_m",
+        "effective_length_m",
+        "area_m2",
+        "decay_limit_pa_s",
+        "integrity_test_pressure_pa",
+        "storage_limit_s",
+    ):
+        _positive(field, getattr(spec, field), "a value")
+    if spec.fiber_count < 1:
+        raise InputError(
+            "fiber count must be at least 1",
+            field="fiber_count",
+            value=spec.fiber_count,
+            expected="a whole number of 1 or more",
+        )
+    if spec.reuse_limit_cycles < 1:
+        raise InputError(
+            "the reuse limit must be at least 1 cycle",
+            field="reuse_limit",
+            value=spec.reuse_limit_cycles,
+            expected="a whole number of 1 or more",
+        )
+    if spec.bubble_point_min_pa is not None:
+        _positive("bubble_point_min_pa", spec.bubble_point_min_pa, "a pressure")
+    if not 0 < spec.recovery_min <= spec.recovery_alert <= 1.5:
+        raise InputError(
+            f"recovery minimum {spec.recovery_min:.0%} and alert {spec.recovery_alert:.0%} "
+            "are inconsistent",
+            field="recovery_min",
+            value=spec.recovery_min,
+            expected="0 % < minimum ≤ alert ≤ 150 %",
+        )
+    if not spec.damage_ratio > 1.0:
+        raise InputError(
+            "the damage-suspicion ratio must exceed 100 %",
+            field="damage_ratio",
+            value=spec.damage_ratio,
+            expected="a ratio above 100 %, e.g. 120 %",
+        )
+    if not 0 < spec.preuse_band < 1:
+        raise InputError(
+            "the pre-use band must be between 0 and 100 %",
+            field="preuse_band",
+            value=spec.preuse_band,
+            expected="a fraction, e.g. 10 %",
+        )
+    if not spec.code.strip():
+        raise InputError(
+            "the type code is empty",
+            field="code",
+            value=spec.code,
+            expected="a short code, e.g. HF-750-120",
+        )
+
+
+def add_type(session: Session, actor: UserAccount, spec: TypeSpec) -> ModuleType:
+    require_role(actor, DECIDERS, "define module types and their acceptance limits")
+    check_type(spec)
+    if session.exec(select(ModuleType).where(ModuleType.code == spec.code)).first():
+        raise InputError(
+            f"module type {spec.code!r} exists",
+            field="code",
+            value=spec.code,
+            expected="a new type code",
+        )
+    values: dict[str, Any] = dict(spec.__dict__)
+    return Journal(session, actor.login).create(ModuleType(**values))
+
+
+def get_type(session: Session, code: str) -> ModuleType:
+    found = session.exec(select(ModuleType).where(ModuleType.code == code)).first()
+    if found is None:
+        known = ", ".join(t.code for t in session.exec(select(ModuleType))) or "none yet"
+        raise InputError(
+            f"no module type {code!r}",
+            field="type",
+            value=code,
+            expected=f"a registered type ({known})",
+        )
+    return found
+
+
+def list_types(session: Session) -> list[ModuleType]:
+    return list(session.exec(select(ModuleType).order_by(ModuleType.code)))  # type: ignore[arg-type]
+
+
+def get_module(session: Session, serial: str, *, lock: bool = False) -> Module:
+    """The module with this serial (locked for update inside a write), or InputError."""
+    statement = select(Module).where(Module.serial == serial)
+    if lock:
+        statement = statement.with_for_update()
+    found = session.exec(statement).first()
+    if found is None:
+        raise InputError(
+            f"no module with serial {serial!r}",
+            field="serial",
+            value=serial,
+            expected="the serial of a registered module (fluxledger module list)",
+        )
+    return found
+
+
+def add_module(
+    session: Session,
+    actor: UserAccount,
+    serial: str,
+    type_code: str,
+    *,
+    manufacturer_lot: str | None = None,
+    received_on: date | None = None,
+    note: str | None = None,
+) -> Module:
+    require_role(actor, RECORDERS, "register modules")
+    serial = serial.strip()
+    if not serial:
+        raise InputError(
+            "the serial is empty",
+            field="serial",
+            value=serial,
+            expected="the module's serial number",
+        )
+    mtype = get_type(session, type_code)
+    if session.exec(select(Module).where(Module.serial == serial)).first() is not None:
+        raise InputError(
+            f"module {serial!r} is already registered",
+            field="serial",
+            value=serial,
+            expected="a serial not yet in the logbook",
+        )
+    module = Module(
+        serial=serial,
+        type_id=mtype.id,
+        manufacturer_lot=manufacturer_lot,
+        received_on=received_on,
+        note=note,
+        status="commissioning",
+    )
+    return Journal(session, actor.login).create(module)
+
+
+def list_modules(session: Session, status: str | None = None) -> list[tuple[Module, ModuleType]]:
+    statement = select(Module, ModuleType).where(Module.type_id == ModuleType.id)
+    if status:
+        statement = statement.where(Module.status == status)
+    return list(session.exec(statement.order_by(Module.serial)))  # type: ignore[arg-type]
+
+
+def open_hold(session: Session, module: Module) -> Hold | None:
+    return session.exec(
+        select(Hold)
+        .where(Hold.module_id == module.id, Hold.decision.is_(None))  # type: ignore[union-attr]
+        .order_by(Hold.id.desc())  # type: ignore[union-attr]
+    ).first()
+
+
+def put_on_hold(
+    journal: Journal,
+    module: Module,
+    cause: str,
+    reason: str,
+    source: tuple[str, int | None] | None = None,
+) -> Hold:
+    """Hold a module (inside the caller's transaction) and remember where it was."""
+    hold = journal.create(
+        Hold(
+            module_id=module.id,
+            cause=cause,
+            reason=reason,
+            source_entity=source[0] if source else None,
+            source_id=source[1] if source else None,
+        ),
+        reason=reason,
+    )
+    journal.change(
+        module,
+        {"status": "on_hold", "status_before_hold": module.status},
+        reason=reason,
+        module_id=module.id,
+    )
+    return hold
+
+
+def hold(session: Session, actor: UserAccount, serial: str, reason: str) -> Hold:
+    require_role(actor, RECORDERS, "put modules on hold")
+    module = get_module(session, serial, lock=True)
+    _allowed(module, "hold")
+    _need_reason(reason)
+    return put_on_hold(Journal(session, actor.login), module, "manual", reason)
+
+
+DECISIONS = ("retest", "return", "retire")
+
+
+def release(session: Session, actor: UserAccount, serial: str, decision: str, reason: str) -> Hold:
+    """The signed disposition of a hold: retest, return (manual holds only), or retire."""
+    require_role(actor, DECIDERS, "sign a disposition")
+    module = get_module(session, serial, lock=True)
+    _allowed(module, "release")
+    _need_reason(reason)
+    if decision not in DECISIONS:
+        raise InputError(
+            f"decision {decision!r} is unknown",
+            field="decision",
+            value=decision,
+            expected="one of " + ", ".join(DECISIONS),
+        )
+    current = open_hold(session, module)
+    if current is None:
+        raise RefusedError(
+            f"module {serial} is on hold but no open hold record was found",
+            field="serial",
+            value=serial,
+        )
+    if decision == "return" and current.cause != "manual":
+        raise RefusedError(
+            f"module {serial} is on hold for a failed {current.cause} check; it cannot simply "
+            "return to service: choose retest or retire",
+            field="decision",
+            value=decision,
+            expected="retest or retire",
+        )
+    journal = Journal(session, actor.login)
+    journal.change(
+        current,
+        {
+            "decision": decision,
+            "decision_reason": reason,
+            "decided_by": actor.login,
+            "decided_at": journal.at,
+            "meaning": "approved",
+        },
+        reason=reason,
+        module_id=module.id,
+    )
+    new_status = {
+        "retest": "awaiting_retest",
+        "return": module.status_before_hold or "available",
+        "retire": "retired",
+    }[decision]
+    journal.change(
+        module,
+        {"status": new_status, "status_before_hold": None},
+        reason=reason,
+        module_id=module.id,
+    )
+    return current
+
+
+def retire(session: Session, actor: UserAccount, serial: str, reason: str) -> Module:
+    require_role(actor, DECIDERS, "retire modules")
+    module = get_module(session, serial, lock=True)
+    _allowed(module, "retire")
+    _need_reason(reason)
+    Journal(session, actor.login).change(
+        module, {"status": "retired"}, reason=reason, module_id=module.id
+    )
+    return module
+
+
+def _need_reason(reason: str) -> None:
+    if not reason or not reason.strip():
+        raise InputError(
+            "a reason is required",
+            field="reason",
+            value=reason,
+            expected="a short reason for the record",
+        )
+
+
+def _allowed(module: Module, action: str) -> None:
+    message = refusal(action, module.status, module.serial)
+    if message:
+        raise RefusedError(message, field="serial", value=module.serial)
+
+
+def last_decision(session: Session, module_id: int) -> Any:
+    """When the module's latest hold was decided (the start of a retest), or None."""
+    found = session.exec(
+        select(Hold)
+        .where(Hold.module_id == module_id, Hold.decided_at.is_not(None))  # type: ignore[union-attr]
+        .order_by(Hold.id.desc())  # type: ignore[union-attr]
+    ).first()
+    return found.decided_at if found is not None else None

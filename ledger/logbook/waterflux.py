@@ -1,0 +1,250 @@
+"""Water-flux tests: NWP at the reference temperature, recovery against baseline, status."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import datetime
+
+from ledger import __version__
+from ledger.errors import InputError, RefusedError
+from ledger.logbook import latest
+from ledger.logbook.context import Work, begin, set_status
+from ledger.logbook.modules import put_on_hold
+from ledger.rules.sequence import after_water_test
+from ledger.science import permeability as perm
+from ledger.science import water
+from ledger.store.tables import STAGES, UserAccount, WaterFluxTest
+
+METHOD_ONE = "single point: NWP = Qp/(A·TMP) · µ(T)/µ(T_ref), µ by IAPWS R12-08"
+METHOD_SLOPE = "several points: NWP = slope of J·µ(T)/µ(T_ref) against TMP (least squares)"
+
+
+@dataclass(frozen=True)
+class WaterPoint:
+    """One reading in SI: pressures (Pa gauge), and a flow or a volume collected over a time."""
+
+    feed_pa: float
+    retentate_pa: float
+    permeate_pa: float
+    flow_m3_s: float | None = None
+    volume_m3: float | None = None
+    time_s: float | None = None
+
+    def check_tmp(self, index: int) -> float:
+        tmp = (self.feed_pa + self.retentate_pa) / 2 - self.permeate_pa
+        if not tmp > 0:
+            raise InputError(
+                f"TMP = (feed + retentate)/2 − permeate = {tmp / 1e5:.4g} bar is not positive",
+                field="feed",
+                value=self.feed_pa,
+                expected="feed and retentate pressures above the permeate pressure",
+                index=index,
+            )
+        return tmp
+
+    def flow(self, index: int) -> float:
+        if self.flow_m3_s is not None:
+            if self.volume_m3 is not None or self.time_s is not None:
+                raise InputError(
+                    "give a flow or a volume over a time, not both",
+                    field="flow",
+                    value=self.flow_m3_s,
+                    expected="one of the two",
+                    index=index,
+                )
+            if not self.flow_m3_s > 0:
+                raise InputError(
+                    "the permeate flow must be positive",
+                    field="flow",
+                    value=self.flow_m3_s,
+                    expected="a flow above zero",
+                    index=index,
+                )
+            return self.flow_m3_s
+        if self.volume_m3 is None or self.time_s is None:
+            raise InputError(
+                "each point needs a permeate flow, or a volume and a time",
+                field="flow",
+                value=None,
+                expected="--flow, or --volume and --time",
+                index=index,
+            )
+        if not self.volume_m3 > 0:
+            raise InputError(
+                "the collected volume must be positive",
+                field="volume",
+                value=self.volume_m3,
+                expected="a volume above zero",
+                index=index,
+            )
+        if not self.time_s > 0:
+            raise InputError(
+                "the collection time must be positive",
+                field="time",
+                value=self.time_s,
+                expected="a time above zero",
+                index=index,
+            )
+        return self.volume_m3 / self.time_s
+
+
+def _stage(stage: str) -> str:
+    key = stage.replace("-", "_")
+    if key not in STAGES:
+        raise InputError(
+            f"stage {stage!r} is unknown",
+            field="stage",
+            value=stage,
+            expected="baseline, pre-use, post-use or post-clean",
+        )
+    return key
+
+
+def record_water_test(
+    session: object,
+    actor: UserAccount,
+    serial: str,
+    stage: str,
+    points: list[WaterPoint],
+    temperature_k: float,
+    *,
+    water_grade: str | None = None,
+    activity_at: datetime | None = None,
+    note: str | None = None,
+) -> tuple[WaterFluxTest, str | None]:
+    """Record a test; return it and a note on what the status became (hold, available...)."""
+    stage = _stage(stage)
+    work = begin(session, actor, serial, f"water:{stage}", activity_at)  # type: ignore[arg-type]
+    water.check_temperature(temperature_k)
+    if not points:
+        raise InputError(
+            "a water-flux test needs at least one point",
+            field="points",
+            value=0,
+            expected="one or more TMP points",
+        )
+    area = work.mtype.area_m2
+    t_ref = work.mtype.reference_temperature_k
+    flows = [p.flow(i) for i, p in enumerate(points)]
+    for i, p in enumerate(points):
+        p.check_tmp(i)
+    nwp_points = []
+    for i, (p, q) in enumerate(zip(points, flows, strict=True)):
+        try:
+            nwp_points.append(
+                perm.normalized_permeability(
+                    q, area, p.feed_pa, p.retentate_pa, p.permeate_pa, temperature_k, t_ref
+                )
+            )
+        except InputError as err:
+            err.index = i
+            raise
+    factor = nwp_points[0].factor
+    intercept = r2 = None
+    if len(points) == 1:
+        nwp, method = nwp_points[0].nwp, METHOD_ONE
+    else:
+        slope = perm.nwp_from_points(
+            [n.flux for n in nwp_points], [n.tmp for n in nwp_points], [temperature_k], t_ref
+        )
+        nwp, intercept, r2, method = slope.nwp, slope.intercept, slope.r_squared, METHOD_SLOPE
+    if not nwp > 0:
+        raise InputError(
+            "the points give a non-positive NWP (flux falls as TMP rises)",
+            field="points",
+            value=nwp,
+            expected="flux rising with TMP",
+        )
+    resistance = perm.resistance_from_permeability(nwp / factor, water.viscosity(temperature_k))
+    baseline = latest.water(session, work.module_id, "baseline")  # type: ignore[arg-type]
+    recovery = verdict = None
+    if stage != "baseline":
+        if baseline is None:
+            raise RefusedError(
+                f"module {serial} has no valid baseline water-flux test",
+                field="serial",
+                value=serial,
+            )
+        recovery = perm.recovery(nwp, baseline.nwp_m_s_pa)
+        verdict = _verdict(work, stage, nwp, recovery)
+    test = WaterFluxTest(
+        module_id=work.module_id,
+        activity_at=work.at,
+        late=work.late,
+        note=note,
+        stage=stage,
+        water_grade=water_grade,
+        temperature_k=temperature_k,
+        reference_temperature_k=t_ref,
+        points=[
+            {k: v for k, v in {**p.__dict__, "flow_m3_s": q}.items() if v is not None}
+            for p, q in zip(points, flows, strict=True)
+        ],
+        tmp_pa=sum(n.tmp for n in nwp_points) / len(nwp_points),
+        flux_m_s=sum(n.flux for n in nwp_points) / len(nwp_points),
+        nwp_m_s_pa=nwp,
+        intercept_m_s=intercept,
+        r_squared=r2,
+        resistance_per_m=resistance,
+        baseline_test_id=baseline.id if baseline is not None and stage != "baseline" else None,
+        recovery=recovery,
+        verdict=verdict,
+        method=method,
+        method_version=f"fluxledger {__version__}",
+    )
+    work.journal.create(test)
+    return test, _advance(work, test)
+
+
+def _verdict(work: Work, stage: str, nwp: float, recovery: float) -> str | None:
+    lim = work.mtype
+    if stage == "post_clean":
+        if recovery < lim.recovery_min:
+            return "fail"
+        return "alert" if recovery < lim.recovery_alert else "pass"
+    if stage == "pre_use":
+        post = latest.water(work.session, work.module_id, "post_clean")
+        ref = post.nwp_m_s_pa if post is not None else None
+        if ref is None:
+            return None
+        return "pass" if abs(nwp / ref - 1.0) <= lim.preuse_band else "fail"
+    return None
+
+
+def phase_start(work: Work) -> datetime | None:
+    """Start of the module's current phase: its last cleaning, or the retest disposition."""
+    from ledger.logbook.modules import last_decision
+
+    if work.module.status == "awaiting_retest":
+        return last_decision(work.session, work.module_id)
+    clean = latest.cleaning(work.session, work.module_id)
+    return clean.activity_at if clean is not None else None
+
+
+def integrity_passed_since(work: Work) -> bool:
+    since = phase_start(work) if work.module.status != "commissioning" else None
+    it = latest.integrity(work.session, work.module_id, after=since)
+    return it is not None and it.passed
+
+
+def _advance(work: Work, test: WaterFluxTest) -> str | None:
+    lim = work.mtype
+    step = after_water_test(
+        work.module.status,
+        test.stage,
+        recovery=test.recovery,
+        recovery_min=lim.recovery_min,
+        damage_ratio=lim.damage_ratio,
+        integrity_passed=integrity_passed_since(work),
+    )
+    if step.hold:
+        put_on_hold(
+            work.journal,
+            work.module,
+            step.hold,
+            step.note or step.hold,
+            ("water_flux_test", test.id),
+        )
+    elif step.status != work.module.status:
+        set_status(work, step.status, step.note or "")
+    return step.note

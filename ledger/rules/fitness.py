@@ -1,0 +1,242 @@
+"""The fit-for-reuse verdict: plain facts about a module in, FIT or NOT FIT with every reason out.
+
+Pure: no database, no clock (``now`` is a fact). Ratios are fractions (0.85 = 85 %), times
+are timezone-aware datetimes, durations seconds. The default limits in ledger are common
+practice (DESIGN §6); the site's validated procedures and its quality unit set the real ones.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from datetime import datetime
+from typing import Literal
+
+Outcome = Literal["ok", "alert", "fail", "info"]
+
+FIT, NOT_FIT = "FIT", "NOT FIT"
+
+_DAY = 86_400.0
+EDGE_TOLERANCE = 1e-9  # relative; far below any measured difference
+
+
+@dataclass(frozen=True)
+class Limits:
+    """The module type's acceptance limits (fractions, cycles, seconds)."""
+
+    recovery_min: float
+    recovery_alert: float
+    damage_ratio: float
+    preuse_band: float
+    reuse_limit_cycles: int
+    storage_limit_s: float
+
+
+@dataclass(frozen=True)
+class WaterResult:
+    """One water-flux test: when, which stage, NWP (m/(s·Pa)) and NWP / baseline."""
+
+    test_id: int
+    at: datetime
+    stage: str
+    nwp: float
+    ratio: float | None
+
+
+@dataclass(frozen=True)
+class IntegrityResult:
+    test_id: int
+    at: datetime
+    passed: bool
+    kind: str
+
+
+@dataclass(frozen=True)
+class Facts:
+    """What the verdict needs to know about one module, gathered by the logbook."""
+
+    serial: str
+    status: str
+    cycles: int
+    limits: Limits
+    now: datetime
+    baseline: WaterResult | None = None
+    last_use_at: datetime | None = None  # start of the latest use
+    post_clean: WaterResult | None = None  # latest post-clean test
+    pre_use: WaterResult | None = None  # latest pre-use test
+    latest_water: WaterResult | None = None  # latest test of any stage
+    integrity: IntegrityResult | None = None  # latest integrity test
+    storage_start: datetime | None = None  # latest storage start, if still in storage
+    storage_solution: str | None = None
+    hold_reason: str | None = None
+    dedicated_product: str | None = None
+    product: str | None = None  # the product the engineer wants to run next
+
+
+@dataclass(frozen=True)
+class Reason:
+    """One line of the verdict: what was checked, how it came out, and why."""
+
+    check: str
+    outcome: Outcome
+    message: str
+
+
+@dataclass(frozen=True)
+class Verdict:
+    serial: str
+    reasons: tuple[Reason, ...] = field(default_factory=tuple)
+
+    @property
+    def fit(self) -> bool:
+        return all(r.outcome != "fail" for r in self.reasons)
+
+    @property
+    def word(self) -> str:
+        return FIT if self.fit else NOT_FIT
+
+
+def _pct(x: float) -> str:
+    return f"{100 * x:.1f} %"
+
+
+def _days(seconds: float) -> str:
+    return f"{seconds / _DAY:.1f} d"
+
+
+_STATUS_MESSAGES: dict[str, tuple[Outcome, str]] = {
+    "available": ("ok", "available"),
+    "commissioning": (
+        "fail",
+        "new module: needs a baseline water-flux test and a passing "
+        "integrity test before first use",
+    ),
+    "in_use": ("fail", "in use: end the use and clean the module first"),
+    "awaiting_cleaning": ("fail", "awaiting cleaning"),
+    "cleaned": ("fail", "cleaned but not yet released by its post-clean tests"),
+    "awaiting_retest": ("fail", "awaiting the retest its disposition asked for"),
+    "retired": ("fail", "retired"),
+}
+
+
+def check_status(f: Facts) -> Reason:
+    if f.status == "on_hold":
+        why = f": {f.hold_reason}" if f.hold_reason else ""
+        return Reason("status", "fail", f"on hold{why}; needs a signed disposition")
+    outcome, message = _STATUS_MESSAGES.get(f.status, ("fail", f"unknown status {f.status!r}"))
+    return Reason("status", outcome, message)
+
+
+def check_cycles(f: Facts) -> Reason:
+    limit = f.limits.reuse_limit_cycles
+    text = f"{f.cycles} of {limit} validated cycles used"
+    if f.cycles >= limit:
+        return Reason("cycles", "fail", f"{text}: the validated reuse limit is reached")
+    return Reason("cycles", "ok", text)
+
+
+def check_recovery(f: Facts) -> Reason:
+    lim = f.limits
+    if f.baseline is None:
+        return Reason("recovery", "fail", "no baseline water-flux test recorded")
+    pc = f.post_clean
+    if pc is None or (f.last_use_at is not None and pc.at < f.last_use_at):
+        if f.last_use_at is None:
+            return Reason("recovery", "ok", "not used yet: the baseline NWP stands")
+        return Reason("recovery", "fail", "no post-clean water-flux test since the last use")
+    if pc.ratio is None:
+        return Reason("recovery", "fail", "the post-clean test has no recovery against baseline")
+    text = (
+        f"post-clean NWP recovery {_pct(pc.ratio)} of baseline (minimum "
+        f"{_pct(lim.recovery_min)}, alert below {_pct(lim.recovery_alert)})"
+    )
+    if pc.ratio < lim.recovery_min:
+        return Reason("recovery", "fail", text)
+    if pc.ratio < lim.recovery_alert:
+        return Reason("recovery", "alert", text)
+    return Reason("recovery", "ok", text)
+
+
+def check_damage(f: Facts) -> Reason:
+    latest = f.latest_water
+    if latest is None or latest.ratio is None:
+        return Reason("damage", "info", "no water-flux test to compare with the baseline")
+    text = (
+        f"latest NWP ({latest.stage.replace('_', '-')}) is {_pct(latest.ratio)} of baseline "
+        f"(damage suspected above {_pct(f.limits.damage_ratio)})"
+    )
+    if latest.ratio <= f.limits.damage_ratio:
+        return Reason("damage", "ok", text)
+    it = f.integrity
+    if it is not None and it.passed and it.at > latest.at:
+        return Reason("damage", "alert", f"{text}; an integrity test passed after it")
+    return Reason("damage", "fail", f"{text}; an integrity test must pass before reuse")
+
+
+def check_integrity(f: Facts) -> Reason:
+    it = f.integrity
+    if it is None:
+        return Reason("integrity", "fail", "no integrity test recorded")
+    kind = it.kind.replace("_", "-")
+    when = it.at.isoformat(timespec="minutes")
+    if not it.passed:
+        return Reason("integrity", "fail", f"last integrity test ({kind}, {when}) failed")
+    return Reason("integrity", "ok", f"last integrity test ({kind}, {when}) passed")
+
+
+def check_storage(f: Facts) -> Reason:
+    if f.storage_start is None:
+        return Reason("storage", "info", "not in storage")
+    held = (f.now - f.storage_start).total_seconds()
+    solution = f" in {f.storage_solution}" if f.storage_solution else ""
+    text = f"stored{solution} for {_days(held)} (limit {_days(f.limits.storage_limit_s)})"
+    if held > f.limits.storage_limit_s:
+        return Reason("storage", "fail", f"{text}: clean and retest before use")
+    return Reason("storage", "ok", text)
+
+
+def check_pre_use(f: Facts) -> Reason:
+    pre, pc = f.pre_use, f.post_clean
+    if pre is None or pc is None or pre.at < pc.at:
+        return Reason("pre-use", "info", "no pre-use water-flux test since the last cleaning")
+    if not pc.nwp > 0:
+        return Reason("pre-use", "fail", "the last post-clean NWP is not positive")
+    ratio = pre.nwp / pc.nwp
+    band = f.limits.preuse_band
+    text = f"pre-use NWP is {_pct(ratio)} of the last post-clean NWP (band ±{_pct(band)})"
+    # The edge is inside, as for the other limits; the tolerance absorbs rounding in the ratio.
+    if abs(ratio - 1.0) > band * (1 + EDGE_TOLERANCE):
+        return Reason("pre-use", "fail", text)
+    return Reason("pre-use", "ok", text)
+
+
+def check_product(f: Facts) -> Reason:
+    if f.dedicated_product is None:
+        nxt = f"; first use dedicates it to {f.product}" if f.product else ""
+        return Reason("product", "ok", f"not yet dedicated to a product{nxt}")
+    if f.product is None:
+        return Reason("product", "info", f"dedicated to {f.dedicated_product}")
+    if f.product != f.dedicated_product:
+        return Reason(
+            "product",
+            "fail",
+            f"dedicated to {f.dedicated_product}, not {f.product}; "
+            "another product needs a signed override with its reason",
+        )
+    return Reason("product", "ok", f"dedicated to {f.dedicated_product}")
+
+
+CHECKS = (
+    check_status,
+    check_cycles,
+    check_recovery,
+    check_damage,
+    check_integrity,
+    check_storage,
+    check_pre_use,
+    check_product,
+)
+
+
+def verdict(f: Facts) -> Verdict:
+    """FIT when no check fails; every check's reason is listed either way."""
+    return Verdict(f.serial, tuple(check(f) for check in CHECKS))

@@ -1,0 +1,1 @@
+"""Persistence: SQLModel tables, engine and sessions, schema revisions, the audit trail."""

@@ -1,0 +1,305 @@
+"""The logbook's tables (DESIGN §3). SI units in every numeric column; times are UTC.
+
+Every record table carries ``record_hash`` (SHA-256 of its content, see audit.py) and who
+created it and when. Records that can be wrong carry void fields: nothing is deleted.
+Column names end in their SI unit where the unit is not obvious (``_pa``, ``_m3_s``, ``_k``).
+"""
+
+from __future__ import annotations
+
+from datetime import date, datetime
+from typing import Any, ClassVar
+
+from sqlalchemy import JSON, Index
+from sqlmodel import Field, SQLModel
+
+from ledger.store.types import UTCDateTime
+
+ROLES = ("operator", "engineer", "qa", "admin")
+STAGES = ("baseline", "pre_use", "post_use", "post_clean")
+STATUSES = (
+    "commissioning",  # registered; needs a baseline water-flux test and a passing integrity test
+    "available",
+    "in_use",
+    "awaiting_cleaning",
+    "cleaned",  # cleaned; needs its post-clean water-flux test (and integrity if damage suspected)
+    "on_hold",
+    "awaiting_retest",  # a disposition chose retest: post-clean water flux and integrity again
+    "retired",
+)
+
+
+class Recorded(SQLModel):
+    """Columns of every audited record."""
+
+    # Table rows are never validated on construction; deferring pydantic's schema build
+    # saves ~15 ms of start-up on every logbook command.
+    model_config = {"defer_build": True}  # type: ignore[assignment]
+
+    record_hash: str = Field(default="", max_length=64)
+    created_at: datetime = Field(sa_type=UTCDateTime)
+    created_by: str = Field(max_length=64)
+
+    # Columns left out of the content hash and the audit values.
+    hash_excluded: ClassVar[frozenset[str]] = frozenset({"record_hash"})
+    # Columns whose values the audit trail must not repeat (it records that they changed).
+    redacted: ClassVar[frozenset[str]] = frozenset()
+
+
+class Voidable(Recorded):
+    """A record that can be voided with a reason (never deleted)."""
+
+    voided_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    voided_by: str | None = Field(default=None, max_length=64)
+    void_reason: str | None = None
+
+
+class Activity(Voidable):
+    """A record of something done to a module at a time that may be entered late."""
+
+    module_id: int = Field(foreign_key="module.id")  # indexed with activity_at per table
+    activity_at: datetime = Field(sa_type=UTCDateTime)
+    late: bool = False  # entered with an explicit activity time instead of the system clock
+    note: str | None = None
+
+
+class UserAccount(Recorded, table=True):
+    __tablename__ = "user_account"
+    __table_args__ = {"sqlite_autoincrement": True}
+    redacted: ClassVar[frozenset[str]] = frozenset({"password_hash"})
+
+    id: int | None = Field(default=None, primary_key=True)
+    login: str = Field(max_length=64, unique=True)
+    full_name: str
+    role: str = Field(max_length=16)
+    password_hash: str
+    active: bool = True
+    failed_logins: int = 0
+    locked: bool = False
+
+
+class Setting(Recorded, table=True):
+    """Site settings changed by an administrator (audited), e.g. the lockout threshold."""
+
+    key: str = Field(primary_key=True, max_length=64)
+    value: str
+
+
+class ModuleType(Recorded, table=True):
+    """A hollow-fiber module model with its geometry and the site's acceptance limits (§6)."""
+
+    __tablename__ = "module_type"
+    __table_args__ = {"sqlite_autoincrement": True}
+
+    id: int | None = Field(default=None, primary_key=True)
+    code: str = Field(max_length=64, unique=True)
+    supplier: str | None = None
+    membrane: str
+    pore_rating: str  # as the supplier states it: "750 kDa", "0.2 um"
+    lumen_diameter_m: float
+    fiber_count: int
+    effective_length_m: float
+    area_m2: float
+    reference_temperature_k: float = 293.15
+    recovery_min: float = 0.80  # fraction of baseline NWP after cleaning
+    recovery_alert: float = 0.90
+    damage_ratio: float = 1.20  # NWP / baseline above this suggests damage
+    preuse_band: float = 0.10  # pre-use NWP within ± this fraction of the last post-clean NWP
+    decay_limit_pa_s: float  # pressure-decay limit ...
+    integrity_test_pressure_pa: float  # ... at this test pressure (gauge)
+    bubble_point_min_pa: float | None = None
+    reuse_limit_cycles: int
+    storage_limit_s: float
+
+
+class Module(Recorded, table=True):
+    __table_args__ = {"sqlite_autoincrement": True}
+
+    id: int | None = Field(default=None, primary_key=True)
+    serial: str = Field(max_length=64, unique=True)
+    type_id: int = Field(foreign_key="module_type.id", index=True)
+    manufacturer_lot: str | None = None
+    received_on: date | None = None
+    first_use_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    dedicated_product: str | None = None
+    status: str = Field(default="commissioning", max_length=24)
+    status_before_hold: str | None = Field(default=None, max_length=24)
+    note: str | None = None
+
+
+class WaterFluxTest(Activity, table=True):
+    """Clean-water flux at one or several TMPs, normalized to the reference temperature."""
+
+    __tablename__ = "water_flux_test"
+    __table_args__ = (
+        Index("ix_water_flux_test_module_stage_time", "module_id", "stage", "activity_at"),
+        {"sqlite_autoincrement": True},
+    )
+
+    id: int | None = Field(default=None, primary_key=True)
+    stage: str = Field(max_length=16)
+    water_grade: str | None = None
+    temperature_k: float
+    reference_temperature_k: float
+    # Inputs, SI: [{"feed_pa", "retentate_pa", "permeate_pa", "flow_m3_s"[, "volume_m3",
+    # "time_s"]}]; flow is derived from volume/time when those were given.
+    points: list[dict[str, float]] = Field(sa_type=JSON)
+    tmp_pa: float  # mean TMP of the points
+    flux_m_s: float  # mean flux at the test temperature
+    nwp_m_s_pa: float  # permeability at the reference temperature
+    intercept_m_s: float | None = None  # several points: intercept of J(T_ref) against TMP
+    r_squared: float | None = None
+    resistance_per_m: float  # membrane (or total) resistance at the test temperature
+    baseline_test_id: int | None = Field(default=None, foreign_key="water_flux_test.id")
+    recovery: float | None = None  # NWP / baseline NWP
+    verdict: str | None = Field(default=None, max_length=16)  # pass, alert, fail
+    method: str
+    method_version: str
+
+
+class IntegrityTest(Activity, table=True):
+    """Pressure-decay or bubble-point test and its verdict against the module type's limit."""
+
+    __tablename__ = "integrity_test"
+    __table_args__ = (
+        Index("ix_integrity_test_module_time", "module_id", "activity_at"),
+        {"sqlite_autoincrement": True},
+    )
+
+    id: int | None = Field(default=None, primary_key=True)
+    kind: str = Field(max_length=16)  # pressure_decay, bubble_point
+    test_pressure_pa: float | None = None
+    hold_time_s: float | None = None
+    upstream_volume_m3: float | None = None
+    temperature_k: float | None = None
+    readings: list[list[float]] | None = Field(default=None, sa_type=JSON)  # [[t_s, p_pa], ...]
+    decay_rate_pa_s: float | None = None
+    r_squared: float | None = None
+    gas_flow_m3_s: float | None = None
+    bubble_point_pa: float | None = None
+    limit_value: float  # Pa/s for a decay, Pa for a bubble point
+    passed: bool
+    method: str
+    method_version: str
+
+
+class Cleaning(Activity, table=True):
+    __table_args__ = (
+        Index("ix_cleaning_module_time", "module_id", "activity_at"),
+        {"sqlite_autoincrement": True},
+    )
+
+    id: int | None = Field(default=None, primary_key=True)
+    agent: str
+    concentration: float  # SI value in concentration_unit
+    concentration_unit: str = Field(max_length=16)  # mol/m**3, kg/m**3 or "" (a fraction)
+    temperature_k: float
+    contact_time_s: float
+    reagent_lot: str
+    rinse_ph: float | None = None
+    rinse_conductivity_s_m: float | None = None
+
+
+class Storage(Activity, table=True):
+    __table_args__ = (
+        Index("ix_storage_module_time", "module_id", "activity_at"),
+        {"sqlite_autoincrement": True},
+    )
+
+    id: int | None = Field(default=None, primary_key=True)
+    solution: str
+
+
+class ModuleUse(Activity, table=True):
+    """One processing cycle: the module was used for a product lot (activity_at = start)."""
+
+    __tablename__ = "module_use"
+    __table_args__ = (
+        Index("ix_module_use_module_time", "module_id", "activity_at"),
+        {"sqlite_autoincrement": True},
+    )
+
+    id: int | None = Field(default=None, primary_key=True)
+    product: str
+    lot: str
+    ended_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    override_reason: str | None = None  # why a dedicated module was used for another product
+
+
+class Hold(Recorded, table=True):
+    """A module put on hold, and the signed disposition that ended it."""
+
+    __table_args__ = {"sqlite_autoincrement": True}
+
+    id: int | None = Field(default=None, primary_key=True)
+    module_id: int = Field(foreign_key="module.id", index=True)
+    cause: str = Field(max_length=16)  # integrity, recovery, manual
+    reason: str
+    source_entity: str | None = None
+    source_id: int | None = None
+    decision: str | None = Field(default=None, max_length=16)  # retest, return, retire
+    decision_reason: str | None = None
+    decided_by: str | None = Field(default=None, max_length=64)
+    decided_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    meaning: str | None = Field(default=None, max_length=16)  # the signature's meaning
+
+
+class AuditEvent(SQLModel, table=True):
+    """One append-only entry of the audit trail, chained to the previous one by SHA-256."""
+
+    __tablename__ = "audit_event"
+    __table_args__ = (Index("ix_audit_event_entity", "entity", "entity_id"),)
+
+    seq: int = Field(primary_key=True, sa_column_kwargs={"autoincrement": False})
+    at: datetime = Field(sa_type=UTCDateTime, index=True)
+    actor: str = Field(max_length=64, index=True)
+    action: str = Field(max_length=24)  # create, change, void, login_failed, locked...
+    entity: str = Field(max_length=32)
+    entity_id: str = Field(max_length=64)
+    module_id: int | None = Field(default=None, index=True)
+    field: str | None = Field(default=None, max_length=64)
+    old_value: str | None = None  # JSON
+    new_value: str | None = None  # JSON
+    reason: str | None = None
+    record_hash: str | None = Field(default=None, max_length=64)
+    prev_hash: str = Field(max_length=64)
+    hash: str = Field(max_length=64)
+
+
+class AuditHead(SQLModel, table=True):
+    """The last event's number and hash: lets verify notice a removed final event."""
+
+    __tablename__ = "audit_head"
+
+    id: int = Field(default=1, primary_key=True, sa_column_kwargs={"autoincrement": False})
+    seq: int
+    hash: str = Field(max_length=64)
+
+
+# Audited record tables by entity name (the name used in audit events and on the CLI).
+RECORDS: dict[str, type[Recorded]] = {
+    "user": UserAccount,
+    "setting": Setting,
+    "module_type": ModuleType,
+    "module": Module,
+    "water_flux_test": WaterFluxTest,
+    "integrity_test": IntegrityTest,
+    "cleaning": Cleaning,
+    "storage": Storage,
+    "module_use": ModuleUse,
+    "hold": Hold,
+}
+
+
+def entity_of(record: Recorded) -> str:
+    """The entity name of a record instance."""
+    for name, cls in RECORDS.items():
+        if type(record) is cls:
+            return name
+    raise TypeError(f"not an audited record: {type(record).__name__}")
+
+
+def primary_key(record: Recorded) -> str:
+    """The record's primary key as text (audit events store it so)."""
+    value: Any = getattr(record, "key", None) if isinstance(record, Setting) else record.id  # type: ignore[attr-defined]
+    return str(value)

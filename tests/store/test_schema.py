@@ -1,0 +1,154 @@
+"""Schema: Alembic migrations match the SQLModel tables, revisions are checked, audit rows are
+append-only, timestamps are UTC. On SQLite and (in CI) PostgreSQL."""
+
+from __future__ import annotations
+
+from datetime import UTC, datetime, timedelta, timezone
+from pathlib import Path
+
+import pytest
+from sqlalchemy import text
+from sqlmodel import SQLModel
+
+from ledger.errors import InputError, RefusedError
+from ledger.store import schema
+from ledger.store.engine import connect, resolve_url, transaction
+from ledger.store.tables import AuditEvent, Setting
+from tests.world import World
+
+
+def _fresh(url: str):  # type: ignore[no-untyped-def]
+    engine = connect(resolve_url(url), create=True)
+    schema.upgrade(engine)
+    return engine
+
+
+def test_migrations_produce_exactly_the_table_metadata(db_url: str) -> None:
+    from alembic.autogenerate import compare_metadata
+    from alembic.migration import MigrationContext
+
+    engine = _fresh(db_url)
+    with engine.connect() as conn:
+        ctx = MigrationContext.configure(conn, opts={"compare_type": True})
+        diff = compare_metadata(ctx, SQLModel.metadata)
+    assert diff == []
+
+
+def test_revision_constant_is_the_newest_migration() -> None:
+    from alembic.script import ScriptDirectory
+
+    scripts = ScriptDirectory(str(schema.migrations_dir()))
+    assert scripts.get_heads() == [schema.REVISION]
+
+
+def test_init_twice_is_an_upgrade_that_changes_nothing(db_url: str) -> None:
+    engine = _fresh(db_url)
+    assert schema.upgrade(engine) == (schema.REVISION, schema.REVISION)
+
+
+def test_empty_database_is_refused_with_init_advice(db_url: str) -> None:
+    engine = connect(resolve_url(db_url), create=True)
+    with pytest.raises(RefusedError, match="run `fluxledger init`"):
+        schema.require_current(engine)
+
+
+@pytest.mark.parametrize(
+    ("stored", "message"),
+    [("0000", "older than this software's 0001; run `fluxledger init`"),
+     ("0042", "does not know"),
+     ("a1b2c3", "does not know")],
+)  # fmt: skip
+def test_old_or_unknown_revision_is_refused(db_url: str, stored: str, message: str) -> None:
+    engine = _fresh(db_url)
+    with engine.begin() as conn:
+        conn.execute(text("UPDATE alembic_version SET version_num = :v"), {"v": stored})
+    with pytest.raises(RefusedError, match=message):
+        schema.require_current(engine)
+
+
+def test_cli_refuses_old_schema_with_exit_3(world: World) -> None:
+    engine = world.engine()
+    with engine.begin() as conn:
+        conn.execute(text("UPDATE alembic_version SET version_num = '0000'"))
+    out = world.cli("module", "list")
+    assert out.code == 3 and "run `fluxledger init` to upgrade" in out.stderr
+    assert out.exception is None
+
+
+def test_missing_sqlite_file_is_an_input_error_and_not_created(tmp_path: Path) -> None:
+    target = tmp_path / "nowhere.db"
+    with pytest.raises(InputError, match="fluxledger init"):
+        connect(resolve_url(str(target)))
+    assert not target.exists()
+
+
+def test_sqlite_pragmas(tmp_path: Path) -> None:
+    engine = _fresh(str(tmp_path / "l.db"))
+    with engine.connect() as conn:
+        assert conn.exec_driver_sql("PRAGMA journal_mode").scalar() == "wal"
+        assert conn.exec_driver_sql("PRAGMA foreign_keys").scalar() == 1
+        assert conn.exec_driver_sql("PRAGMA busy_timeout").scalar() == 10_000
+
+
+def test_foreign_keys_are_enforced(db_url: str) -> None:
+    from sqlalchemy.exc import IntegrityError
+
+    engine = _fresh(db_url)
+    with pytest.raises(IntegrityError), engine.begin() as conn:
+        conn.execute(text(
+            "INSERT INTO storage (record_hash, created_at, created_by, module_id, activity_at,"
+            " late, solution) VALUES ('x', CURRENT_TIMESTAMP, 'x', 999, CURRENT_TIMESTAMP,"
+            " false, 'x')"
+        ))  # fmt: skip
+
+
+@pytest.mark.parametrize(
+    "statement", ["UPDATE audit_event SET actor = 'mallory'", "DELETE FROM audit_event"]
+)
+def test_audit_rows_cannot_be_changed_even_in_sql(world: World, statement: str) -> None:
+    from sqlalchemy.exc import DBAPIError
+
+    engine = world.engine()
+    with pytest.raises(DBAPIError, match="append-only"), engine.begin() as conn:
+        conn.execute(text(statement))
+    before = world.snapshot()
+    assert before["audit_event"] > 0
+
+
+def test_timestamps_are_utc_aware_on_the_way_back(db_url: str) -> None:
+    engine = _fresh(db_url)
+    local = datetime(2026, 11, 30, 14, 5, 7, 123456, tzinfo=timezone(timedelta(hours=1)))
+    with transaction(engine) as s:
+        s.add(Setting(key="probe", value="1", record_hash="x", created_at=local, created_by="t"))
+    with transaction(engine) as s:
+        row = s.get(Setting, "probe")
+        assert row is not None
+        assert row.created_at == local
+        assert row.created_at.tzinfo is UTC
+        assert row.created_at.hour == 13
+
+
+def test_naive_timestamps_are_refused(db_url: str) -> None:
+    from sqlalchemy.exc import StatementError
+
+    engine = _fresh(db_url)
+    with pytest.raises(StatementError, match="timezone-aware"), transaction(engine) as s:
+        s.add(
+            AuditEvent(
+                seq=1,
+                at=datetime(2026, 1, 1),
+                actor="x",
+                action="x",
+                entity="x",
+                entity_id="1",
+                prev_hash="0",
+                hash="0",
+            )
+        )
+        s.flush()
+
+
+def test_migrations_ship_with_the_package() -> None:
+    found = schema.migrations_dir()
+    assert (found / "env.py").is_file()
+    assert (found / "versions" / "0001_logbook.py").is_file()
