@@ -6,10 +6,71 @@ from typing import Any
 
 from ledger.cli.output import Q, Report, Table, human
 
+CAUSTIC_NOTE = (
+    "Cleaning agents such as sodium hydroxide are caustic: follow the site's safety procedure "
+    "(eye and skin protection) whenever a cleaning is carried out."
+)
 SITE_NOTE = (
     "Acceptance limits come from the site's validated procedures and its quality unit; "
     "fluxledger applies them and supports, but does not make, the decision."
 )
+
+
+# Column-name suffixes (DESIGN: SI names end in their unit) and the kind they hold.
+_SUFFIX_KINDS = (
+    ("_m_s_pa", "permeability"),
+    ("_pa_s", "pressure_rate"),
+    ("_m3_s", "flow"),
+    ("_s_m", "conductivity"),
+    ("_per_m", "resistance"),
+    ("_m_s", "flux"),
+    ("_m3", "volume"),
+    ("_m2", "area"),
+    ("_pa", "pressure"),
+    ("_k", "temperature"),
+    ("_s", "time"),
+    ("_m", "length"),
+)
+_NAMED_KINDS = {"recovery": "fraction", "recovery_min": "fraction",
+                "recovery_alert": "fraction", "damage_ratio": "fraction",
+                "preuse_band": "fraction"}  # fmt: skip
+
+
+def quantity_of(name: str, value: Any) -> tuple[str, Any]:
+    """(JSON key, value): an SI float becomes a quantity by its column's unit suffix, and the
+    key loses the suffix ("temperature_k" -> "temperature": {"value": 20.0, "unit": "degC"})."""
+    if isinstance(value, bool):
+        return name, value
+    kind, key = _NAMED_KINDS.get(name), name
+    if kind is None:
+        for suffix, k in _SUFFIX_KINDS:
+            if name.endswith(suffix):
+                kind, key = k, name[: -len(suffix)]
+                break
+    if kind is None:
+        return name, value
+    if not isinstance(value, int | float):
+        return key, value  # None stays None
+    return key, Q(float(value), kind)
+
+
+def record_json(record: Any) -> dict[str, Any]:
+    """Every column of a record, quantities with their units, points and readings included."""
+    out: dict[str, Any] = {}
+    for column in record.__table__.columns:
+        value = getattr(record, column.name)
+        if column.name == "points" and value:
+            value = [dict(quantity_of(k, v) for k, v in point.items()) for point in value]
+        elif column.name == "readings" and value:
+            value = [{"time": Q(t, "time", "s"), "pressure": Q(p, "pressure", "psi")}
+                     for t, p in value]  # fmt: skip
+        key, shown = quantity_of(column.name, value)
+        out[key] = shown
+    if getattr(record, "kind", None) == "pressure_decay" and "limit_value" in out:
+        out["limit_value"] = Q(record.limit_value, "pressure_rate")
+    elif getattr(record, "kind", None) == "bubble_point" and "limit_value" in out:
+        out["limit_value"] = Q(record.limit_value, "pressure", "psi")
+    return out
 
 
 def _pct(x: float | None) -> str:
@@ -137,7 +198,17 @@ def history_report(session: Any, serial: str) -> Report:
         )
     report.tables.append(table)
     report.notes.append(SITE_NOTE)
+    if any(e.kind == "cleaning" for e in entries):
+        report.notes.append(CAUSTIC_NOTE)
     return report
+
+
+def _number(x: float | None, kind: str | None) -> Any:
+    if x is None or kind is None:
+        return None
+    if kind == "count":
+        return int(x)
+    return Q(x, kind, "d" if kind == "time" else None)
 
 
 def fitness_report(v: Any, product: str | None) -> Report:
@@ -146,9 +217,33 @@ def fitness_report(v: Any, product: str | None) -> Report:
     s.add("serial", v.serial)
     if product:
         s.add("product", product)
-    table = Table("Reasons", [("check", "check"), ("outcome", "outcome"), ("reason", "reason")])
+    table = Table(
+        "Reasons",
+        [("check", "check"), ("outcome", "outcome"), ("reason", "reason"), ("value", "value"),
+         ("limit", "limit")],
+        json_only=frozenset({"value", "limit"}),
+    )  # fmt: skip
     for r in v.reasons:
-        table.rows.append([r.check, r.outcome, r.message])
+        table.rows.append(
+            [r.check, r.outcome, r.message, _number(r.value, r.kind), _number(r.limit, r.kind)]
+        )
     report.tables.append(table)
     report.notes.append(SITE_NOTE)
     return report
+
+
+def finish(command: str, record: Any, line: str, note: str | None, as_json: bool) -> None:
+    """Print what was recorded: one line (and the status step), or one JSON object."""
+    import typer
+
+    if as_json:
+        import json
+
+        from ledger.cli.output import plain
+
+        body = {"command": command, "record": plain(record_json(record)), "status_note": note}
+        typer.echo(json.dumps(body, indent=2, ensure_ascii=False))
+        return
+    typer.echo(line)
+    if note:
+        typer.echo(f"status: {note}")

@@ -7,6 +7,7 @@ from typing import Any
 import typer
 
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
+from ledger.cli.describe import finish
 from ledger.cli.session import DB_OPTION, PASSWORD_STDIN, USER_OPTION, read, write
 
 types_app = typer.Typer(
@@ -59,6 +60,7 @@ def type_add(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Define a module type. The limits are your site's validated ones; defaults are common
     practice only."""
@@ -91,7 +93,7 @@ def type_add(
         preuse_band=q(preuse_band, "fraction", "--preuse-band"),
     )
     created = write(db, user, password_stdin, lambda s, a: add_type(s, a, spec))
-    typer.echo(f"added module type {created.code}")
+    finish("module-type add", created, f"added module type {created.code}", None, as_json)
 
 
 def _type_report(t: Any) -> Any:
@@ -183,6 +185,7 @@ def module_add(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Register a module. It starts in commissioning: baseline water flux and integrity next."""
     from datetime import date
@@ -215,10 +218,11 @@ def module_add(
             note=note,
         ),
     )
-    typer.echo(
+    line = (
         f"registered module {created.serial} ({type_code}): commissioning — record a "
         "baseline water-flux test and an integrity test next"
     )
+    finish("module add", created, line, None, as_json)
 
 
 @app.command("list")
@@ -280,12 +284,13 @@ def module_hold(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Put a module on hold until an engineer or QA signs its disposition."""
     from ledger.logbook.modules import hold
 
-    write(db, user, password_stdin, lambda s, a: hold(s, a, serial, reason))
-    typer.echo(f"module {serial} is on hold")
+    held = write(db, user, password_stdin, lambda s, a: hold(s, a, serial, reason))
+    finish("module hold", held, f"module {serial} is on hold (hold {held.id})", None, as_json)
 
 
 @app.command("release")
@@ -301,15 +306,18 @@ def module_release(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Sign the disposition of a hold (engineer or QA; your password is your signature)."""
     from ledger.logbook.modules import release
 
     done = write(db, user, password_stdin, lambda s, a: release(s, a, serial, decision, reason))
-    typer.echo(
-        f"module {serial}: disposition {done.decision} signed by {done.decided_by} "
-        f"at {done.decided_at.isoformat() if done.decided_at else ''} (approved)"
+    when = done.decided_at.isoformat() if done.decided_at else ""
+    line = (
+        f"module {serial}: disposition {done.decision} signed by {done.decided_by} at "
+        f"{when} (meaning: approved)"
     )
+    finish("module release", done, line, None, as_json)
 
 
 @app.command("retire")
@@ -320,9 +328,10 @@ def module_retire(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Retire a module for good (engineer or QA)."""
     from ledger.logbook.modules import retire
 
-    write(db, user, password_stdin, lambda s, a: retire(s, a, serial, reason))
-    typer.echo(f"module {serial} is retired")
+    done = write(db, user, password_stdin, lambda s, a: retire(s, a, serial, reason))
+    finish("module retire", done, f"module {serial} is retired", None, as_json)

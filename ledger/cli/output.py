@@ -108,6 +108,7 @@ class Table:
     title: str
     columns: list[tuple[str, str]]
     rows: list[list[Any]] = field(default_factory=list)
+    json_only: frozenset[str] = frozenset()  # columns left out of the terminal table
 
 
 @dataclass
@@ -159,7 +160,9 @@ class Report:
             console.print()
         for t in self.tables:
             table = RichTable(title=t.title, title_justify="left")
-            for i, (_, label) in enumerate(t.columns):
+            shown = [i for i, (key, _) in enumerate(t.columns) if key not in t.json_only]
+            for i in shown:
+                label = t.columns[i][1]
                 first = t.rows[0][i] if t.rows else None
                 if isinstance(first, datetime):
                     table.add_column(label, no_wrap=True, min_width=16)
@@ -167,7 +170,7 @@ class Report:
                 texty = isinstance(first, str | list)
                 table.add_column(label, justify="left" if texty else "right")
             for row in t.rows:
-                table.add_row(*(human(v) for v in row))
+                table.add_row(*(human(row[i]) for i in shown))
             console.print(table)
             console.print()
         if self.verdict is not None:

@@ -6,7 +6,8 @@ from typing import Any
 
 import typer
 
-from ledger.cli.common import guarded, quantity_option
+from ledger.cli.common import JSON_OPTION, guarded, quantity_option
+from ledger.cli.describe import finish
 from ledger.cli.session import ACTIVITY_TIME, DB_OPTION, PASSWORD_STDIN, USER_OPTION, when, write
 from ledger.errors import InputError
 
@@ -19,12 +20,10 @@ care_app = typer.Typer(
 use_app = typer.Typer(help="Start and end a use (one processing cycle).", no_args_is_help=True)
 
 NOTE = typer.Option(None, "--note", help="A free-text remark kept with the record.")
-
-
-def _echo_outcome(text: str, note: str | None) -> None:
-    typer.echo(text)
-    if note:
-        typer.echo(f"status: {note}")
+CAUSTIC = (
+    "caution: cleaning agents such as sodium hydroxide are caustic; handle them as the site's "
+    "safety procedure says (eye and skin protection)"
+)
 
 
 def _water_points(points_file: str, temperature: str | None) -> tuple[list[Any], float, Any]:
@@ -112,6 +111,7 @@ def water(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Record a water-flux test; prints NWP at T_ref and the recovery against baseline."""
     from ledger import units
@@ -156,14 +156,14 @@ def water(
         test, status = record_water_test(
             s, a, serial, stage, points, t, water_grade=water_grade, activity_at=at, note=note
         )
-        return water_line(test), status
+        return test, water_line(test), status
 
     if points_file is not None:
         with pts.blame():
-            text, status = write(db, user, password_stdin, work)
+            test, text, status = write(db, user, password_stdin, work)
     else:
-        text, status = write(db, user, password_stdin, work)
-    _echo_outcome(text, status)
+        test, text, status = write(db, user, password_stdin, work)
+    finish("test water", test, text, status, as_json)
 
 
 @test_app.command("integrity")
@@ -191,6 +191,7 @@ def integrity(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Record an integrity test (pressure decay or bubble point); a failure holds the module."""
     from ledger import units
@@ -219,7 +220,7 @@ def integrity(
                 s, a, serial, bp, temperature_k=temp, activity_at=at, note=note
             ),
         )
-        _echo_outcome(integrity_line(test), status)
+        finish("test integrity", test, integrity_line(test), status, as_json)
         return
     pairs = None
     if readings is not None:
@@ -253,7 +254,7 @@ def integrity(
             password_stdin,
             lambda s, a: record_decay_test(s, a, serial, d, activity_at=at, note=note),
         )
-    _echo_outcome(integrity_line(test), status)
+    finish("test integrity", test, integrity_line(test), status, as_json)
 
 
 def _concentration(text: str) -> tuple[float, str]:
@@ -291,6 +292,7 @@ def clean(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Record a cleaning. CAUTION: sodium hydroxide and similar agents are caustic; wear eye
     and skin protection and follow the site's procedure."""
@@ -317,10 +319,8 @@ def clean(
         password_stdin,
         lambda s, a: record_cleaning(s, a, serial, c, activity_at=at, note=note),
     )
-    _echo_outcome(
-        f"cleaning {record.id} recorded for {serial}" + (" (late entry)" if record.late else ""),
-        status,
-    )
+    line = f"cleaning {record.id} recorded for {serial}" + (" (late entry)" if record.late else "")
+    finish("care clean", record, f"{line}\n{CAUSTIC}", status, as_json)
 
 
 @care_app.command("store")
@@ -333,6 +333,7 @@ def store(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Record the start of a storage period (its length counts against the storage limit)."""
     from ledger.logbook.care import record_storage
@@ -344,7 +345,8 @@ def store(
         password_stdin,
         lambda s, a: record_storage(s, a, serial, solution, activity_at=at, note=note),
     )
-    typer.echo(f"storage {record.id} started for {serial} in {record.solution}")
+    line = f"storage {record.id} started for {serial} in {record.solution}"
+    finish("care store", record, line, None, as_json)
 
 
 @use_app.command("start")
@@ -363,6 +365,7 @@ def use_start(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Start a use. Refused unless the module is FIT for this product."""
     from ledger.logbook.uses import start_use
@@ -376,7 +379,8 @@ def use_start(
             s, a, serial, product, lot, override_reason=override_reason, activity_at=at, note=note
         ),
     )
-    typer.echo(f"use {use.id} started: {serial} for {use.product} lot {use.lot}")
+    line = f"use {use.id} started: {serial} for {use.product} lot {use.lot}"
+    finish("use start", use, line, None, as_json)
 
 
 @use_app.command("end")
@@ -387,13 +391,14 @@ def use_end(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """End the current use; the module then awaits cleaning."""
     from ledger.logbook.uses import end_use
 
     at = when(activity_time)
     use = write(db, user, password_stdin, lambda s, a: end_use(s, a, serial, activity_at=at))
-    typer.echo(f"use {use.id} ended: {serial} is awaiting cleaning")
+    finish("use end", use, f"use {use.id} ended: {serial} is awaiting cleaning", None, as_json)
 
 
 @guarded
@@ -404,9 +409,12 @@ def void(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Void a wrong record (engineer or QA). It is kept, marked void, and no longer counts."""
     from ledger.logbook.voiding import void_record
 
-    write(db, user, password_stdin, lambda s, a: void_record(s, a, kind, record_id, reason))
-    typer.echo(f"{kind} {record_id} is void: {reason}")
+    record = write(
+        db, user, password_stdin, lambda s, a: void_record(s, a, kind, record_id, reason)
+    )
+    finish("void", record, f"{kind} {record_id} is void: {reason}", None, as_json)

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import sys
 from collections.abc import Callable
+from contextvars import ContextVar
 from typing import TYPE_CHECKING, Any, TypeVar
 
 import typer
@@ -50,30 +51,31 @@ def open_ledger(db: str | None, *, create: bool = False) -> Engine:
     return engine
 
 
-_stdin_lines: list[str] | None = None
+# Lines of stdin read for --password-stdin, per command invocation (reset by the root callback).
+_stdin_lines: ContextVar[list[str] | None] = ContextVar("stdin_lines", default=None)
 
 
 def read_secret(prompt: str, *, from_stdin: bool, confirm: bool = False) -> str:
     """A password: the next line of stdin with --password-stdin, else a hidden prompt."""
-    global _stdin_lines
     if from_stdin:
-        if _stdin_lines is None:
-            _stdin_lines = sys.stdin.read().splitlines()
-        if not _stdin_lines:
+        lines = _stdin_lines.get()
+        if lines is None:
+            lines = sys.stdin.read().splitlines()
+            _stdin_lines.set(lines)
+        if not lines:
             raise InputError(
                 f"--password-stdin: standard input has no line left for the {prompt.lower()}",
                 field="password_stdin",
                 value="(empty)",
                 expected="one password per line",
             )
-        return _stdin_lines.pop(0)
+        return lines.pop(0)
     return str(typer.prompt(prompt, hide_input=True, confirmation_prompt=confirm))
 
 
 def reset_stdin() -> None:
     """Forget buffered stdin lines (each CLI invocation in tests starts afresh)."""
-    global _stdin_lines
-    _stdin_lines = None
+    _stdin_lines.set(None)
 
 
 def acting_user(engine: Engine, login: str, password_stdin: bool) -> UserAccount:

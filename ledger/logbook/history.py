@@ -8,8 +8,10 @@ from typing import Any
 
 from sqlmodel import Session, select
 
+from ledger.errors import InputError
 from ledger.logbook.modules import get_module
 from ledger.store.tables import (
+    RECORDS,
     AuditEvent,
     Cleaning,
     Hold,
@@ -19,6 +21,8 @@ from ledger.store.tables import (
     Storage,
     WaterFluxTest,
 )
+
+ENTITIES = tuple(RECORDS)
 
 
 @dataclass(frozen=True)
@@ -61,6 +65,13 @@ def audit_events(
     limit: int | None = None,
 ) -> list[AuditEvent]:
     statement = select(AuditEvent)
+    if entity and entity not in ENTITIES:
+        raise InputError(
+            f"entity {entity!r} is unknown",
+            field="entity",
+            value=entity,
+            expected="one of " + ", ".join(ENTITIES),
+        )
     if entity:
         statement = statement.where(AuditEvent.entity == entity)
     if serial:

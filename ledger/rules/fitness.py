@@ -74,11 +74,18 @@ class Facts:
 
 @dataclass(frozen=True)
 class Reason:
-    """One line of the verdict: what was checked, how it came out, and why."""
+    """One line of the verdict: what was checked, how it came out, and why.
+
+    ``value`` and ``limit`` are the numbers compared, when there are any, with ``kind`` naming
+    what they are: "fraction" (1.0 = 100 %), "time" (s) or "count".
+    """
 
     check: str
     outcome: Outcome
     message: str
+    value: float | None = None
+    limit: float | None = None
+    kind: str | None = None
 
 
 @dataclass(frozen=True)
@@ -129,9 +136,10 @@ def check_status(f: Facts) -> Reason:
 def check_cycles(f: Facts) -> Reason:
     limit = f.limits.reuse_limit_cycles
     text = f"{f.cycles} of {limit} validated cycles used"
+    numbers: tuple[float, float, str] = (f.cycles, limit, "count")
     if f.cycles >= limit:
-        return Reason("cycles", "fail", f"{text}: the validated reuse limit is reached")
-    return Reason("cycles", "ok", text)
+        return Reason("cycles", "fail", f"{text}: the validated reuse limit is reached", *numbers)
+    return Reason("cycles", "ok", text, *numbers)
 
 
 def check_recovery(f: Facts) -> Reason:
@@ -149,11 +157,12 @@ def check_recovery(f: Facts) -> Reason:
         f"post-clean NWP recovery {_pct(pc.ratio)} of baseline (minimum "
         f"{_pct(lim.recovery_min)}, alert below {_pct(lim.recovery_alert)})"
     )
+    numbers: tuple[float, float, str] = (pc.ratio, lim.recovery_min, "fraction")
     if pc.ratio < lim.recovery_min:
-        return Reason("recovery", "fail", text)
+        return Reason("recovery", "fail", text, *numbers)
     if pc.ratio < lim.recovery_alert:
-        return Reason("recovery", "alert", text)
-    return Reason("recovery", "ok", text)
+        return Reason("recovery", "alert", text, *numbers)
+    return Reason("recovery", "ok", text, *numbers)
 
 
 def check_damage(f: Facts) -> Reason:
@@ -164,12 +173,13 @@ def check_damage(f: Facts) -> Reason:
         f"latest NWP ({latest.stage.replace('_', '-')}) is {_pct(latest.ratio)} of baseline "
         f"(damage suspected above {_pct(f.limits.damage_ratio)})"
     )
+    numbers: tuple[float, float, str] = (latest.ratio, f.limits.damage_ratio, "fraction")
     if latest.ratio <= f.limits.damage_ratio:
-        return Reason("damage", "ok", text)
+        return Reason("damage", "ok", text, *numbers)
     it = f.integrity
     if it is not None and it.passed and it.at > latest.at:
-        return Reason("damage", "alert", f"{text}; an integrity test passed after it")
-    return Reason("damage", "fail", f"{text}; an integrity test must pass before reuse")
+        return Reason("damage", "alert", f"{text}; an integrity test passed after it", *numbers)
+    return Reason("damage", "fail", f"{text}; an integrity test must pass before reuse", *numbers)
 
 
 def check_integrity(f: Facts) -> Reason:
@@ -189,9 +199,10 @@ def check_storage(f: Facts) -> Reason:
     held = (f.now - f.storage_start).total_seconds()
     solution = f" in {f.storage_solution}" if f.storage_solution else ""
     text = f"stored{solution} for {_days(held)} (limit {_days(f.limits.storage_limit_s)})"
+    numbers: tuple[float, float, str] = (held, f.limits.storage_limit_s, "time")
     if held > f.limits.storage_limit_s:
-        return Reason("storage", "fail", f"{text}: clean and retest before use")
-    return Reason("storage", "ok", text)
+        return Reason("storage", "fail", f"{text}: clean and retest before use", *numbers)
+    return Reason("storage", "ok", text, *numbers)
 
 
 def check_pre_use(f: Facts) -> Reason:
@@ -204,9 +215,10 @@ def check_pre_use(f: Facts) -> Reason:
     band = f.limits.preuse_band
     text = f"pre-use NWP is {_pct(ratio)} of the last post-clean NWP (band ±{_pct(band)})"
     # The edge is inside, as for the other limits; the tolerance absorbs rounding in the ratio.
+    numbers: tuple[float, float, str] = (ratio, band, "fraction")
     if abs(ratio - 1.0) > band * (1 + EDGE_TOLERANCE):
-        return Reason("pre-use", "fail", text)
-    return Reason("pre-use", "ok", text)
+        return Reason("pre-use", "fail", text, *numbers)
+    return Reason("pre-use", "ok", text, *numbers)
 
 
 def check_product(f: Facts) -> Reason:

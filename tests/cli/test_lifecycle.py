@@ -182,6 +182,8 @@ def test_reuse_limit_makes_module_not_fit(world: World) -> None:
         "check": "cycles",
         "outcome": "fail",
         "reason": "3 of 3 validated cycles used: the validated reuse limit is reached",
+        "value": 3,
+        "limit": 3,
     }
     refused = world.as_user(
         "op.kim", "use", "start", "QMB-0142", "--product", "QB-117", "--lot", "QB117-26-099"
