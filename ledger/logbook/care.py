@@ -8,6 +8,7 @@ from datetime import datetime
 from sqlmodel import Session
 
 from ledger.errors import InputError
+from ledger.logbook.checks import required
 from ledger.logbook.context import begin, set_status
 from ledger.science.water import T_MAX, T_MIN
 from ledger.store.tables import Cleaning, Storage, UserAccount
@@ -30,20 +31,8 @@ class CleaningInput:
 
 
 def _check(c: CleaningInput) -> None:
-    if not c.agent.strip():
-        raise InputError(
-            "the cleaning agent is empty",
-            field="agent",
-            value=c.agent,
-            expected="the agent's name, e.g. sodium hydroxide",
-        )
-    if not c.reagent_lot.strip():
-        raise InputError(
-            "the reagent lot is empty",
-            field="reagent_lot",
-            value=c.reagent_lot,
-            expected="the lot number of the cleaning solution",
-        )
+    required("agent", c.agent, "the agent's name, e.g. sodium hydroxide")
+    required("reagent_lot", c.reagent_lot, "the lot number of the cleaning solution")
     if c.concentration_unit not in CONCENTRATION_UNITS or not c.concentration > 0:
         raise InputError(
             "the concentration must be positive",
@@ -117,13 +106,7 @@ def record_storage(
     note: str | None = None,
 ) -> Storage:
     work = begin(session, actor, serial, "storage", activity_at)
-    if not solution.strip():
-        raise InputError(
-            "the storage solution is empty",
-            field="solution",
-            value=solution,
-            expected="e.g. 20 % ethanol, or 0.1 M sodium hydroxide",
-        )
+    solution = required("solution", solution, "e.g. 20 % ethanol, or 0.1 M sodium hydroxide")
     return work.journal.create(
         Storage(
             module_id=work.module_id,

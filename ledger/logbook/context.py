@@ -9,10 +9,11 @@ from sqlalchemy import func
 from sqlmodel import Session, select
 
 from ledger.errors import InputError, RefusedError
+from ledger.logbook import latest
 from ledger.logbook.auth import RECORDERS, require_role
-from ledger.logbook.modules import get_module
+from ledger.logbook.modules import get_module, last_decision, put_on_hold
 from ledger.logbook.times import activity_time
-from ledger.rules.sequence import refusal
+from ledger.rules.sequence import Transition, refusal
 from ledger.store.audit import Journal
 from ledger.store.tables import (
     Cleaning,
@@ -66,11 +67,8 @@ def last_activity(session: Session, module_id: int) -> datetime | None:
     ).one()
     if ended is not None:
         times.append(ended)
-    from ledger.store.types import UTCDateTime
-
-    # func.max() loses the column type on SQLite, so attach UTC the way the column type does.
-    fix = UTCDateTime().process_result_value
-    return max((fix(t, session.get_bind().dialect) for t in times), default=None)  # type: ignore[type-var]
+    # max() keeps its argument's column type, so these come back as aware UTC datetimes.
+    return max(times, default=None)
 
 
 def begin(
@@ -104,3 +102,27 @@ def begin(
 
 def set_status(work: Work, status: str, reason: str) -> None:
     work.journal.change(work.module, {"status": status}, reason=reason, module_id=work.module_id)
+
+
+def apply(work: Work, step: Transition, source: tuple[str, int | None]) -> str | None:
+    """Carry out a status step of the rules: a hold (naming the record that caused it) or a
+    new status. Returns the step's note for the user."""
+    if step.hold:
+        put_on_hold(work.journal, work.module, step.hold, step.note or step.hold, source)
+    elif step.status != work.module.status:
+        set_status(work, step.status, step.note or "")
+    return step.note
+
+
+def phase_start(work: Work) -> datetime | None:
+    """Start of the module's current phase: its last cleaning, or the retest disposition."""
+    if work.module.status == "awaiting_retest":
+        return last_decision(work.session, work.module_id)
+    clean = latest.cleaning(work.session, work.module_id)
+    return clean.activity_at if clean is not None else None
+
+
+def integrity_passed_since(work: Work) -> bool:
+    since = phase_start(work) if work.module.status != "commissioning" else None
+    it = latest.integrity(work.session, work.module_id, after=since)
+    return it is not None and it.passed

@@ -11,9 +11,7 @@ from sqlmodel import Session
 from ledger import __version__
 from ledger.errors import InputError, RefusedError
 from ledger.logbook import latest
-from ledger.logbook.context import Work, begin, set_status
-from ledger.logbook.modules import put_on_hold
-from ledger.logbook.waterflux import phase_start
+from ledger.logbook.context import Work, apply, begin, phase_start
 from ledger.rules.sequence import after_integrity_test
 from ledger.science import integrity as sci
 from ledger.science import water
@@ -190,14 +188,4 @@ def _advance(work: Work, test: IntegrityTest) -> str | None:
     step = after_integrity_test(
         status, test.passed, has_baseline=baseline is not None, post_clean_passed=post_ok
     )
-    if step.hold:
-        put_on_hold(
-            work.journal,
-            work.module,
-            step.hold,
-            step.note or step.hold,
-            ("integrity_test", test.id),
-        )
-    elif step.status != status:
-        set_status(work, step.status, step.note or "")
-    return step.note
+    return apply(work, step, ("integrity_test", test.id))

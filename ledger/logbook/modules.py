@@ -10,6 +10,7 @@ from sqlmodel import Session, select
 
 from ledger.errors import InputError, RefusedError
 from ledger.logbook.auth import DECIDERS, RECORDERS, require_role
+from ledger.logbook.checks import required
 from ledger.rules.sequence import refusal
 from ledger.store.audit import Journal
 from ledger.store.tables import Hold, Module, ModuleType, UserAccount
@@ -97,13 +98,7 @@ def check_type(spec: TypeSpec) -> None:
             value=spec.preuse_band,
             expected="a fraction, e.g. 10 %",
         )
-    if not spec.code.strip():
-        raise InputError(
-            "the type code is empty",
-            field="code",
-            value=spec.code,
-            expected="a short code, e.g. HF-750-120",
-        )
+    required("code", spec.code, "a short code, e.g. HF-750-120")
 
 
 def add_type(session: Session, actor: UserAccount, spec: TypeSpec) -> ModuleType:
@@ -164,14 +159,7 @@ def add_module(
     note: str | None = None,
 ) -> Module:
     require_role(actor, RECORDERS, "register modules")
-    serial = serial.strip()
-    if not serial:
-        raise InputError(
-            "the serial is empty",
-            field="serial",
-            value=serial,
-            expected="the module's serial number",
-        )
+    serial = required("serial", serial, "the module's serial number")
     mtype = get_type(session, type_code)
     if session.exec(select(Module).where(Module.serial == serial)).first() is not None:
         raise InputError(
@@ -311,13 +299,7 @@ def retire(session: Session, actor: UserAccount, serial: str, reason: str) -> Mo
 
 
 def _need_reason(reason: str) -> None:
-    if not reason or not reason.strip():
-        raise InputError(
-            "a reason is required",
-            field="reason",
-            value=reason,
-            expected="a short reason for the record",
-        )
+    required("reason", reason, "a short reason for the record")
 
 
 def _allowed(module: Module, action: str) -> None:

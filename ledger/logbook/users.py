@@ -14,6 +14,7 @@ from ledger.logbook.auth import (
     hash_password,
     require_role,
 )
+from ledger.logbook.checks import required
 from ledger.store.audit import Journal
 from ledger.store.tables import ROLES, Setting, UserAccount
 
@@ -61,13 +62,7 @@ def add_user(
     require_role(actor, ADMINS, "add users")
     check_login(login)
     check_role(role)
-    if not full_name.strip():
-        raise InputError(
-            "the full name is empty",
-            field="name",
-            value=full_name,
-            expected="the person's printed name",
-        )
+    required("name", full_name, "the person's printed name")
     if find_user(session, login) is not None:
         raise InputError(
             f"user ID {login!r} exists (or existed): IDs are never reused",

@@ -9,6 +9,7 @@ from sqlmodel import Session
 from ledger.errors import InputError, RefusedError
 from ledger.logbook import latest
 from ledger.logbook.auth import DECIDERS, require_role
+from ledger.logbook.checks import required
 from ledger.logbook.context import begin, set_status
 from ledger.logbook.fitness import facts
 from ledger.rules.fitness import verdict
@@ -29,14 +30,8 @@ def start_use(
     """Start a cycle. Refused unless the verdict is FIT; a product other than the dedicated
     one needs an engineer's or QA's override with a reason."""
     work = begin(session, actor, serial, "use:start", activity_at)
-    for field, value in (("product", product), ("lot", lot)):
-        if not value.strip():
-            raise InputError(
-                f"the {field} is empty",
-                field=field,
-                value=value,
-                expected=f"the {field} processed in this use",
-            )
+    product = required("product", product, "the product processed in this use")
+    lot = required("lot", lot, "the batch or lot processed in this use")
     judged = verdict(facts(session, work.module, product, now=work.at))
     failing = [r for r in judged.reasons if r.outcome == "fail"]
     if [r.check for r in failing] == ["product"] and override_reason:

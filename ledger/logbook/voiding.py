@@ -8,6 +8,7 @@ from sqlmodel import Session
 
 from ledger.errors import InputError, RefusedError
 from ledger.logbook.auth import DECIDERS, require_role
+from ledger.logbook.checks import required
 from ledger.logbook.modules import get_module
 from ledger.rules.sequence import refusal
 from ledger.store.audit import Journal
@@ -57,10 +58,7 @@ def void_record(
             field="id",
             value=record_id,
         )
-    if not reason.strip():
-        raise InputError(
-            "a reason is required", field="reason", value=reason, expected="why the record is wrong"
-        )
+    required("reason", reason, "why the record is wrong")
     module = session.get(Module, record.module_id)  # type: ignore[attr-defined]
     assert module is not None
     get_module(session, module.serial, lock=True)

@@ -8,8 +8,7 @@ from datetime import datetime
 from ledger import __version__
 from ledger.errors import InputError, RefusedError
 from ledger.logbook import latest
-from ledger.logbook.context import Work, begin, set_status
-from ledger.logbook.modules import put_on_hold
+from ledger.logbook.context import Work, apply, begin, integrity_passed_since
 from ledger.rules.sequence import after_water_test
 from ledger.science import permeability as perm
 from ledger.science import water
@@ -211,22 +210,6 @@ def _verdict(work: Work, stage: str, nwp: float, recovery: float) -> str | None:
     return None
 
 
-def phase_start(work: Work) -> datetime | None:
-    """Start of the module's current phase: its last cleaning, or the retest disposition."""
-    from ledger.logbook.modules import last_decision
-
-    if work.module.status == "awaiting_retest":
-        return last_decision(work.session, work.module_id)
-    clean = latest.cleaning(work.session, work.module_id)
-    return clean.activity_at if clean is not None else None
-
-
-def integrity_passed_since(work: Work) -> bool:
-    since = phase_start(work) if work.module.status != "commissioning" else None
-    it = latest.integrity(work.session, work.module_id, after=since)
-    return it is not None and it.passed
-
-
 def _advance(work: Work, test: WaterFluxTest) -> str | None:
     lim = work.mtype
     step = after_water_test(
@@ -237,14 +220,4 @@ def _advance(work: Work, test: WaterFluxTest) -> str | None:
         damage_ratio=lim.damage_ratio,
         integrity_passed=integrity_passed_since(work),
     )
-    if step.hold:
-        put_on_hold(
-            work.journal,
-            work.module,
-            step.hold,
-            step.note or step.hold,
-            ("water_flux_test", test.id),
-        )
-    elif step.status != work.module.status:
-        set_status(work, step.status, step.note or "")
-    return step.note
+    return apply(work, step, ("water_flux_test", test.id))

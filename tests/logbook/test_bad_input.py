@@ -79,6 +79,11 @@ CASES: dict[str, tuple[Case, int, str]] = {
                             "--contact-time", "60 min", "--reagent-lot", "NX-1",
                             "--rinse-ph", "15"),
         2, "rinse pH 15.0 is out of range"),
+    "empty reagent lot": (
+        lambda w: w.as_user("op.kim", "care", "clean", "QMB-0142", "--agent", "NaOH",
+                            "--concentration", "0.5 M", "--temperature", "25 degC",
+                            "--contact-time", "60 min", "--reagent-lot", "  "),
+        2, "--reagent-lot '  ': the reagent lot is empty; expected the lot number"),
     "wrong password": (
         lambda w: w.cli("module", "add", "QMB-0150", "--type", "HF-750", "--user", "op.kim",
                         "--password-stdin", input="not-my-password\n"),

@@ -115,6 +115,16 @@ def test_audit_rows_cannot_be_changed_even_in_sql(world: World, statement: str) 
     assert before["audit_event"] > 0
 
 
+def test_audit_table_cannot_be_truncated_on_postgresql(world: World) -> None:
+    from sqlalchemy.exc import DBAPIError
+
+    engine = world.engine()
+    if engine.dialect.name != "postgresql":
+        pytest.skip("TRUNCATE is a PostgreSQL statement (SQLite has none)")
+    with pytest.raises(DBAPIError, match="append-only"), engine.begin() as conn:
+        conn.execute(text("TRUNCATE audit_event"))
+
+
 def test_timestamps_are_utc_aware_on_the_way_back(db_url: str) -> None:
     engine = _fresh(db_url)
     local = datetime(2026, 11, 30, 14, 5, 7, 123456, tzinfo=timezone(timedelta(hours=1)))

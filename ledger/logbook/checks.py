@@ -1,0 +1,17 @@
+"""Guards for text that a record must carry (names, lots, reasons)."""
+
+from __future__ import annotations
+
+from ledger.errors import InputError
+
+
+def required(field: str, value: str | None, what: str) -> str:
+    """``value`` without surrounding blanks; InputError naming ``field`` when it is empty.
+
+    ``what`` says what belongs there, e.g. "the lot number of the cleaning solution".
+    """
+    text = (value or "").strip()
+    if not text:
+        raise InputError(f"the {field.replace('_', ' ')} is empty", field=field, value=value,
+                         expected=what)  # fmt: skip
+    return text
