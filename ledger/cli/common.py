@@ -25,6 +25,8 @@ F = TypeVar("F", bound=Callable[..., Any])
 
 # Fields that are positional arguments on the command line: their messages name them already.
 POSITIONAL = frozenset({"serial", "login", "kind", "record_id", "code"})
+# Options whose raw value may hold a secret (a database URL with its password).
+UNECHOED = frozenset({"db"})
 
 
 def explain(err: LedgerError, options: dict[str, Any]) -> str:
@@ -34,7 +36,7 @@ def explain(err: LedgerError, options: dict[str, Any]) -> str:
     shown with that option's flag (our options are always spelled ``--field-name``).
     """
     text = str(err)
-    if not err.field or text.startswith("--") or err.field in POSITIONAL:
+    if not err.field or text.startswith("--") or err.field in POSITIONAL | UNECHOED:
         return text
     # Science parameters may carry an SI suffix ("test_pressure_pa"); try shorter names too.
     parts = err.field.split("_")

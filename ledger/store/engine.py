@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import os
+import re
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
@@ -27,6 +28,11 @@ def resolve_url(db: str | None = None) -> str:
         # psycopg 3 is our PostgreSQL driver; a plain postgresql:// URL means it too.
         return "postgresql+psycopg://" + given.split("://", 1)[1]
     return given
+
+
+def masked(url: str) -> str:
+    """The URL with any password replaced by ***, for messages."""
+    return re.sub(r"(://[^/:@]*:)[^@/]*@", r"\1***@", url)
 
 
 def sqlite_path(url: str) -> Path | None:
@@ -68,7 +74,17 @@ def connect(url: str, *, create: bool = False) -> Engine:
         )
     if path is not None and create:
         path.parent.mkdir(parents=True, exist_ok=True)
-    engine = create_engine(url)
+    from sqlalchemy.exc import ArgumentError, NoSuchModuleError
+
+    try:
+        engine = create_engine(url)
+    except (ArgumentError, NoSuchModuleError) as exc:
+        raise InputError(
+            f"{masked(url)!r} is not a database URL fluxledger can use ({exc})",
+            field="db",
+            value=masked(url),
+            expected="a file path, sqlite:///PATH or postgresql://USER@HOST/DB",
+        ) from None
     if engine.dialect.name == "sqlite":
         _sqlite_setup(engine)
     return engine

@@ -7,7 +7,7 @@ from typing import Any
 
 from sqlalchemy import Engine, inspect, text
 
-from ledger.errors import RefusedError
+from ledger.errors import InputError, RefusedError
 
 # The Alembic head this software expects; tests assert it equals the newest revision file.
 REVISION = "0001"
@@ -37,12 +37,28 @@ def alembic_config(engine: Engine, connection: Any = None) -> Any:
 
 
 def stored_revision(engine: Engine) -> str | None:
-    """The database's Alembic revision, or None when it has no fluxledger schema."""
-    with engine.connect() as conn:
-        if not inspect(conn).has_table("alembic_version"):
-            return None
-        row = conn.execute(text("SELECT version_num FROM alembic_version")).first()
-        return None if row is None else str(row[0])
+    """The database's Alembic revision, or None when it has no fluxledger schema.
+
+    Every command asks this first, so a database that cannot be opened (server down, wrong
+    credentials, a file that is not a database) is reported here as an InputError on --db.
+    """
+    from sqlalchemy.exc import DatabaseError, InterfaceError
+
+    try:
+        with engine.connect() as conn:
+            if not inspect(conn).has_table("alembic_version"):
+                return None
+            row = conn.execute(text("SELECT version_num FROM alembic_version")).first()
+            return None if row is None else str(row[0])
+    except (DatabaseError, InterfaceError) as exc:
+        where = engine.url.render_as_string(hide_password=True)
+        reason = str(exc.orig).strip().splitlines()[0] if exc.orig else type(exc).__name__
+        raise InputError(
+            f"cannot open the database {where}: {reason}",
+            field="db",
+            value=where,
+            expected="a reachable fluxledger database (an SQLite file or a PostgreSQL server)",
+        ) from None
 
 
 def require_current(engine: Engine) -> None:
