@@ -20,7 +20,7 @@ lint: $(STAMP)
 	$(BIN)/ruff format --check .
 
 typecheck: $(STAMP)
-	$(BIN)/mypy ledger/science ledger/rules
+	$(BIN)/mypy ledger
 
 test: lint typecheck
 	$(BIN)/python -m pytest -q

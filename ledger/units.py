@@ -77,7 +77,9 @@ def registry() -> pint.UnitRegistry:
 
     try:
         # pint's on-disk cache of its parsed definitions saves ~0.1 s on every command.
-        ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=":auto:")
+        ureg: pint.UnitRegistry = pint.UnitRegistry(
+            autoconvert_offset_to_baseunit=True, cache_folder=":auto:"
+        )
     except OSError:  # no writable cache folder: parse the definitions every time
         ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
     # The on-disk cache may already hold them; defining twice only logs a warning.

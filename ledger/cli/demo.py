@@ -15,7 +15,7 @@ import os
 import shlex
 import sys
 import tomllib
-from datetime import timedelta
+from datetime import datetime, timedelta
 from pathlib import Path
 
 import typer
@@ -126,12 +126,12 @@ def _fresh_database(out: Path) -> Path:
     return db
 
 
-def _expand(command: str, samples: Path, now: object) -> list[str]:
+def _expand(command: str, samples: Path, now: datetime) -> list[str]:
     import re
 
     def days_ago(m: re.Match[str]) -> str:
-        when = now - timedelta(days=float(m.group(1)))  # type: ignore[operator]
-        return str(when.isoformat(timespec="seconds"))
+        when = now - timedelta(days=float(m.group(1)))
+        return when.isoformat(timespec="seconds")
 
     text = re.sub(r"\{days_ago:([0-9.]+)\}", days_ago, command)
     return shlex.split(text.replace("{samples}", shlex.quote(_shown(samples))))

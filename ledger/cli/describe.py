@@ -157,6 +157,7 @@ def _summary(kind: str, rec: Any) -> tuple[str, Any, str]:
 def history_report(session: Any, serial: str) -> Report:
     from ledger.logbook import latest
     from ledger.logbook.history import module_history
+    from ledger.logbook.modules import row_id
     from ledger.store.tables import ModuleType
 
     module, entries = module_history(session, serial)
@@ -166,7 +167,8 @@ def history_report(session: Any, serial: str) -> Report:
     s.add("serial", module.serial)
     s.add("type", mtype.code)
     s.add("status", module.status)
-    s.add("cycles", f"{latest.cycles(session, module.id)} of {mtype.reuse_limit_cycles}")
+    cycles = latest.cycles(session, row_id(module.id))
+    s.add("cycles", f"{cycles} of {mtype.reuse_limit_cycles}")
     s.add("dedicated_product", module.dedicated_product, "dedicated to")
     s.add("manufacturer_lot", module.manufacturer_lot, "manufacturer lot")
     s.add("received_on", module.received_on.isoformat() if module.received_on else None, "received")

@@ -235,10 +235,10 @@ def module_list(
     """List modules with their type, status, product and cycles."""
     from ledger.cli.output import Report, Table
     from ledger.logbook import latest
-    from ledger.logbook.modules import list_modules
+    from ledger.logbook.modules import list_modules, row_id
 
     def gather(s: Any) -> Any:
-        return [(m, t, latest.cycles(s, m.id)) for m, t in list_modules(s, status)]
+        return [(m, t, latest.cycles(s, row_id(m.id))) for m, t in list_modules(s, status)]
 
     report = Report("module list")
     table = Table(

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 import typer
 
 from ledger.cli.common import JSON_OPTION, guarded
@@ -25,7 +27,7 @@ def add(
     """Add a user. With --password-stdin, line 1 is your password and line 2 the new one."""
     from ledger.logbook.users import add_user
 
-    def work(session, actor):  # type: ignore[no-untyped-def]
+    def work(session: Any, actor: Any) -> Any:
         new = read_secret(f"Password for {login}", from_stdin=password_stdin, confirm=True)
         return add_user(session, actor, login, name, role, new)
 
@@ -44,7 +46,7 @@ def passwd(
     """Change a password. An administrator's reset also unlocks a locked account."""
     from ledger.logbook.users import set_password
 
-    def work(session, actor):  # type: ignore[no-untyped-def]
+    def work(session: Any, actor: Any) -> Any:
         new = read_secret(f"New password for {login}", from_stdin=password_stdin, confirm=True)
         return set_password(session, actor, login, new)
 

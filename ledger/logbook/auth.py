@@ -29,7 +29,7 @@ def _hasher() -> object:
 def hash_password(password: str) -> str:
     """A salted argon2id hash (argon2-cffi defaults, RFC 9106 low-memory profile)."""
     check_password(password)
-    return _hasher().hash(password)  # type: ignore[attr-defined,no-any-return]
+    return _hasher().hash(password)  # type: ignore[attr-defined]
 
 
 def check_password(password: str) -> None:

@@ -52,9 +52,9 @@ def last_activity(session: Session, module_id: int) -> datetime | None:
     times: list[datetime] = []
     for cls in (WaterFluxTest, IntegrityTest, Cleaning, Storage, ModuleUse):
         t = session.exec(
-            select(func.max(cls.activity_at)).where(  # type: ignore[attr-defined]
+            select(func.max(cls.activity_at)).where(
                 cls.module_id == module_id,
-                cls.voided_at.is_(None),  # type: ignore[attr-defined]
+                cls.voided_at.is_(None),  # type: ignore[union-attr]
             )
         ).one()
         if t is not None:

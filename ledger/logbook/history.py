@@ -45,8 +45,8 @@ def module_history(session: Session, serial: str) -> tuple[Module, list[Entry]]:
         ("storage", Storage),
         ("use", ModuleUse),
     ):
-        for rec in session.exec(select(cls).where(cls.module_id == module.id)):  # type: ignore[attr-defined]
-            entries.append(Entry(rec.activity_at, kind, rec.id, rec))
+        for rec in session.exec(select(cls).where(cls.module_id == module.id)):
+            entries.append(Entry(rec.activity_at, kind, rec.id, rec))  # type: ignore[attr-defined]
     for h in session.exec(select(Hold).where(Hold.module_id == module.id)):
         entries.append(Entry(h.created_at, "hold", h.id or 0, h))
     # Same time: in the order they were written; a hold follows the test that caused it.

@@ -129,7 +129,7 @@ def get_type(session: Session, code: str) -> ModuleType:
 
 
 def list_types(session: Session) -> list[ModuleType]:
-    return list(session.exec(select(ModuleType).order_by(ModuleType.code)))  # type: ignore[arg-type]
+    return list(session.exec(select(ModuleType).order_by(ModuleType.code)))
 
 
 def get_module(session: Session, serial: str, *, lock: bool = False) -> Module:
@@ -170,7 +170,7 @@ def add_module(
         )
     module = Module(
         serial=serial,
-        type_id=mtype.id,
+        type_id=row_id(mtype.id),
         manufacturer_lot=manufacturer_lot,
         received_on=received_on,
         note=note,
@@ -183,7 +183,7 @@ def list_modules(session: Session, status: str | None = None) -> list[tuple[Modu
     statement = select(Module, ModuleType).where(Module.type_id == ModuleType.id)
     if status:
         statement = statement.where(Module.status == status)
-    return list(session.exec(statement.order_by(Module.serial)))  # type: ignore[arg-type]
+    return list(session.exec(statement.order_by(Module.serial)))
 
 
 def open_hold(session: Session, module: Module) -> Hold | None:
@@ -204,7 +204,7 @@ def put_on_hold(
     """Hold a module (inside the caller's transaction) and remember where it was."""
     hold = journal.create(
         Hold(
-            module_id=module.id,
+            module_id=row_id(module.id),
             cause=cause,
             reason=reason,
             source_entity=source[0] if source else None,
@@ -316,3 +316,10 @@ def last_decision(session: Session, module_id: int) -> Any:
         .order_by(Hold.id.desc())  # type: ignore[union-attr]
     ).first()
     return found.decided_at if found is not None else None
+
+
+def row_id(value: int | None) -> int:
+    """The primary key of a stored row (always set once the row is flushed)."""
+    if value is None:
+        raise RuntimeError("a row without a primary key reached the logbook")
+    return value

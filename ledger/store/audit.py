@@ -74,7 +74,7 @@ def event_hash(event: AuditEvent) -> str:
 def _module_of(record: Recorded) -> int | None:
     # Events name the module they concern, so `audit show --module` can filter on it.
     if entity_of(record) == "module":
-        return record.id  # type: ignore[attr-defined,no-any-return]
+        return record.id  # type: ignore[attr-defined]
     return getattr(record, "module_id", None)
 
 

@@ -13,7 +13,7 @@ from typing import Any, ClassVar
 from sqlalchemy import JSON, Index
 from sqlmodel import Field, SQLModel
 
-from ledger.store.types import UTCDateTime
+from ledger.store.types import UTCDateTime, utc_now
 
 ROLES = ("operator", "engineer", "qa", "admin")
 STAGES = ("baseline", "pre_use", "post_use", "post_clean")
@@ -34,11 +34,12 @@ class Recorded(SQLModel):
 
     # Table rows are never validated on construction; deferring pydantic's schema build
     # saves ~15 ms of start-up on every logbook command.
-    model_config = {"defer_build": True}  # type: ignore[assignment]
+    model_config = {"defer_build": True}
 
+    # Journal.create sets who and when; the defaults only make a bare instance well-formed.
     record_hash: str = Field(default="", max_length=64)
-    created_at: datetime = Field(sa_type=UTCDateTime)
-    created_by: str = Field(max_length=64)
+    created_at: datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
+    created_by: str = Field(default="", max_length=64)
 
     # Columns left out of the content hash and the audit values.
     hash_excluded: ClassVar[frozenset[str]] = frozenset({"record_hash"})
