@@ -213,3 +213,78 @@ def test_passwords_never_appear_in_the_audit_trail(tested: World) -> None:
     assert "engineer-pass-1" not in text_all
     created = [json.loads(e["new_value"]) for e in events if e["action"] == "create"]
     assert all("password_hash" not in c for c in created)
+
+
+def _other(value: object, column: object) -> object:
+    """A different value of the column's type (for a column that is None: some value)."""
+    from datetime import UTC, date, datetime, timedelta
+
+    from sqlalchemy import JSON, Boolean, Date, DateTime, Float, Integer
+
+    kind = getattr(column.type, "impl", column.type)  # type: ignore[attr-defined]  # unwrap UTCDateTime
+    if isinstance(kind, Boolean):
+        return not value
+    if isinstance(kind, Integer):
+        return (value or 0) + 1  # type: ignore[operator]
+    if isinstance(kind, Float):
+        return (value or 0.0) * 1.5 + 1.0  # type: ignore[operator]
+    if isinstance(kind, DateTime):
+        base = value if isinstance(value, datetime) else datetime(2026, 1, 1, tzinfo=UTC)
+        return base + timedelta(seconds=1)
+    if isinstance(kind, Date):
+        return (value or date(2026, 1, 1)) + timedelta(days=1)  # type: ignore[operator]
+    if isinstance(kind, JSON):
+        return [*(value or []), {"forged": 1.0}]  # type: ignore[misc]
+    text = str(value or "")  # same length: VARCHAR(64) columns stay within their limit
+    return text[:-1] + ("~" if text[-1:] != "~" else "^") if text else "~"
+
+
+def test_a_change_to_any_column_of_any_record_is_found(tested: World) -> None:
+    """Every stored column is covered by its record's hash: change any one of them in SQL and
+    verify names that row (each change is rolled back before the next)."""
+    from sqlalchemy import update
+    from sqlalchemy.exc import DataError, IntegrityError
+    from sqlmodel import Session, select
+
+    from ledger.store.tables import RECORDS
+
+    tested.ok(tested.as_user("op.kim", "care", "store", "QMB-0142", "--solution", "20 % ethanol"))
+    tested.ok(tested.as_user("sysadm", "user", "lockout", "--max-failures", "4", "--reason", "t"))
+    tested.ok(tested.as_user("op.kim", "module", "hold", "QMB-0142", "--reason", "inspect"))
+    tested.ok(tested.as_user("eng.ray", "module", "release", "QMB-0142", "--decision", "return",
+                             "--reason", "fine"))  # fmt: skip
+    engine = tested.engine()
+    checked, refused = 0, []
+    with engine.connect() as conn:
+        for entity, cls in RECORDS.items():
+            table = cls.__table__  # type: ignore[attr-defined]
+            row = conn.execute(select(table)).first()
+            conn.rollback()  # end the read's transaction; each change below has its own
+            if row is None:
+                continue
+            pk = next(iter(table.primary_key.columns))
+            key = row._mapping[pk.name]
+            for column in table.columns:
+                if column.primary_key:
+                    continue
+                outer = conn.begin()
+                try:
+                    conn.execute(
+                        update(table).where(pk == key).values(
+                            {column.name: _other(row._mapping[column.name], column)})
+                    )  # fmt: skip
+                except (IntegrityError, DataError):
+                    outer.rollback()  # e.g. a foreign key to a row that does not exist
+                    refused.append(column)
+                    continue
+                with Session(bind=conn) as session:
+                    problems = verify(session).problems
+                outer.rollback()
+                named = [p for p in problems if p.entity == entity and p.key == str(key)]
+                assert named, f"changing {entity}.{column.name} went unnoticed"
+                checked += 1
+    # Every column was changed and found, but for foreign keys that the database itself
+    # refused to point at a row that does not exist.
+    assert all(c.foreign_keys for c in refused), [str(c) for c in refused if not c.foreign_keys]
+    total = sum(1 for cls in RECORDS.values() for c in cls.__table__.columns if not c.primary_key)  # type: ignore[attr-defined]
+    assert checked + len(refused) == total
