@@ -8,7 +8,7 @@ from datetime import datetime
 from sqlmodel import Session
 
 from ledger.errors import InputError
-from ledger.logbook.checks import required
+from ledger.logbook.checks import positive, required
 from ledger.logbook.context import begin, set_status
 from ledger.science.water import T_MAX, T_MIN
 from ledger.store.tables import Cleaning, Storage, UserAccount
@@ -33,13 +33,9 @@ class CleaningInput:
 def _check(c: CleaningInput) -> None:
     required("agent", c.agent, "the agent's name, e.g. sodium hydroxide")
     required("reagent_lot", c.reagent_lot, "the lot number of the cleaning solution")
-    if c.concentration_unit not in CONCENTRATION_UNITS or not c.concentration > 0:
-        raise InputError(
-            "the concentration must be positive",
-            field="concentration",
-            value=c.concentration,
-            expected="e.g. 0.5 mol/L, 10 g/L or 0.1 %",
-        )
+    if c.concentration_unit not in CONCENTRATION_UNITS:
+        raise ValueError(f"unknown concentration unit {c.concentration_unit!r}")  # a bug
+    positive("concentration", c.concentration, "e.g. 0.5 mol/L, 10 g/L or 0.1 %")
     if not T_MIN <= c.temperature_k <= T_MAX:
         raise InputError(
             f"cleaning temperature {c.temperature_k - 273.15:.1f} °C is out of range",
@@ -47,13 +43,7 @@ def _check(c: CleaningInput) -> None:
             value=c.temperature_k,
             expected="an aqueous cleaning between 0 and 100 °C",
         )
-    if not c.contact_time_s > 0:
-        raise InputError(
-            "the contact time must be positive",
-            field="contact_time",
-            value=c.contact_time_s,
-            expected="a time above zero, e.g. 60 min",
-        )
+    positive("contact_time", c.contact_time_s, "a time above zero, e.g. 60 min")
     if c.rinse_ph is not None and not 0 <= c.rinse_ph <= 14:
         raise InputError(
             f"rinse pH {c.rinse_ph} is out of range",

@@ -11,6 +11,7 @@ from sqlmodel import Session
 from ledger import __version__
 from ledger.errors import InputError, RefusedError
 from ledger.logbook import latest
+from ledger.logbook.checks import positive
 from ledger.logbook.context import Work, apply, begin, phase_start
 from ledger.rules.sequence import after_integrity_test
 from ledger.science import integrity as sci
@@ -67,20 +68,8 @@ def _decay(d: DecayInput) -> tuple[float, float | None, float, float, list[list[
             value=None,
             expected="--readings FILE, or --start, --end and --hold-time",
         )
-    if not d.hold_time_s > 0:
-        raise InputError(
-            "the hold time must be positive",
-            field="hold_time",
-            value=d.hold_time_s,
-            expected="a time above zero",
-        )
-    if not d.start_pa > 0:
-        raise InputError(
-            "the start pressure must be positive",
-            field="start",
-            value=d.start_pa,
-            expected="a gauge pressure above zero",
-        )
+    positive("hold_time", d.hold_time_s, "a time above zero")
+    positive("start", d.start_pa, "a gauge pressure above zero", label="start pressure")
     rate = (d.start_pa - d.end_pa) / d.hold_time_s
     start = d.test_pressure_pa if d.test_pressure_pa is not None else d.start_pa
     return rate, None, start, d.hold_time_s, None
@@ -148,13 +137,7 @@ def record_bubble_point(
             field="bubble_point",
             value=bubble_point_pa,
         )
-    if not bubble_point_pa > 0:
-        raise InputError(
-            "the bubble point must be positive",
-            field="bubble_point",
-            value=bubble_point_pa,
-            expected="a gauge pressure above zero",
-        )
+    positive("bubble_point", bubble_point_pa, "a gauge pressure above zero")
     if temperature_k is not None:
         water.check_temperature(temperature_k)
     test = IntegrityTest(

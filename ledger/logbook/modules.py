@@ -10,7 +10,7 @@ from sqlmodel import Session, select
 
 from ledger.errors import InputError, RefusedError
 from ledger.logbook.auth import DECIDERS, RECORDERS, require_role
-from ledger.logbook.checks import required
+from ledger.logbook.checks import positive, required
 from ledger.rules.sequence import refusal
 from ledger.store.audit import Journal
 from ledger.store.tables import Hold, Module, ModuleType, UserAccount
@@ -40,16 +40,6 @@ class TypeSpec:
     preuse_band: float = 0.10
 
 
-def _positive(field: str, value: float, what: str) -> None:
-    if not value > 0:
-        raise InputError(
-            f"{field} must be positive",
-            field=field,
-            value=value,
-            expected=f"{what} greater than zero",
-        )
-
-
 def check_type(spec: TypeSpec) -> None:
     for field in (
         "lumen_diameter_m",
@@ -59,7 +49,7 @@ def check_type(spec: TypeSpec) -> None:
         "integrity_test_pressure_pa",
         "storage_limit_s",
     ):
-        _positive(field, getattr(spec, field), "a value")
+        positive(field, getattr(spec, field), "a value greater than zero")
     if spec.fiber_count < 1:
         raise InputError(
             "fiber count must be at least 1",
@@ -75,7 +65,12 @@ def check_type(spec: TypeSpec) -> None:
             expected="a whole number of 1 or more",
         )
     if spec.bubble_point_min_pa is not None:
-        _positive("bubble_point_min_pa", spec.bubble_point_min_pa, "a pressure")
+        positive(
+            "bubble_point_min_pa",
+            spec.bubble_point_min_pa,
+            "a pressure above zero",
+            label="bubble-point minimum",
+        )
     if not 0 < spec.recovery_min <= spec.recovery_alert <= 1.5:
         raise InputError(
             f"recovery minimum {spec.recovery_min:.0%} and alert {spec.recovery_alert:.0%} "

@@ -8,6 +8,7 @@ from datetime import datetime
 from ledger import __version__
 from ledger.errors import InputError, RefusedError
 from ledger.logbook import latest
+from ledger.logbook.checks import positive
 from ledger.logbook.context import Work, apply, begin, integrity_passed_since
 from ledger.rules.sequence import after_water_test
 from ledger.science import permeability as perm
@@ -51,15 +52,9 @@ class WaterPoint:
                     expected="one of the two",
                     index=index,
                 )
-            if not self.flow_m3_s > 0:
-                raise InputError(
-                    "the permeate flow must be positive",
-                    field="flow",
-                    value=self.flow_m3_s,
-                    expected="a flow above zero",
-                    index=index,
-                )
-            return self.flow_m3_s
+            return positive(
+                "flow", self.flow_m3_s, "a flow above zero", label="permeate flow", index=index
+            )
         if self.volume_m3 is None or self.time_s is None:
             raise InputError(
                 "each point needs a permeate flow, or a volume and a time",
@@ -68,23 +63,13 @@ class WaterPoint:
                 expected="--flow, or --volume and --time",
                 index=index,
             )
-        if not self.volume_m3 > 0:
-            raise InputError(
-                "the collected volume must be positive",
-                field="volume",
-                value=self.volume_m3,
-                expected="a volume above zero",
-                index=index,
-            )
-        if not self.time_s > 0:
-            raise InputError(
-                "the collection time must be positive",
-                field="time",
-                value=self.time_s,
-                expected="a time above zero",
-                index=index,
-            )
-        return self.volume_m3 / self.time_s
+        volume = positive(
+            "volume", self.volume_m3, "a volume above zero", label="collected volume", index=index
+        )
+        time = positive(
+            "time", self.time_s, "a time above zero", label="collection time", index=index
+        )
+        return volume / time
 
 
 def _stage(stage: str) -> str:
