@@ -32,6 +32,15 @@ TYPE_OPTIONS = [
 ]  # fmt: skip
 
 
+PROCEDURE = [
+    "care", "procedure", "add", "CP-NAOH-05", "--title", "0.5 M NaOH, 60 min, 25 degC",
+    "--agent", "sodium hydroxide", "--concentration-min", "0.45 mol/L",
+    "--concentration-max", "0.55 mol/L", "--temperature-min", "20 degC",
+    "--temperature-max", "30 degC", "--contact-time-min", "60 min", "--rinse-ph-min", "5",
+    "--rinse-ph-max", "8", "--rinse-conductivity-max", "2 uS/cm",
+]  # fmt: skip
+
+
 @dataclass
 class Result:
     code: int

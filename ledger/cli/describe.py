@@ -249,3 +249,31 @@ def finish(command: str, record: Any, line: str, note: str | None, as_json: bool
     typer.echo(line)
     if note:
         typer.echo(f"status: {note}")
+
+
+def _concentration_text(value: float, unit: str) -> str:
+    if unit == "mol/m**3":
+        return human(Q(value, "molarity"))
+    if unit == "kg/m**3":
+        return human(Q(value, "concentration"))
+    return human(Q(value, "fraction"))
+
+
+def procedure_row(p: Any) -> list[Any]:
+    """One cleaning procedure as a table row: code, agent and its ranges."""
+    rinse = []
+    if p.rinse_ph_min is not None or p.rinse_ph_max is not None:
+        rinse.append(f"pH {p.rinse_ph_min if p.rinse_ph_min is not None else 0:g}–"
+                     f"{p.rinse_ph_max if p.rinse_ph_max is not None else 14:g}")  # fmt: skip
+    if p.rinse_conductivity_max_s_m is not None:
+        rinse.append(f"≤ {human(Q(p.rinse_conductivity_max_s_m, 'conductivity'))}")
+    return [
+        p.code,
+        p.agent,
+        f"{_concentration_text(p.concentration_min, p.concentration_unit)} – "
+        f"{_concentration_text(p.concentration_max, p.concentration_unit)}",
+        f"{human(Q(p.temperature_min_k, 'temperature'))} – "
+        f"{human(Q(p.temperature_max_k, 'temperature'))}",
+        Q(p.contact_time_min_s, "time"),
+        ", ".join(rinse) or "—",
+    ]

@@ -257,17 +257,17 @@ def integrity(
     finish("test integrity", test, integrity_line(test), status, as_json)
 
 
-def _concentration(text: str) -> tuple[float, str]:
+def _concentration(text: str, flag: str = "--concentration") -> tuple[float, str]:
     from ledger import units
 
     for kind, unit in (("molarity", "mol/m**3"), ("concentration", "kg/m**3"), ("fraction", "")):
         try:
-            return units.parse(text, kind, field="--concentration", bare_ratio=False), unit
+            return units.parse(text, kind, field=flag, bare_ratio=False), unit
         except InputError:
             continue
     raise InputError(
-        f"--concentration: {text!r} is not a concentration",
-        field="concentration",
+        f"{flag}: {text!r} is not a concentration",
+        field=flag.lstrip("-").replace("-", "_"),
         value=text,
         expected="a molarity (0.5 mol/L, 500 mM), a mass concentration "
         "(20 g/L) or a percentage (0.5 %)",
@@ -286,6 +286,12 @@ def clean(
     rinse_ph: float | None = typer.Option(None, "--rinse-ph", help="Final rinse pH."),
     rinse_conductivity: str | None = quantity_option(
         None, "--rinse-conductivity", help="Final rinse conductivity, '1.3 uS/cm'."
+    ),
+    procedure: str | None = typer.Option(
+        None,
+        "--procedure",
+        help="Code of the validated cleaning procedure to check against; a cleaning outside "
+        "its ranges holds the module.",
     ),
     activity_time: str | None = ACTIVITY_TIME,
     note: str | None = NOTE,
@@ -317,9 +323,17 @@ def clean(
         db,
         user,
         password_stdin,
-        lambda s, a: record_cleaning(s, a, serial, c, activity_at=at, note=note),
+        lambda s, a: record_cleaning(
+            s, a, serial, c, procedure=procedure, activity_at=at, note=note
+        ),
     )
     line = f"cleaning {record.id} recorded for {serial}" + (" (late entry)" if record.late else "")
+    if record.deviations is not None:
+        line += (
+            f"; procedure {procedure}: " + "; ".join(record.deviations)
+            if record.deviations
+            else f"; follows procedure {procedure}"
+        )
     finish("care clean", record, f"{line}\n{CAUSTIC}", status, as_json)
 
 
@@ -418,3 +432,84 @@ def void(
         db, user, password_stdin, lambda s, a: void_record(s, a, kind, record_id, reason)
     )
     finish("void", record, f"{kind} {record_id} is void: {reason}", None, as_json)
+
+
+procedure_app = typer.Typer(
+    help="Validated cleaning procedures: the ranges each cleaning is checked against.",
+    no_args_is_help=True,
+)
+care_app.add_typer(procedure_app, name="procedure")
+
+
+@procedure_app.command("add")
+@guarded
+def procedure_add(
+    code: str = typer.Argument(..., help="The procedure's code, e.g. CP-NAOH-05."),
+    title: str = typer.Option(..., "--title", help="Its title in the site's SOP."),
+    agent: str = typer.Option(..., "--agent", help="Cleaning agent, e.g. 'sodium hydroxide'."),
+    concentration_min: str = quantity_option(..., "--concentration-min", help="'0.4 mol/L'."),
+    concentration_max: str = quantity_option(..., "--concentration-max", help="'0.6 mol/L'."),
+    temperature_min: str = quantity_option(..., "--temperature-min", help="'20 degC'."),
+    temperature_max: str = quantity_option(..., "--temperature-max", help="'30 degC'."),
+    contact_time_min: str = quantity_option(..., "--contact-time-min", help="'60 min'."),
+    rinse_ph_min: float | None = typer.Option(None, "--rinse-ph-min", help="Rinse endpoint."),
+    rinse_ph_max: float | None = typer.Option(None, "--rinse-ph-max", help="Rinse endpoint."),
+    rinse_conductivity_max: str | None = quantity_option(
+        None, "--rinse-conductivity-max", help="Rinse endpoint, '2 uS/cm'."
+    ),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Define a cleaning procedure (engineer or QA). Its ranges are the site's validated ones."""
+    from ledger import units
+    from ledger.logbook.procedures import ProcedureSpec, add_procedure
+
+    low, unit = _concentration(concentration_min, "--concentration-min")
+    high, unit_high = _concentration(concentration_max, "--concentration-max")
+    if unit != unit_high:
+        raise InputError(
+            "--concentration-min and --concentration-max are different kinds of concentration",
+            field="concentration_max",
+            value=concentration_max,
+            expected=f"the same kind as {concentration_min!r}",
+        )
+
+    def q(text: str | None, kind: str, flag: str) -> float | None:
+        return None if text is None else units.parse(text, kind, field=flag)
+
+    spec = ProcedureSpec(
+        code=code, title=title, agent=agent, concentration_min=low, concentration_max=high,
+        concentration_unit=unit,
+        temperature_min_k=units.parse(temperature_min, "temperature", field="--temperature-min"),
+        temperature_max_k=units.parse(temperature_max, "temperature", field="--temperature-max"),
+        contact_time_min_s=units.parse(contact_time_min, "time", field="--contact-time-min"),
+        rinse_ph_min=rinse_ph_min, rinse_ph_max=rinse_ph_max,
+        rinse_conductivity_max_s_m=q(rinse_conductivity_max, "conductivity",
+                                     "--rinse-conductivity-max"),
+    )  # fmt: skip
+    created = write(db, user, password_stdin, lambda s, a: add_procedure(s, a, spec))
+    finish("care procedure add", created, f"added cleaning procedure {created.code}", None,
+           as_json)  # fmt: skip
+
+
+@procedure_app.command("list")
+@guarded
+def procedure_list(db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> None:
+    """List cleaning procedures and their ranges."""
+    from ledger.cli.describe import CAUSTIC_NOTE, SITE_NOTE, procedure_row
+    from ledger.cli.output import Report, Table
+    from ledger.cli.session import read
+    from ledger.logbook.procedures import list_procedures
+
+    report = Report("care procedure list")
+    table = Table("Procedures", [("code", "code"), ("agent", "agent"),
+                                 ("concentration", "concentration"),
+                                 ("temperature", "temperature"),
+                                 ("contact_time_min", "contact ≥"),
+                                 ("rinse", "final rinse")])  # fmt: skip
+    table.rows = [procedure_row(p) for p in read(db, list_procedures)]
+    report.tables.append(table)
+    report.notes += [SITE_NOTE, CAUSTIC_NOTE]
+    report.print(as_json)

@@ -9,7 +9,10 @@ from sqlmodel import Session
 
 from ledger.errors import InputError
 from ledger.logbook.checks import positive, required
-from ledger.logbook.context import begin, set_status
+from ledger.logbook.context import apply, begin
+from ledger.logbook.procedures import as_rule, get_procedure
+from ledger.rules.cleaning import Done, deviations
+from ledger.rules.sequence import after_cleaning
 from ledger.science.water import T_MAX, T_MIN
 from ledger.store.tables import Cleaning, Storage, UserAccount
 
@@ -66,24 +69,35 @@ def record_cleaning(
     serial: str,
     c: CleaningInput,
     *,
+    procedure: str | None = None,
     activity_at: datetime | None = None,
     note: str | None = None,
 ) -> tuple[Cleaning, str | None]:
+    """Record a cleaning; with ``procedure`` (a code), check it against that procedure's ranges:
+    a cleaning outside them holds the module until a signed disposition."""
     work = begin(session, actor, serial, "cleaning", activity_at)
     _check(c)
+    found: list[str] | None = None
+    proc_id = None
+    if procedure is not None:
+        proc = get_procedure(session, procedure)
+        proc_id = proc.id
+        done = Done(c.agent, c.concentration, c.concentration_unit, c.temperature_k,
+                    c.contact_time_s, c.rinse_ph, c.rinse_conductivity_s_m)  # fmt: skip
+        found = deviations(done, as_rule(proc))
     cleaning = work.journal.create(
         Cleaning(
             module_id=work.module_id,
             activity_at=work.at,
             late=work.late,
             note=note,
+            procedure_id=proc_id,
+            deviations=found,
             **c.__dict__,
         )
     )
-    if work.module.status in ("available", "awaiting_cleaning", "cleaned"):
-        set_status(work, "cleaned", "cleaned; the post-clean water-flux test is next")
-        return cleaning, "cleaned: record the post-clean water-flux test next"
-    return cleaning, None
+    step = after_cleaning(work.module.status, found)
+    return cleaning, apply(work, step, ("cleaning", cleaning.id))
 
 
 def record_storage(

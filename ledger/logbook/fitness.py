@@ -8,8 +8,16 @@ from sqlmodel import Session
 
 from ledger.logbook import latest
 from ledger.logbook.modules import get_module, open_hold
-from ledger.rules.fitness import Facts, IntegrityResult, Limits, Verdict, WaterResult, verdict
-from ledger.store.tables import Module, ModuleType, WaterFluxTest
+from ledger.rules.fitness import (
+    CleaningResult,
+    Facts,
+    IntegrityResult,
+    Limits,
+    Verdict,
+    WaterResult,
+    verdict,
+)
+from ledger.store.tables import Cleaning, CleaningProcedure, Module, ModuleType, WaterFluxTest
 from ledger.store.types import utc_now
 
 
@@ -17,6 +25,14 @@ def _water(t: WaterFluxTest | None) -> WaterResult | None:
     if t is None:
         return None
     return WaterResult(t.id or 0, t.activity_at, t.stage, t.nwp_m_s_pa, t.recovery)
+
+
+def _cleaning(session: Session, c: Cleaning | None) -> CleaningResult | None:
+    if c is None:
+        return None
+    proc = session.get(CleaningProcedure, c.procedure_id) if c.procedure_id else None
+    found = tuple(c.deviations) if c.deviations is not None else None
+    return CleaningResult(c.id or 0, c.activity_at, proc.code if proc else None, found)
 
 
 def facts(
@@ -51,6 +67,7 @@ def facts(
         post_clean=_water(latest.water(session, mid, "post_clean")),
         pre_use=_water(latest.water(session, mid, "pre_use")),
         latest_water=_water(latest.water(session, mid)),
+        cleaning=_cleaning(session, clean),
         integrity=IntegrityResult(it.id or 0, it.activity_at, it.passed, it.kind) if it else None,
         storage_start=store.activity_at if store is not None and in_storage else None,
         storage_solution=store.solution if store is not None and in_storage else None,

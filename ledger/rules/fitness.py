@@ -51,6 +51,16 @@ class IntegrityResult:
 
 
 @dataclass(frozen=True)
+class CleaningResult:
+    """The latest cleaning: its procedure (None: none named) and its departures from it."""
+
+    cleaning_id: int
+    at: datetime
+    procedure: str | None
+    deviations: tuple[str, ...] | None  # None: not checked; (): conforms
+
+
+@dataclass(frozen=True)
 class Facts:
     """What the verdict needs to know about one module, gathered by the logbook."""
 
@@ -65,6 +75,7 @@ class Facts:
     pre_use: WaterResult | None = None  # latest pre-use test
     latest_water: WaterResult | None = None  # latest test of any stage
     integrity: IntegrityResult | None = None  # latest integrity test
+    cleaning: CleaningResult | None = None  # latest cleaning
     storage_start: datetime | None = None  # latest storage start, if still in storage
     storage_solution: str | None = None
     hold_reason: str | None = None
@@ -193,6 +204,26 @@ def check_integrity(f: Facts) -> Reason:
     return Reason("integrity", "ok", f"last integrity test ({kind}, {when}) passed")
 
 
+def check_cleaning(f: Facts) -> Reason:
+    c = f.cleaning
+    if c is None:
+        return Reason("cleaning", "info", "no cleaning recorded")
+    if f.last_use_at is not None and c.at < f.last_use_at:
+        return Reason("cleaning", "fail", "no cleaning since the last use")
+    if c.deviations is None:
+        return Reason(
+            "cleaning", "info", f"cleaning {c.cleaning_id} was not checked against a procedure"
+        )
+    if c.deviations:
+        return Reason(
+            "cleaning",
+            "fail",
+            f"cleaning {c.cleaning_id} departed from procedure "
+            f"{c.procedure}: " + "; ".join(c.deviations),
+        )
+    return Reason("cleaning", "ok", f"cleaning {c.cleaning_id} followed procedure {c.procedure}")
+
+
 def check_storage(f: Facts) -> Reason:
     if f.storage_start is None:
         return Reason("storage", "info", "not in storage")
@@ -243,6 +274,7 @@ CHECKS = (
     check_recovery,
     check_damage,
     check_integrity,
+    check_cleaning,
     check_storage,
     check_pre_use,
     check_product,

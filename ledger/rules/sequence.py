@@ -134,6 +134,20 @@ def after_water_test(
     return Transition("available", note="post-clean tests passed: available")
 
 
+def after_cleaning(status: str, deviations: list[str] | None) -> Transition:
+    """Status after a cleaning. A cleaning that departs from its validated procedure holds the
+    module until a signed disposition; ``deviations`` None means no procedure was named."""
+    if deviations:
+        return Transition(
+            "on_hold",
+            hold="cleaning",
+            note="cleaning outside its procedure: " + "; ".join(deviations),
+        )
+    if status in ("available", "awaiting_cleaning", "cleaned"):
+        return Transition("cleaned", note="cleaned: record the post-clean water-flux test next")
+    return Transition(status)
+
+
 def after_integrity_test(
     status: str,
     passed: bool,

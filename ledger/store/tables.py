@@ -184,6 +184,27 @@ class IntegrityTest(Activity, table=True):
     method_version: str
 
 
+class CleaningProcedure(Recorded, table=True):
+    """A validated cleaning procedure: the ranges a cleaning must keep (DESIGN §6)."""
+
+    __tablename__ = "cleaning_procedure"
+    __table_args__ = {"sqlite_autoincrement": True}
+
+    id: int | None = Field(default=None, primary_key=True)
+    code: str = Field(max_length=64, unique=True)
+    title: str
+    agent: str
+    concentration_min: float  # SI value in concentration_unit
+    concentration_max: float
+    concentration_unit: str = Field(max_length=16)  # mol/m**3, kg/m**3 or "" (a fraction)
+    temperature_min_k: float
+    temperature_max_k: float
+    contact_time_min_s: float
+    rinse_ph_min: float | None = None
+    rinse_ph_max: float | None = None
+    rinse_conductivity_max_s_m: float | None = None
+
+
 class Cleaning(Activity, table=True):
     __table_args__ = (
         Index("ix_cleaning_module_time", "module_id", "activity_at"),
@@ -199,6 +220,9 @@ class Cleaning(Activity, table=True):
     reagent_lot: str
     rinse_ph: float | None = None
     rinse_conductivity_s_m: float | None = None
+    procedure_id: int | None = Field(default=None, foreign_key="cleaning_procedure.id")
+    # None: not checked against a procedure; []: conforms; else each departure in words.
+    deviations: list[str] | None = Field(default=None, sa_type=JSON)
 
 
 class Storage(Activity, table=True):
@@ -282,6 +306,7 @@ RECORDS: dict[str, type[Recorded]] = {
     "user": UserAccount,
     "setting": Setting,
     "module_type": ModuleType,
+    "cleaning_procedure": CleaningProcedure,
     "module": Module,
     "water_flux_test": WaterFluxTest,
     "integrity_test": IntegrityTest,

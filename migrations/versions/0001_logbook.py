@@ -1,4 +1,5 @@
-"""Module logbook: users, module types, modules, tests, cleaning, storage, uses, holds, audit.
+"""Module logbook: users, module types, modules, tests, cleaning (and its procedures), storage,
+uses, holds, audit.
 
 The audit trail is append-only: triggers refuse UPDATE and DELETE on audit_event (and
 TRUNCATE on PostgreSQL). audit_head starts at the genesis hash.
@@ -132,6 +133,28 @@ def upgrade() -> None:
         batch_op.create_index(batch_op.f("ix_module_type_id"), ["type_id"], unique=False)
 
     op.create_table(
+        "cleaning_procedure",
+        sa.Column("record_hash", sa.String(length=64), nullable=False),
+        sa.Column("created_at", sa.DateTime(timezone=True), nullable=False),
+        sa.Column("created_by", sa.String(length=64), nullable=False),
+        sa.Column("id", sa.Integer(), nullable=False),
+        sa.Column("code", sa.String(length=64), nullable=False),
+        sa.Column("title", sa.String(), nullable=False),
+        sa.Column("agent", sa.String(), nullable=False),
+        sa.Column("concentration_min", sa.Float(), nullable=False),
+        sa.Column("concentration_max", sa.Float(), nullable=False),
+        sa.Column("concentration_unit", sa.String(length=16), nullable=False),
+        sa.Column("temperature_min_k", sa.Float(), nullable=False),
+        sa.Column("temperature_max_k", sa.Float(), nullable=False),
+        sa.Column("contact_time_min_s", sa.Float(), nullable=False),
+        sa.Column("rinse_ph_min", sa.Float(), nullable=True),
+        sa.Column("rinse_ph_max", sa.Float(), nullable=True),
+        sa.Column("rinse_conductivity_max_s_m", sa.Float(), nullable=True),
+        sa.PrimaryKeyConstraint("id"),
+        sa.UniqueConstraint("code"),
+        sqlite_autoincrement=True,
+    )
+    op.create_table(
         "cleaning",
         sa.Column("record_hash", sa.String(length=64), nullable=False),
         sa.Column("created_at", sa.DateTime(timezone=True), nullable=False),
@@ -152,6 +175,12 @@ def upgrade() -> None:
         sa.Column("reagent_lot", sa.String(), nullable=False),
         sa.Column("rinse_ph", sa.Float(), nullable=True),
         sa.Column("rinse_conductivity_s_m", sa.Float(), nullable=True),
+        sa.Column("procedure_id", sa.Integer(), nullable=True),
+        sa.Column("deviations", sa.JSON(), nullable=True),
+        sa.ForeignKeyConstraint(
+            ["procedure_id"],
+            ["cleaning_procedure.id"],
+        ),
         sa.ForeignKeyConstraint(
             ["module_id"],
             ["module.id"],
@@ -391,6 +420,7 @@ def downgrade() -> None:
         batch_op.drop_index("ix_cleaning_module_time")
 
     op.drop_table("cleaning")
+    op.drop_table("cleaning_procedure")
     with op.batch_alter_table("module", schema=None) as batch_op:
         batch_op.drop_index(batch_op.f("ix_module_type_id"))
 

@@ -17,6 +17,7 @@ from hypothesis import strategies as st
 from ledger.rules.fitness import (
     FIT,
     NOT_FIT,
+    CleaningResult,
     Facts,
     IntegrityResult,
     Limits,
@@ -35,6 +36,7 @@ CHECK_ORDER = [
     "recovery",
     "damage",
     "integrity",
+    "cleaning",
     "storage",
     "pre-use",
     "product",
@@ -74,6 +76,7 @@ LAST_USE = NOW - 6 * DAY
 POST_CLEAN = water("post_clean", NOW - 5 * DAY, 0.95, test_id=7)
 INTEGRITY_PASS = integrity(NOW - 5 * DAY + timedelta(hours=2))
 PRE_USE = water("pre_use", NOW - timedelta(hours=1), 0.95 * 0.97, test_id=8)
+CLEANING = CleaningResult(5, LAST_USE + timedelta(hours=4), "CP-NAOH-05", ())
 
 
 def fit_facts(**changes: object) -> Facts:
@@ -90,6 +93,7 @@ def fit_facts(**changes: object) -> Facts:
         pre_use=PRE_USE,
         latest_water=PRE_USE,
         integrity=INTEGRITY_PASS,
+        cleaning=CLEANING,
         storage_start=NOW - 4 * DAY,
         storage_solution="0.1 M NaOH",
         hold_reason=None,
@@ -115,7 +119,7 @@ def others_ok(v: Verdict, check: str) -> bool:
 def test_reference_module_is_fit_with_every_check_ok() -> None:
     v = verdict(fit_facts())
     assert [r.check for r in v.reasons] == CHECK_ORDER
-    assert [r.outcome for r in v.reasons] == ["ok"] * 8
+    assert [r.outcome for r in v.reasons] == ["ok"] * len(CHECK_ORDER)
     assert v.fit
     assert v.word == FIT
     assert v.serial == "QMB-0142"
@@ -489,6 +493,15 @@ integrity_st = st.builds(
 )
 
 
+cleaning_st = st.builds(
+    CleaningResult,
+    cleaning_id=st.just(5),
+    at=hours.map(at),
+    procedure=st.none() | st.just("CP-NAOH-05"),
+    deviations=st.none() | st.just(()) | st.just(("contact time 45 min is shorter",)),
+)
+
+
 @st.composite
 def facts_st(draw: st.DrawFn) -> Facts:
     ref = fit_facts()
@@ -508,6 +521,7 @@ def facts_st(draw: st.DrawFn) -> Facts:
         pre_use=pre_use,
         latest_water=latest,
         integrity=draw(keep_or(ref.integrity, st.none() | integrity_st)),
+        cleaning=draw(keep_or(ref.cleaning, st.none() | cleaning_st)),
         storage_start=draw(keep_or(ref.storage_start, st.none() | hours.map(at))),
         storage_solution=draw(st.none() | st.just("20 % ethanol")),
         hold_reason=draw(st.none() | st.just("recovery")),
@@ -591,3 +605,32 @@ def test_the_verdict_is_deterministic_for_equal_facts(f: Facts) -> None:
     assert twin is not f and twin == f
     assert verdict(twin) == verdict(f)
     assert verdict(f) == verdict(f)
+
+
+# --- cleaning against its procedure -------------------------------------------------------------
+
+
+def test_a_conforming_cleaning_is_ok_and_names_its_procedure() -> None:
+    r = reason(verdict(fit_facts()), "cleaning")
+    assert r.outcome == "ok" and "CP-NAOH-05" in r.message
+
+
+def test_a_cleaning_outside_its_procedure_is_not_fit() -> None:
+    short = "contact time 45 min is shorter than the procedure's 60 min"
+    bad = CleaningResult(5, LAST_USE + timedelta(hours=4), "CP-NAOH-05", (short,))
+    v = verdict(fit_facts(cleaning=bad))
+    r = reason(v, "cleaning")
+    assert r.outcome == "fail" and "45 min" in r.message
+    assert not v.fit and others_ok(v, "cleaning")
+
+
+def test_an_unchecked_cleaning_is_information_only() -> None:
+    unchecked = CleaningResult(5, LAST_USE + timedelta(hours=4), None, None)
+    v = verdict(fit_facts(cleaning=unchecked))
+    assert reason(v, "cleaning").outcome == "info" and v.fit
+
+
+def test_a_cleaning_older_than_the_last_use_does_not_count() -> None:
+    old = CleaningResult(5, LAST_USE - timedelta(hours=1), "CP-NAOH-05", ())
+    v = verdict(fit_facts(cleaning=old))
+    assert reason(v, "cleaning").outcome == "fail" and not v.fit

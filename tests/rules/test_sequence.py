@@ -13,7 +13,13 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from ledger.rules import sequence
-from ledger.rules.sequence import ALLOWED, NEXT_STEP, after_integrity_test, after_water_test
+from ledger.rules.sequence import (
+    ALLOWED,
+    NEXT_STEP,
+    after_cleaning,
+    after_integrity_test,
+    after_water_test,
+)
 from ledger.store.tables import STATUSES
 
 SERIAL = "QMB-0142"
@@ -273,3 +279,27 @@ def test_integrity_pass_elsewhere_keeps_the_status(status: str, post_clean_passe
     t = after_integrity_test(status, True, has_baseline=True, post_clean_passed=post_clean_passed)
     assert t.status == status
     assert t.hold is None
+
+
+# --- after_cleaning -------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("status", ["available", "awaiting_cleaning", "cleaned"])
+@pytest.mark.parametrize("found", [None, []])
+def test_a_conforming_or_unchecked_cleaning_leaves_the_module_cleaned(
+    status: str, found: list[str] | None
+) -> None:
+    t = after_cleaning(status, found)
+    assert t.status == "cleaned" and t.hold is None
+
+
+@pytest.mark.parametrize("status", ["commissioning", "awaiting_retest"])
+def test_a_cleaning_does_not_skip_commissioning_or_a_retest(status: str) -> None:
+    assert after_cleaning(status, []).status == status
+
+
+@pytest.mark.parametrize("status", sorted(ALLOWED["cleaning"]))
+def test_a_cleaning_outside_its_procedure_holds_the_module(status: str) -> None:
+    t = after_cleaning(status, ["contact time 45 min is shorter than the procedure's 60 min"])
+    assert t.status == "on_hold" and t.hold == "cleaning"
+    assert t.note is not None and "45 min" in t.note

@@ -12,7 +12,7 @@ from sqlalchemy import text
 from ledger.store.audit import GENESIS, canonical, event_hash, record_hash, verify
 from ledger.store.engine import transaction
 from ledger.store.tables import AuditEvent, WaterFluxTest
-from tests.world import World
+from tests.world import PROCEDURE, World
 
 
 def _drop_append_only_triggers(world: World) -> None:
@@ -250,6 +250,7 @@ def test_a_change_to_any_column_of_any_record_is_found(tested: World) -> None:
 
     tested.ok(tested.as_user("op.kim", "care", "store", "QMB-0142", "--solution", "20 % ethanol"))
     tested.ok(tested.as_user("sysadm", "user", "lockout", "--max-failures", "4", "--reason", "t"))
+    tested.ok(tested.as_user("eng.ray", *PROCEDURE))
     tested.ok(tested.as_user("op.kim", "module", "hold", "QMB-0142", "--reason", "inspect"))
     tested.ok(tested.as_user("eng.ray", "module", "release", "QMB-0142", "--decision", "return",
                              "--reason", "fine"))  # fmt: skip
