@@ -172,6 +172,11 @@ def history_report(session: Any, serial: str) -> Report:
     s.add("dedicated_product", module.dedicated_product, "dedicated to")
     s.add("manufacturer_lot", module.manufacturer_lot, "manufacturer lot")
     s.add("received_on", module.received_on.isoformat() if module.received_on else None, "received")
+    base = latest.water(session, row_id(module.id), "baseline")
+    post = latest.water(session, row_id(module.id), "post_clean")
+    s.add("baseline_nwp", Q(base.nwp_m_s_pa, "permeability") if base else None, "baseline NWP")
+    s.add("last_recovery", Q(post.recovery, "fraction") if post and post.recovery else None,
+          "last post-clean recovery")  # fmt: skip
     table = Table(
         "History",
         [

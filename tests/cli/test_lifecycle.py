@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import pytest
+
 from tests.world import SAMPLES, World
 
 
@@ -38,6 +40,8 @@ def test_full_cycle_back_to_available(world: World) -> None:
     shown = world.cli("module", "show", "QMB-0142", "--json").json()
     assert shown["module"]["dedicated_product"] == "QB-117"
     assert shown["module"]["cycles"] == "1 of 3"
+    assert shown["module"]["last_recovery"]["value"] == pytest.approx(100 * 165 / 170)
+    assert shown["module"]["baseline_nwp"]["unit"] == "L/(m^2*h*bar)"
     kinds = [row["record"].split()[0] for row in shown["history"]]
     assert kinds == ["water-test", "integrity-test", "use", "water-test", "cleaning",
                      "water-test"]  # fmt: skip
