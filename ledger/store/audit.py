@@ -39,36 +39,48 @@ def canonical(obj: Any) -> str:
     )
 
 
-def content(record: Recorded) -> dict[str, Any]:
-    """The record's columns as JSON-ready values (floats as floats on every backend)."""
+def _values(table: Any, excluded: frozenset[str], get: Any) -> dict[str, Any]:
+    """A row's columns as JSON-ready values (floats as floats on every backend).
+
+    ``get(name)`` reads a column from a record instance or from a database row alike.
+    """
     out: dict[str, Any] = {}
-    for column in record.__table__.columns:  # type: ignore[attr-defined]
-        if column.name in record.hash_excluded:
+    for column in table.columns:
+        if column.name in excluded:
             continue
-        value = getattr(record, column.name)
+        value = get(column.name)
         if value is not None and isinstance(column.type, Float):
             value = float(value)
         out[column.name] = _encode(value)
     return out
 
 
-def record_hash(record: Recorded) -> str:
-    """SHA-256 of the record's entity name and content."""
-    payload = canonical({"entity": entity_of(record), "content": content(record)})
+def content(record: Recorded) -> dict[str, Any]:
+    """The record's columns as JSON-ready values."""
+    return _values(record.__table__, record.hash_excluded, lambda n: getattr(record, n))  # type: ignore[attr-defined]
+
+
+def _digest(entity: str, values: dict[str, Any]) -> str:
+    payload = canonical({"entity": entity, "content": values})
     return hashlib.sha256(payload.encode()).hexdigest()
 
 
-def _event_content(event: AuditEvent) -> dict[str, Any]:
-    return {
-        c.name: _encode(getattr(event, c.name))
-        for c in AuditEvent.__table__.columns  # type: ignore[attr-defined]
-        if c.name != "hash"
-    }
+def record_hash(record: Recorded) -> str:
+    """SHA-256 of the record's entity name and content."""
+    return _digest(entity_of(record), content(record))
+
+
+_EVENT_TABLE: Any = AuditEvent.__table__  # type: ignore[attr-defined]
+
+
+def _event_digest(get: Any) -> str:
+    values = _values(_EVENT_TABLE, frozenset({"hash"}), get)
+    return hashlib.sha256(canonical(values).encode()).hexdigest()
 
 
 def event_hash(event: AuditEvent) -> str:
     """SHA-256 over the event's content, which includes the previous event's hash."""
-    return hashlib.sha256(canonical(_event_content(event)).encode()).hexdigest()
+    return _event_digest(lambda n: getattr(event, n))
 
 
 def _module_of(record: Recorded) -> int | None:
@@ -229,79 +241,67 @@ class Verification:
         return not self.problems
 
 
+STREAM = 5_000  # rows fetched at a time: verify reads tables of any size in bounded memory
+
+
 def verify(session: Session) -> Verification:
-    """Recompute every record hash and the event chain; name each altered, missing or new row."""
+    """Recompute every record hash and the event chain; name each altered, missing or new row.
+
+    Rows are streamed through SQLAlchemy Core, so memory grows with the number of records
+    (one hash each, to match records with their last event), not with their size.
+    """
     problems: list[Problem] = []
-    events = session.exec(select(AuditEvent).order_by(AuditEvent.seq)).all()  # type: ignore[arg-type]
-    expected_seq, prev_hash = 1, GENESIS
+    conn = session.connection()
+    stream = {"yield_per": STREAM}
+    expected_seq, prev_hash, events = 1, GENESIS, 0
     latest: dict[tuple[str, str], str] = {}
-    for ev in events:
-        if ev.seq != expected_seq:
-            gap = (
-                f"{expected_seq}" if ev.seq == expected_seq + 1 else f"{expected_seq}–{ev.seq - 1}"
-            )
-            problems.append(
-                Problem(
-                    "audit_event",
-                    gap,
-                    f"missing: the chain skips from event {expected_seq - 1} to event {ev.seq}",
-                )
-            )
-        elif ev.prev_hash != prev_hash:
-            problems.append(
-                Problem(
-                    "audit_event",
-                    str(ev.seq),
-                    f"chain broken: its previous-event hash does not match event {ev.seq - 1}",
-                )
-            )
-        if event_hash(ev) != ev.hash:
-            problems.append(
-                Problem(
-                    "audit_event", str(ev.seq), "altered: its content no longer matches its hash"
-                )
-            )
-        if ev.record_hash is not None:
-            latest[(ev.entity, ev.entity_id)] = ev.record_hash
-        expected_seq, prev_hash = ev.seq + 1, ev.hash
+    ordered = _EVENT_TABLE.select().order_by(_EVENT_TABLE.c.seq).execution_options(**stream)
+    for row in conn.execute(ordered):
+        ev = row._mapping
+        seq = ev["seq"]
+        events += 1
+        if seq != expected_seq:
+            gap = f"{expected_seq}" if seq == expected_seq + 1 else f"{expected_seq}–{seq - 1}"
+            what = f"missing: the chain skips from event {expected_seq - 1} to event {seq}"
+            problems.append(Problem("audit_event", gap, what))
+        elif ev["prev_hash"] != prev_hash:
+            what = f"chain broken: its previous-event hash does not match event {seq - 1}"
+            problems.append(Problem("audit_event", str(seq), what))
+        if _event_digest(ev.__getitem__) != ev["hash"]:
+            what = "altered: its content no longer matches its hash"
+            problems.append(Problem("audit_event", str(seq), what))
+        if ev["record_hash"] is not None:
+            latest[(ev["entity"], ev["entity_id"])] = ev["record_hash"]
+        expected_seq, prev_hash = seq + 1, ev["hash"]
     head = session.get(AuditHead, 1)
-    last_seq = events[-1].seq if events else 0
+    last_seq = expected_seq - 1
     if head is None:
         problems.append(Problem("audit_head", "1", "missing"))
     elif head.seq != last_seq or head.hash != prev_hash:
-        problems.append(
-            Problem(
-                "audit_event",
-                str(head.seq),
-                f"missing: the chain head names event {head.seq} but the last "
-                f"stored event is {last_seq}",
-            )
-        )
+        what = (f"missing: the chain head names event {head.seq} but the last stored event "
+                f"is {last_seq}")  # fmt: skip
+        problems.append(Problem("audit_event", str(head.seq), what))
     records = 0
     for entity, cls in RECORDS.items():
-        for row in session.exec(select(cls)).all():
+        table: Any = cls.__table__  # type: ignore[attr-defined]
+        pk = next(iter(table.primary_key.columns)).name
+        for row in conn.execute(table.select().execution_options(**stream)):
+            values = row._mapping
             records += 1
-            key = primary_key(row)
+            key = str(values[pk])
+            stored = values["record_hash"]
             logged = latest.pop((entity, key), None)
-            if record_hash(row) != row.record_hash:
-                problems.append(
-                    Problem(entity, key, "altered: its content no longer matches its stored hash")
-                )
+            if _digest(entity, _values(table, cls.hash_excluded, values.__getitem__)) != stored:
+                what = "altered: its content no longer matches its stored hash"
             elif logged is None:
-                problems.append(
-                    Problem(entity, key, "inserted outside fluxledger: no audit event records it")
-                )
-            elif logged != row.record_hash:
-                problems.append(
-                    Problem(
-                        entity,
-                        key,
-                        "changed outside fluxledger: its hash "
-                        "differs from the last one the audit trail recorded",
-                    )
-                )
+                what = "inserted outside fluxledger: no audit event records it"
+            elif logged != stored:
+                what = ("changed outside fluxledger: its hash differs from the last one the "
+                        "audit trail recorded")  # fmt: skip
+            else:
+                continue
+            problems.append(Problem(entity, key, what))
     for entity, key in latest:
-        problems.append(
-            Problem(entity, key, "missing: the audit trail records it but the row is gone")
-        )
-    return Verification(len(events), records, tuple(problems))
+        what = "missing: the audit trail records it but the row is gone"
+        problems.append(Problem(entity, key, what))
+    return Verification(events, records, tuple(problems))
