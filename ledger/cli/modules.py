@@ -7,7 +7,7 @@ from typing import Any
 import typer
 
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.cli.describe import finish
+from ledger.cli.describe import SITE_NOTE, finish
 from ledger.cli.session import DB_OPTION, PASSWORD_STDIN, USER_OPTION, read, write
 
 types_app = typer.Typer(
@@ -129,12 +129,6 @@ def _type_report(t: Any) -> Any:
     lim.add("storage_limit", Q(t.storage_limit_s, "time", "d"), "storage limit")
     report.notes.append(SITE_NOTE)
     return report
-
-
-SITE_NOTE = (
-    "Acceptance limits come from the site's validated procedures and its quality unit; "
-    "fluxledger applies them and does not set them."
-)
 
 
 @types_app.command("show")

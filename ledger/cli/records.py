@@ -7,7 +7,7 @@ from typing import Any
 import typer
 
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.cli.describe import finish
+from ledger.cli.describe import CAUSTIC_NOTE, finish
 from ledger.cli.session import ACTIVITY_TIME, DB_OPTION, PASSWORD_STDIN, USER_OPTION, when, write
 from ledger.errors import InputError
 
@@ -20,10 +20,6 @@ care_app = typer.Typer(
 use_app = typer.Typer(help="Start and end a use (one processing cycle).", no_args_is_help=True)
 
 NOTE = typer.Option(None, "--note", help="A free-text remark kept with the record.")
-CAUSTIC = (
-    "caution: cleaning agents such as sodium hydroxide are caustic; handle them as the site's "
-    "safety procedure says (eye and skin protection)"
-)
 
 
 def _water_points(points_file: str, temperature: str | None) -> tuple[list[Any], float, Any]:
@@ -334,7 +330,7 @@ def clean(
             if record.deviations
             else f"; follows procedure {procedure}"
         )
-    finish("care clean", record, f"{line}\n{CAUSTIC}", status, as_json)
+    finish("care clean", record, f"{line}\ncaution: {CAUSTIC_NOTE}", status, as_json)
 
 
 @care_app.command("store")
@@ -498,7 +494,7 @@ def procedure_add(
 @guarded
 def procedure_list(db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> None:
     """List cleaning procedures and their ranges."""
-    from ledger.cli.describe import CAUSTIC_NOTE, SITE_NOTE, procedure_row
+    from ledger.cli.describe import SITE_NOTE, procedure_row
     from ledger.cli.output import Report, Table
     from ledger.cli.session import read
     from ledger.logbook.procedures import list_procedures
