@@ -62,6 +62,9 @@ def main() -> int:
     parser.add_argument(
         "--skip-commands", action="store_true", help="skip the logbook command start-up timings"
     )
+    parser.add_argument(
+        "--skip-skidlog", action="store_true", help="skip the skid-log import benchmark"
+    )
     args = parser.parse_args()
     exe = sys.executable
     script = shutil.which("fluxledger", path=str(Path(exe).parent)) or shutil.which("fluxledger")
@@ -80,6 +83,11 @@ def main() -> int:
         import commands  # bench/commands.py
 
         ok = commands.run(exe, script, args.repeats, compare) and ok
+    if not args.skip_skidlog:
+        print()
+        import skidlog  # bench/skidlog.py
+
+        ok = skidlog.run() and ok
     if not args.skip_fitness:
         print()
         import fitness  # bench/fitness.py; imported here so --skip-fitness loads no database code

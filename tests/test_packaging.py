@@ -14,7 +14,7 @@ def test_every_package_is_listed_in_pyproject() -> None:
     found = {
         ".".join(p.parent.relative_to(ROOT).parts) for p in (ROOT / "ledger").rglob("__init__.py")
     }
-    found |= {"ledger.migrations", "ledger.migrations.versions"}
+    found |= {"ledger.migrations", "ledger.migrations.versions", "ledger.templates"}
     assert listed == found
 
 
@@ -23,6 +23,8 @@ def test_migrations_map_to_the_top_level_folder() -> None:
     assert setuptools["package-dir"] == {
         "ledger.migrations": "migrations",
         "ledger.migrations.versions": "migrations/versions",
+        "ledger.templates": "templates",
     }
+    assert list((ROOT / "templates").glob("*.toml")), "the shipped master-record templates"
     assert (ROOT / "migrations" / "__init__.py").is_file()
     assert (ROOT / "migrations" / "versions" / "__init__.py").is_file()

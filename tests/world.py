@@ -28,7 +28,7 @@ TYPE_OPTIONS = [
     "--membrane", "mPES", "--pore-rating", "750 kDa", "--lumen-diameter", "0.5 mm",
     "--fibers", "120", "--length", "30 cm", "--area", "565 cm^2",
     "--decay-limit", "0.05 psi/min", "--test-pressure", "15 psi", "--reuse-limit", "3",
-    "--storage-limit", "30 d", "--bubble-point-min", "40 psi",
+    "--storage-limit", "30 d", "--bubble-point-min", "40 psi", "--max-loading", "200 L/m^2",
 ]  # fmt: skip
 
 

@@ -24,7 +24,7 @@ F = TypeVar("F", bound=Callable[..., Any])
 
 
 # Fields that are positional arguments on the command line: their messages name them already.
-POSITIONAL = frozenset({"serial", "login", "kind", "record_id", "code"})
+POSITIONAL = frozenset({"serial", "login", "kind", "record_id", "code", "run", "number", "file"})
 # Options whose raw value may hold a secret (a database URL with its password).
 UNECHOED = frozenset({"db"})
 

@@ -126,7 +126,9 @@ def _fresh_database(out: Path) -> Path:
     return db
 
 
-def _expand(command: str, samples: Path, now: datetime) -> list[str]:
+def _expand(
+    command: str, samples: Path, now: datetime, more: dict[str, str] | None = None
+) -> list[str]:
     import re
 
     def days_ago(m: re.Match[str]) -> str:
@@ -134,7 +136,9 @@ def _expand(command: str, samples: Path, now: datetime) -> list[str]:
         return when.isoformat(timespec="seconds")
 
     text = re.sub(r"\{days_ago:([0-9.]+)\}", days_ago, command)
-    return shlex.split(text.replace("{samples}", shlex.quote(_shown(samples))))
+    for key, value in {"samples": _shown(samples), **(more or {})}.items():
+        text = text.replace("{" + key + "}", shlex.quote(value))
+    return shlex.split(text)
 
 
 def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
@@ -161,15 +165,19 @@ def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
         ("Users of the logbook" if i == 0 else None, args, stdin, None)
         for i, (args, stdin) in enumerate(setup)
     ]
-    for step in scenario["steps"]:
-        args = _expand(step["command"], samples, now)
-        stdin = ""
-        if "user" in step:
-            args += ["--user", step["user"], "--password-stdin"]
-            stdin = users[step["user"]]["password"] + "\n"
-        steps.append((step.get("title"), args, stdin, step.get("save")))
+    steps += _scenario_steps(scenario["steps"], users, samples, now)
+    # Part two: a run on QMB-0142, with the skid export written to match its times.
+    run_start, run_end = now - timedelta(days=0.1), now - timedelta(days=0.02)
+    skid_log = out / "qb117-26-014_skid_export.csv"
+    from ledger.cli.demo_log import write_log
+
+    write_log(skid_log, run_start)
+    runs = tomllib.loads((samples / "run_history.toml").read_text(encoding="utf-8"))
+    more = {"skid_log": _shown(skid_log), "run_start": run_start.isoformat(timespec="seconds"),
+            "run_end": run_end.isoformat(timespec="seconds")}  # fmt: skip
+    steps += _scenario_steps(runs["steps"], users, samples, now, more)
     transcript = ["", f"Demo scenario: {scenario['site']['title']}"]
-    written: list[Path] = []
+    written: list[Path] = [skid_log]
     for title, args, stdin, save in steps:
         code, text = _run([*args, *db], stdin)
         if code not in (0, 1):
@@ -185,3 +193,21 @@ def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
     written.insert(0, out / "fluxledger.db")
     written.append(_write_atomically(out / "logbook_session.txt", "\n".join(transcript) + "\n"))
     return written
+
+
+def _scenario_steps(
+    raw: list[dict[str, str]],
+    users: dict[str, dict[str, str]],
+    samples: Path,
+    now: datetime,
+    more: dict[str, str] | None = None,
+) -> list[tuple[str | None, list[str], str, str | None]]:
+    out: list[tuple[str | None, list[str], str, str | None]] = []
+    for step in raw:
+        args = _expand(step["command"], samples, now, more)
+        stdin = ""
+        if "user" in step:
+            args += ["--user", step["user"], "--password-stdin"]
+            stdin = users[step["user"]]["password"] + "\n"
+        out.append((step.get("title"), args, stdin, step.get("save")))
+    return out

@@ -53,6 +53,12 @@ def _register() -> None:
     app.add_typer(audit.app, name="audit")
     app.add_typer(users.app, name="user")
     app.add_typer(calc.app, name="calc")
+    from ledger.cli import runs as run_commands
+
+    app.add_typer(run_commands.app, name="run")
+    from ledger.cli import logs
+
+    app.add_typer(logs.app, name="log")
     app.command("demo")(guarded(demo.demo))
 
 

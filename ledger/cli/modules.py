@@ -42,6 +42,18 @@ def type_add(
         None, "--bubble-point-min", help="Lowest passing bubble point, e.g. '50 psi'."
     ),
     supplier: str | None = typer.Option(None, "--supplier", help="Supplier (free text)."),
+    max_loading: str | None = quantity_option(
+        None, "--max-loading", help="Highest feed volume per area, e.g. '200 L/m^2'."
+    ),
+    max_mass_loading: str | None = quantity_option(
+        None, "--max-mass-loading", help="Highest product mass per area, e.g. '50 g/m^2'."
+    ),
+    clean_hold: str | None = quantity_option(
+        None,
+        "--clean-hold",
+        help="How recent the pre-use water-flux and integrity tests must be when a run "
+        "starts, e.g. '72 h' (default: the storage limit).",
+    ),
     reference_temperature: str = quantity_option(
         "20 degC", "--reference-temperature", help="T_ref of NWP (default 20 degC)."
     ),
@@ -91,6 +103,13 @@ def type_add(
         recovery_alert=q(recovery_alert, "fraction", "--recovery-alert"),
         damage_ratio=q(damage_ratio, "fraction", "--damage-ratio"),
         preuse_band=q(preuse_band, "fraction", "--preuse-band"),
+        max_volume_loading_m=q(max_loading, "areal_volume", "--max-loading")
+        if max_loading
+        else None,
+        max_mass_loading_kg_m2=q(max_mass_loading, "areal_mass", "--max-mass-loading")
+        if max_mass_loading
+        else None,
+        clean_hold_s=q(clean_hold, "time", "--clean-hold") if clean_hold else None,
     )
     created = write(db, user, password_stdin, lambda s, a: add_type(s, a, spec))
     finish("module-type add", created, f"added module type {created.code}", None, as_json)
@@ -127,6 +146,12 @@ def _type_report(t: Any) -> Any:
         )
     lim.add("reuse_limit", t.reuse_limit_cycles, "validated reuse limit (cycles)")
     lim.add("storage_limit", Q(t.storage_limit_s, "time", "d"), "storage limit")
+    if t.clean_hold_s is not None:
+        lim.add("clean_hold", Q(t.clean_hold_s, "time", "h"), "clean-hold window")
+    if t.max_volume_loading_m is not None:
+        lim.add("max_loading", Q(t.max_volume_loading_m, "areal_volume"), "maximum loading")
+    if t.max_mass_loading_kg_m2 is not None:
+        lim.add("max_mass_loading", Q(t.max_mass_loading_kg_m2, "areal_mass"), "maximum mass")
     report.notes.append(SITE_NOTE)
     return report
 

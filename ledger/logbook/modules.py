@@ -38,6 +38,9 @@ class TypeSpec:
     recovery_alert: float = 0.90
     damage_ratio: float = 1.20
     preuse_band: float = 0.10
+    max_volume_loading_m: float | None = None  # m³ of feed per m² of membrane
+    max_mass_loading_kg_m2: float | None = None
+    clean_hold_s: float | None = None  # pre-use tests older than this must be repeated
 
 
 def check_type(spec: TypeSpec) -> None:
@@ -64,6 +67,13 @@ def check_type(spec: TypeSpec) -> None:
             value=spec.reuse_limit_cycles,
             expected="a whole number of 1 or more",
         )
+    for name, label in (
+        ("max_volume_loading_m", "maximum volume loading"),
+        ("max_mass_loading_kg_m2", "maximum mass loading"),
+        ("clean_hold_s", "clean-hold window"),
+    ):
+        if getattr(spec, name) is not None:
+            positive(name, getattr(spec, name), "a value greater than zero", label=label)
     if spec.bubble_point_min_pa is not None:
         positive(
             "bubble_point_min_pa",

@@ -10,7 +10,7 @@ from __future__ import annotations
 from datetime import date, datetime
 from typing import Any, ClassVar
 
-from sqlalchemy import JSON, Index
+from sqlalchemy import JSON, Index, LargeBinary
 from sqlmodel import Field, SQLModel
 
 from ledger.store.types import UTCDateTime, utc_now
@@ -111,6 +111,9 @@ class ModuleType(Recorded, table=True):
     bubble_point_min_pa: float | None = None
     reuse_limit_cycles: int
     storage_limit_s: float
+    max_volume_loading_m: float | None = None  # feed volume per membrane area (m³/m²)
+    max_mass_loading_kg_m2: float | None = None
+    clean_hold_s: float | None = None  # pre-use tests must be this recent at a run's start
 
 
 class Module(Recorded, table=True):
@@ -269,6 +272,83 @@ class Hold(Recorded, table=True):
     meaning: str | None = Field(default=None, max_length=16)  # the signature's meaning
 
 
+RUN_STATUSES = ("planned", "in_progress", "finished", "in_review")
+
+
+class Run(Voidable, table=True):
+    """A planned and executed batch run on one module, from one master-record template."""
+
+    __table_args__ = {"sqlite_autoincrement": True}
+
+    id: int | None = Field(default=None, primary_key=True)
+    module_id: int = Field(foreign_key="module.id", index=True)
+    product: str
+    lot: str
+    template_id: str = Field(max_length=64)
+    template_version: str = Field(max_length=32)
+    template_sha256: str = Field(max_length=64)
+    template_text: str  # the exact template file the plan was computed from
+    inputs: dict[str, str] = Field(sa_type=JSON)  # as typed by the planner
+    plan: dict[str, Any] = Field(sa_type=JSON)  # ledger.runs.plan.Plan.to_record(), SI
+    status: str = Field(default="planned", max_length=16)
+    override_reason: str | None = None  # planned on a module that was not fit, and why
+    use_id: int | None = Field(default=None, foreign_key="module_use.id")
+    started_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    finished_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    submitted_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+
+
+class SkidLogFile(Voidable, table=True):
+    """A skid's data log attached to a run, kept byte for byte, and the actuals computed from it."""
+
+    __tablename__ = "skid_log_file"
+    __table_args__ = {"sqlite_autoincrement": True}
+    # The content hash covers the file by its SHA-256; the audit trail does not repeat it.
+    redacted: ClassVar[frozenset[str]] = frozenset({"content"})
+
+    id: int | None = Field(default=None, primary_key=True)
+    run_id: int = Field(foreign_key="run.id", index=True)
+    file_name: str
+    sha256: str = Field(max_length=64, index=True)
+    size_bytes: int
+    content: bytes = Field(sa_type=LargeBinary)
+    mapping_text: str
+    mapping_sha256: str = Field(max_length=64)
+    windows: list[dict[str, str]] | None = Field(default=None, sa_type=JSON)  # phase windows
+    rows: int
+    actuals: dict[str, Any] = Field(sa_type=JSON)  # ledger.runs.actuals.Summary.to_record()
+
+
+class QcResult(Voidable, table=True):
+    """One QC result of a run, in SI (``value``) and as typed (``text``)."""
+
+    __tablename__ = "qc_result"
+    __table_args__ = {"sqlite_autoincrement": True}
+
+    id: int | None = Field(default=None, primary_key=True)
+    run_id: int = Field(foreign_key="run.id", index=True)
+    attribute: str = Field(max_length=64)
+    value: float
+    text: str
+    method: str | None = None
+
+
+class Deviation(Recorded, table=True):
+    """A departure from the plan or a specification, recorded against a run, and its closure."""
+
+    __table_args__ = {"sqlite_autoincrement": True}
+
+    id: int | None = Field(default=None, primary_key=True)
+    run_id: int = Field(foreign_key="run.id", index=True)
+    number: int  # 1, 2, ... within the run
+    check_name: str | None = Field(default=None, max_length=64)  # the check it explains
+    description: str
+    impact: str | None = None
+    closed_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    closed_by: str | None = Field(default=None, max_length=64)
+    closure: str | None = None
+
+
 class AuditEvent(SQLModel, table=True):
     """One append-only entry of the audit trail, chained to the previous one by SHA-256."""
 
@@ -314,6 +394,10 @@ RECORDS: dict[str, type[Recorded]] = {
     "storage": Storage,
     "module_use": ModuleUse,
     "hold": Hold,
+    "run": Run,
+    "skid_log_file": SkidLogFile,
+    "qc_result": QcResult,
+    "deviation": Deviation,
 }
 
 

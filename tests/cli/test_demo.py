@@ -60,7 +60,7 @@ def test_demo_builds_the_logbook_and_its_verdicts(cli: Run, tmp_path: Path) -> N
     # The demo's database is a real logbook: it verifies, and lists the three modules.
     listed = cli("module", "list", "--db", str(tmp_path / "fluxledger.db"), "--json").json()
     assert [(m["serial"], m["status"]) for m in listed["modules"]] == [
-        ("QMB-0142", "available"),
+        ("QMB-0142", "awaiting_cleaning"),  # lot QB117-26-014 has just run on it
         ("QMB-0143", "on_hold"),
         ("QMB-0151", "commissioning"),
     ]
@@ -71,3 +71,19 @@ def test_demo_runs_twice_into_the_same_folder(cli: Run, tmp_path: Path) -> None:
     assert cli("demo", "--out", str(tmp_path), "--json").code == 0
     again = cli("demo", "--out", str(tmp_path), "--json")
     assert again.code == 0, again.stderr
+
+
+def test_demo_plans_and_imports_its_run(cli: Run, tmp_path: Path) -> None:
+    assert cli("demo", "--out", str(tmp_path), "--json").code == 0
+    checks = json.loads((tmp_path / "run1_checks.json").read_text())["acceptance_checks"]
+    verdicts = {c["name"]: c["verdict"] for c in checks}
+    # The invented export has one 24 s TMP spike; everything else follows the plan.
+    assert verdicts.pop("tmp") == "FAIL"
+    assert set(verdicts.values()) == {"PASS"}, verdicts
+    run = json.loads((tmp_path / "run1.json").read_text())
+    assert run["run_1"]["status"] == "in_review"
+    assert run["deviations"][0]["check"] == "tmp"
+    assert run["skid_log"]["rows"] == 3106
+    assert run["diafiltration_optimum_(gel_model)"]["optimum_concentration"]["unit"] == "g/L"
+    session = (tmp_path / "logbook_session.txt").read_text()
+    assert "was already imported" in session

@@ -8,6 +8,7 @@ import json
 import pytest
 
 from ledger.logbook import auth
+from ledger.store.schema import REVISION
 from tests.world import PASSWORDS, World
 
 
@@ -37,7 +38,7 @@ def test_init_on_a_new_database_needs_an_administrator(tmp_path: object) -> None
     # A second init is an upgrade check and creates nobody.
     third = w.cli("init", "--json")
     assert third.code == 0
-    assert third.json()["database"]["revision_before"] == "0001"
+    assert third.json()["database"]["revision_before"] == REVISION
     assert "administrator" not in third.json()["database"]
 
 

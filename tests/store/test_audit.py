@@ -5,6 +5,8 @@ from __future__ import annotations
 
 import hashlib
 import json
+from datetime import UTC, date, datetime, timedelta
+from pathlib import Path
 
 import pytest
 from sqlalchemy import text
@@ -217,9 +219,8 @@ def test_passwords_never_appear_in_the_audit_trail(tested: World) -> None:
 
 def _other(value: object, column: object) -> object:
     """A different value of the column's type (for a column that is None: some value)."""
-    from datetime import UTC, date, datetime, timedelta
 
-    from sqlalchemy import JSON, Boolean, Date, DateTime, Float, Integer
+    from sqlalchemy import JSON, Boolean, Date, DateTime, Float, Integer, LargeBinary
 
     kind = getattr(column.type, "impl", column.type)  # type: ignore[attr-defined]  # unwrap UTCDateTime
     if isinstance(kind, Boolean):
@@ -233,13 +234,31 @@ def _other(value: object, column: object) -> object:
         return base + timedelta(seconds=1)
     if isinstance(kind, Date):
         return (value or date(2026, 1, 1)) + timedelta(days=1)  # type: ignore[operator]
+    if isinstance(kind, LargeBinary):
+        return bytes(value or b"") + b"~"
     if isinstance(kind, JSON):
         return [*(value or []), {"forged": 1.0}]  # type: ignore[misc]
     text = str(value or "")  # same length: VARCHAR(64) columns stay within their limit
     return text[:-1] + ("~" if text[-1:] != "~" else "^") if text else "~"
 
 
-def test_a_change_to_any_column_of_any_record_is_found(tested: World) -> None:
+def _a_run(w: World, tmp_path: Path) -> None:
+    """A run with a skid log, a QC result and a deviation, so their tables have rows."""
+    from ledger.cli.demo_log import write_log
+    from tests.cli.test_runs import INPUTS, MAPPING
+
+    w.ok(w.integrity("QMB-0142"))
+    w.ok(w.water("QMB-0142", "pre-use", "165 mL/min"))
+    w.ok(w.as_user("eng.ray", "run", "plan", "QB-MR-LNP-101", "--module", "QMB-0142",
+                   "--product", "QB-117", "--lot", "QB117-26-015", *INPUTS))  # fmt: skip
+    w.ok(w.as_user("op.kim", "run", "start", "1"))
+    log = write_log(tmp_path / "skid.csv", datetime.now(UTC) - timedelta(hours=2))
+    w.ok(w.as_user("op.kim", "run", "import", "1", str(log), "--mapping", str(MAPPING)))
+    w.ok(w.as_user("op.kim", "run", "qc", "1", "--result", "ph=7.4"))
+    w.ok(w.as_user("op.kim", "run", "deviation", "1", "--check", "tmp", "--description", "spike"))
+
+
+def test_a_change_to_any_column_of_any_record_is_found(tested: World, tmp_path: Path) -> None:
     """Every stored column is covered by its record's hash: change any one of them in SQL and
     verify names that row (each change is rolled back before the next)."""
     from sqlalchemy import update
@@ -254,6 +273,7 @@ def test_a_change_to_any_column_of_any_record_is_found(tested: World) -> None:
     tested.ok(tested.as_user("op.kim", "module", "hold", "QMB-0142", "--reason", "inspect"))
     tested.ok(tested.as_user("eng.ray", "module", "release", "QMB-0142", "--decision", "return",
                              "--reason", "fine"))  # fmt: skip
+    _a_run(tested, tmp_path)
     engine = tested.engine()
     checked, refused = 0, []
     with engine.connect() as conn:

@@ -54,7 +54,7 @@ def test_empty_database_is_refused_with_init_advice(db_url: str) -> None:
 
 @pytest.mark.parametrize(
     ("stored", "message"),
-    [("0000", "older than this software's 0001; run `fluxledger init`"),
+    [("0001", "older than this software's 0002; run `fluxledger init`"),
      ("0042", "does not know"),
      ("a1b2c3", "does not know")],
 )  # fmt: skip
@@ -184,3 +184,19 @@ def test_unusable_database_is_a_clean_error_without_the_password(
     assert result.exit_code == 2
     assert result.exception is None or isinstance(result.exception, SystemExit)
     assert message in result.stderr and "s3cret" not in result.stderr
+
+
+def test_a_0001_logbook_upgrades_to_the_runs_schema(db_url: str) -> None:
+    """A database made by the logbook release (0001) gains the run tables on `init`."""
+    from alembic import command
+    from sqlalchemy import inspect
+
+    engine = connect(resolve_url(db_url), create=True)
+    with engine.begin() as conn:
+        command.upgrade(schema.alembic_config(engine, conn), "0001")
+    assert schema.stored_revision(engine) == "0001"
+    assert schema.upgrade(engine) == ("0001", "0002")
+    names = set(inspect(engine).get_table_names())
+    assert {"run", "skid_log_file", "qc_result", "deviation"} <= names
+    columns = {c["name"] for c in inspect(engine).get_columns("module_type")}
+    assert {"max_volume_loading_m", "max_mass_loading_kg_m2", "clean_hold_s"} <= columns

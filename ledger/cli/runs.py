@@ -1,0 +1,456 @@
+"""`fluxledger run ...`: plan a run from a master-record template, then start it, import its
+skid log, enter QC results and deviations, finish it and send it to review."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import typer
+
+from ledger.cli.common import JSON_OPTION, guarded
+from ledger.cli.describe import SITE_NOTE
+from ledger.cli.session import ACTIVITY_TIME, DB_OPTION, PASSWORD_STDIN, USER_OPTION, read, when
+from ledger.cli.session import write as write_as
+from ledger.errors import InputError
+
+app = typer.Typer(
+    help="Runs: plan from a master-record template, start, import the skid log, QC, "
+    "deviations, finish, submit for review.",
+    no_args_is_help=True,
+)
+RUN = typer.Argument(..., help="The run's number (see `fluxledger run list`).")
+
+
+def _pairs(items: list[str], flag: str) -> dict[str, str]:
+    out: dict[str, str] = {}
+    for item in items:
+        name, sep, value = item.partition("=")
+        if not sep or not name.strip() or not value.strip():
+            raise InputError(
+                f"{flag} {item!r} is not NAME=VALUE",
+                field=flag.lstrip("-"),
+                value=item,
+                expected="NAME=VALUE, e.g. initial_volume='1.2 L'",
+            )
+        if name.strip() in out:
+            raise InputError(
+                f"{flag} {name.strip()} is given twice",
+                field=flag.lstrip("-"),
+                value=item,
+                expected="each name once",
+            )
+        out[name.strip()] = value.strip()
+    return out
+
+
+def windows(items: list[str]) -> list[Any]:
+    """``--phase NAME=START/END`` (ISO 8601 with offset) as phase windows."""
+    from ledger.logbook.times import parse_time
+    from ledger.runs.actuals import PhaseWindow
+
+    out = []
+    for name, span in _pairs(items, "--phase").items():
+        start, sep, end = span.partition("/")
+        if not sep:
+            raise InputError(
+                f"--phase {name}={span!r} is not START/END",
+                field="phase",
+                value=span,
+                expected="NAME=START/END in ISO 8601 with offset",
+            )
+        t0 = parse_time(start, field="phase")
+        t1 = parse_time(end, field="phase")
+        if t1 <= t0:
+            raise InputError(
+                f"--phase {name}: the end is not after the start",
+                field="phase",
+                value=span,
+                expected="END after START",
+            )
+        out.append(PhaseWindow(name, t0, t1))
+    return out
+
+
+def _value(v: Any) -> Any:
+    from ledger.cli.output import Q
+
+    if v.value is None:
+        return None
+    if v.kind:
+        return Q(v.value, v.kind, v.unit)
+    if v.unit.strip() == "percent":
+        return Q(v.value, "fraction", "percent")
+    return v.value
+
+
+@app.command("templates")
+@guarded
+def list_templates(as_json: bool = JSON_OPTION) -> None:
+    """List the master-record templates shipped with fluxledger."""
+    from ledger.cli.output import Report, Table
+    from ledger.runs.template import shipped
+
+    report = Report("run templates")
+    table = Table("Templates", [("id", "ID"), ("version", "version"), ("title", "title"),
+                                ("sha256", "SHA-256"), ("file", "file")])  # fmt: skip
+    for t in shipped():
+        table.rows.append([t.id, t.version, t.title, t.sha256, Path(t.source).name])
+    report.tables.append(table)
+    report.print(as_json)
+
+
+@app.command("plan")
+@guarded
+def plan(
+    template: str = typer.Argument(..., help="A shipped template ID or a template .toml file."),
+    module: str = typer.Option(..., "--module", help="Serial of the module to run on."),
+    product: str = typer.Option(..., "--product", help="Product of the run."),
+    lot: str = typer.Option(..., "--lot", help="Batch or lot of the run."),
+    inputs: list[str] = typer.Option(
+        [], "--input", help="A plan input as NAME=QUANTITY, e.g. initial_volume='1.2 L'."
+    ),
+    scouting: Path | None = typer.Option(
+        None,
+        "--scouting",
+        help="CSV of flux against concentration from a scouting run ('concentration [g/L]', "
+        "'flux [LMH]'): adds the gel-model diafiltration optimum.",
+    ),
+    override_reason: str | None = typer.Option(
+        None, "--override-reason", help="Plan on a module that is NOT FIT, and why (recorded)."
+    ),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Compute every planned parameter of a template for a module, and record the run."""
+    from ledger.runs.service import plan_run
+
+    given = _pairs(inputs, "--input")
+    points = None
+    if scouting is not None:
+        from ledger.pointsfile import Column, read_points
+
+        pts = read_points(
+            scouting, [Column("concentration", "concentration"), Column("flux", "flux")], minimum=2
+        )
+        points = list(zip(pts.columns["concentration"], pts.columns["flux"], strict=True))
+    run = write_as(
+        db,
+        user,
+        password_stdin,
+        lambda s, a: plan_run(
+            s, a, template, module, product, lot, given, scouting=points,
+            override_reason=override_reason,
+        ),
+    )  # fmt: skip
+    if not as_json:
+        typer.echo(f"planned run {run.id}: {run.template_id} v{run.template_version} on {module}")
+    _show(db, run.id, as_json)  # type: ignore[arg-type]
+
+
+def _report(session: Any, run_id: int) -> Any:
+    from ledger.cli.output import Q, Report, Table
+    from ledger.runs import service
+    from ledger.store.tables import Module
+
+    run = service.get_run(session, run_id)
+    plan = service.run_plan(run)
+    module = session.get(Module, run.module_id)
+    report = Report("run show")
+    head = report.section(f"Run {run.id}")
+    head.add("run", run.id)
+    head.add("status", run.status)
+    head.add("product", run.product)
+    head.add("lot", run.lot)
+    head.add("module", module.serial if module else None)
+    head.add("template", f"{run.template_id} v{run.template_version}")
+    head.add("template_sha256", run.template_sha256, "template SHA-256")
+    head.add("planned_by", run.created_by, "planned by")
+    head.add("planned_at", run.created_at, "planned at")
+    head.add("started_at", run.started_at, "started")
+    head.add("finished_at", run.finished_at, "finished")
+    if run.override_reason:
+        head.add("override_reason", run.override_reason, "planned despite NOT FIT")
+    inputs = Table("Inputs", [("name", "input"), ("text", "as given")])
+    for name, text in sorted(plan.given.items()):
+        inputs.rows.append([name, text])
+    report.tables.append(inputs)
+    values = Table("Plan", [("name", "parameter"), ("title", "what"), ("phase", "phase"),
+                            ("planned", "planned"), ("rule", "acceptance"),
+                            ("note", "note")])  # fmt: skip
+    for v in plan.values:
+        values.rows.append([v.name, v.title, v.phase or "run", _value(v), v.rule or "—",
+                            v.missing or ""])  # fmt: skip
+    report.tables.append(values)
+    if plan.checks:
+        pc = Table("Plan checks", [("name", "check"), ("verdict", "verdict"), ("text", "rule")])
+        for c in plan.checks:
+            pc.rows.append([c.name, c.verdict, c.text])
+        report.tables.append(pc)
+    if plan.advice is not None:
+        a = plan.advice
+        adv = report.section("Diafiltration optimum (gel model)")
+        adv.add("gel_concentration", Q(a.gel_concentration_kg_m3, "concentration"), "Cg")
+        adv.add("k", Q(a.k_m_s, "flux"), "mass-transfer coefficient k")
+        adv.add("optimum_concentration", Q(a.optimum_concentration_kg_m3, "concentration"),
+                "optimum Cg/e")  # fmt: skip
+        adv.add("planned_concentration", Q(a.planned_concentration_kg_m3, "concentration"),
+                "planned")  # fmt: skip
+        adv.add("planned_time", Q(a.planned_time_s, "time"), "DF time as planned")
+        adv.add("optimum_time", Q(a.optimum_time_s, "time"), "DF time at the optimum")
+        adv.add("time_saved", Q(a.time_saved_s, "time"), "time saved at the optimum")
+        adv.add("buffer_difference", Q(a.buffer_saved_m3, "volume"),
+                "buffer as planned minus at the optimum")  # fmt: skip
+    steps = Table("Steps", [("operation", "operation"), ("phase", "phase"),
+                            ("signatures", "signatures"), ("text", "instruction")])  # fmt: skip
+    for s in plan.steps:
+        steps.rows.append([s["operation"], s["phase"], s["signatures"], s["text"]])
+    report.tables.append(steps)
+    if run.status != "planned":
+        _checks_into(report, session, run)
+    report.notes.extend(plan.notes)
+    report.notes.append(SITE_NOTE)
+    return report
+
+
+def _checks_into(report: Any, session: Any, run: Any) -> None:
+    from datetime import datetime
+
+    from ledger.cli.output import Table
+    from ledger.runs import service
+
+    log = service.skid_log(session, run.id)
+    if log is not None:
+        sec = report.section("Skid log")
+        sec.add("file", log.file_name)
+        sec.add("sha256", log.sha256, "SHA-256")
+        sec.add("rows", log.rows)
+        sec.add("imported_by", log.created_by, "imported by")
+    checks = Table("Acceptance checks", [("name", "check"), ("phase", "phase"),
+                                         ("planned", "planned"), ("actual", "actual"),
+                                         ("rule", "rule"), ("verdict", "verdict"),
+                                         ("note", "note")])  # fmt: skip
+    for c in service.checks_of(session, run):
+        checks.rows.append([c.name, c.phase or "run", c.planned, c.actual, c.rule, c.verdict,
+                            c.note])  # fmt: skip
+    report.tables.append(checks)
+    if log is not None and log.actuals.get("excursions"):
+        exc = Table("Excursions", [("name", "limit"), ("phase", "phase"), ("side", "side"),
+                                   ("start", "start"), ("duration_s", "duration (s)"),
+                                   ("samples", "samples")])  # fmt: skip
+        for e in log.actuals["excursions"]:
+            start = datetime.fromisoformat(e["start"])
+            exc.rows.append([e["name"], e.get("phase") or "run", e["side"], start,
+                             float(e["duration_s"]), e["samples"]])  # fmt: skip
+        report.tables.append(exc)
+    devs = service.deviations(session, run.id)
+    if devs:
+        dt = Table("Deviations", [("number", "no."), ("check", "check"),
+                                  ("description", "description"), ("by", "recorded by"),
+                                  ("closed", "closed"), ("closure", "closure")])  # fmt: skip
+        for d in devs:
+            dt.rows.append([d.number, d.check_name or "—", d.description, d.created_by,
+                            d.closed_at, d.closure or "open"])  # fmt: skip
+        report.tables.append(dt)
+
+
+def _show(db: str | None, run_id: int, as_json: bool) -> None:
+    read(db, lambda s: _report(s, run_id)).print(as_json)
+
+
+@app.command("show")
+@guarded
+def show(run: int = RUN, db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> None:
+    """Show a run: its plan, steps, acceptance checks, excursions and deviations."""
+    _show(db, run, as_json)
+
+
+@app.command("checks")
+@guarded
+def checks(run: int = RUN, db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> None:
+    """The run's acceptance checks only: PASS, FAIL or MISSING, each with its rule."""
+    from ledger.cli.output import Report
+    from ledger.runs import service
+
+    def build(session: Any) -> Any:
+        report = Report("run checks")
+        _checks_into(report, session, service.get_run(session, run))
+        report.notes.append(SITE_NOTE)
+        return report
+
+    read(db, build).print(as_json)
+
+
+@app.command("list")
+@guarded
+def list_runs(db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> None:
+    """List the runs, newest first."""
+    from sqlmodel import select
+
+    from ledger.cli.output import Report, Table
+    from ledger.store.tables import Module, Run
+
+    def build(session: Any) -> Any:
+        report = Report("run list")
+        table = Table("Runs", [("run", "run"), ("status", "status"), ("product", "product"),
+                               ("lot", "lot"), ("module", "module"), ("template", "template"),
+                               ("planned_at", "planned")])  # fmt: skip
+        rows = session.exec(
+            select(Run, Module.serial)
+            .join(Module)
+            .where(Run.voided_at.is_(None))  # type: ignore[union-attr]
+            .order_by(Run.id.desc())  # type: ignore[union-attr]
+        ).all()
+        for r, serial in rows:
+            table.rows.append([r.id, r.status, r.product, r.lot, serial,
+                               f"{r.template_id} v{r.template_version}", r.created_at])  # fmt: skip
+        report.tables.append(table)
+        return report
+
+    read(db, build).print(as_json)
+
+
+@app.command("start")
+@guarded
+def start(
+    run: int = RUN,
+    activity_time: str | None = ACTIVITY_TIME,
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Start the run: the module goes in use (its pre-use tests must be recent and passed)."""
+    from ledger.runs.service import start_run
+
+    at = when(activity_time)
+    r = write_as(db, user, password_stdin, lambda s, a: start_run(s, a, run, activity_at=at))
+    typer.echo(f"run {r.id} started; module in use")
+
+
+@app.command("import")
+@guarded
+def import_log(
+    run: int = RUN,
+    file: Path = typer.Argument(..., help="The skid's CSV data log (kept unchanged)."),
+    mapping: Path = typer.Option(..., "--mapping", help="TOML mapping of the file's columns."),
+    phase: list[str] = typer.Option(
+        [], "--phase", help="A phase by time when the log has no phase column: NAME=START/END."
+    ),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Attach the skid log to the run and compute its actuals and excursions."""
+    from ledger.runs.service import import_log as do_import
+
+    spans = windows(phase)
+    record, new = write_as(
+        db, user, password_stdin, lambda s, a: do_import(s, a, run, file, mapping, spans)
+    )
+    if new:
+        typer.echo(f"run {run}: imported {record.file_name} ({record.rows} rows, "
+                   f"sha256 {record.sha256[:12]})")  # fmt: skip
+    else:
+        typer.echo(f"run {run}: {record.file_name} was already imported (sha256 "
+                   f"{record.sha256[:12]}); nothing written")  # fmt: skip
+
+
+@app.command("qc")
+@guarded
+def qc(
+    run: int = RUN,
+    results: list[str] = typer.Option(
+        ..., "--result", help="A QC result as NAME=VALUE, e.g. particle_size='82 nm'."
+    ),
+    correction_reason: str | None = typer.Option(
+        None, "--correction-reason", help="Replace an earlier result, and why."
+    ),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Enter QC results against the template's specifications."""
+    from ledger.runs.service import enter_qc
+
+    given = _pairs(results, "--result")
+    rows = write_as(
+        db,
+        user,
+        password_stdin,
+        lambda s, a: enter_qc(s, a, run, given, correction_reason=correction_reason),
+    )
+    typer.echo(f"run {run}: recorded {len(rows)} QC result(s)")
+
+
+@app.command("deviation")
+@guarded
+def deviation(
+    run: int = RUN,
+    description: str = typer.Option(..., "--description", help="What departed, and why."),
+    check: str | None = typer.Option(None, "--check", help="The check it explains."),
+    impact: str | None = typer.Option(None, "--impact", help="Assessed impact on the product."),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Record a deviation against the run."""
+    from ledger.runs.service import add_deviation
+
+    d = write_as(
+        db,
+        user,
+        password_stdin,
+        lambda s, a: add_deviation(s, a, run, description, check=check, impact=impact),
+    )
+    typer.echo(f"run {run}: deviation {d.number} recorded")
+
+
+@app.command("close-deviation")
+@guarded
+def close_deviation(
+    run: int = RUN,
+    number: int = typer.Argument(..., help="The deviation's number within the run."),
+    closure: str = typer.Option(..., "--closure", help="Conclusion and actions."),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Close a deviation (engineer or QA)."""
+    from ledger.runs.service import close_deviation as close
+
+    write_as(db, user, password_stdin, lambda s, a: close(s, a, run, number, closure))
+    typer.echo(f"run {run}: deviation {number} closed")
+
+
+@app.command("finish")
+@guarded
+def finish(
+    run: int = RUN,
+    activity_time: str | None = ACTIVITY_TIME,
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Finish the run: the module awaits cleaning and its cycle count grows."""
+    from ledger.runs.service import finish_run
+
+    at = when(activity_time)
+    write_as(db, user, password_stdin, lambda s, a: finish_run(s, a, run, activity_at=at))
+    typer.echo(f"run {run} finished; module awaits cleaning")
+
+
+@app.command("submit")
+@guarded
+def submit(
+    run: int = RUN,
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Send the run to review: refused while a FAIL check has no recorded deviation."""
+    from ledger.runs.service import submit_run
+
+    write_as(db, user, password_stdin, lambda s, a: submit_run(s, a, run))
+    typer.echo(f"run {run} submitted for review")

@@ -1,0 +1,1 @@
+"""Master-record templates, run planning, skid-log import and actuals."""

@@ -1,0 +1,235 @@
+"""A skid's column mapping (TOML): which column of its CSV export is which of our channels, in
+which unit, and how its timestamps are written. Every mistake is an InputError naming the
+mapping file and the key (and the line, when the TOML itself is malformed).
+
+Each numeric channel gets one linear conversion to SI, ``si = scale·x + offset``, worked out
+once from two points with pint (the offset is non-zero only for temperatures in °C or °F), so
+reading a log never calls pint per row.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import re
+import tomllib
+from dataclasses import dataclass
+from datetime import UTC, datetime
+from pathlib import Path
+
+from ledger import units
+from ledger.errors import InputError
+
+# Our channels and the kind of their values (ledger.units.KINDS); "phase" is a text column.
+CHANNEL_KINDS: dict[str, str | None] = {
+    "feed_pressure": "pressure",
+    "retentate_pressure": "pressure",
+    "permeate_pressure": "pressure",
+    "feed_flow": "flow",
+    "permeate_flow": "flow",
+    "permeate_mass": "mass",
+    "retentate_volume": "volume",
+    "temperature": "temperature",
+    "phase": None,
+}
+TIME_KEYS = ("column", "format", "timezone", "max_gap")
+CHANNEL_KEYS = ("column", "unit", "density")
+DEFAULT_DENSITY = 1000.0  # kg/m³ (1.0 g/mL): assumed for a balance when the mapping gives none
+_TOML_LINE = re.compile(r"\(at line (\d+), column (\d+)\)")
+
+
+@dataclass(frozen=True)
+class ChannelMap:
+    """One mapped column. ``scale`` and ``offset`` turn its numbers into SI: scale·x + offset."""
+
+    channel: str
+    column: str
+    unit: str | None
+    density_kg_m3: float | None = None
+    scale: float = 1.0
+    offset: float = 0.0
+
+
+@dataclass(frozen=True)
+class Mapping:
+    """A parsed mapping; ``text`` and ``sha256`` keep exactly what was read."""
+
+    source: str
+    text: str
+    sha256: str
+    time_column: str
+    time_format: str | None
+    timezone: str
+    max_gap_s: float | None
+    channels: dict[str, ChannelMap]
+
+
+def load_mapping(path: str | Path) -> Mapping:
+    """Read and validate the mapping file at ``path``."""
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as exc:
+        why = exc.strerror if isinstance(exc, OSError) else "it is not UTF-8 text"
+        raise InputError(
+            f"cannot read the mapping: {why}",
+            field="mapping",
+            value=str(path),
+            expected="a readable TOML mapping file",
+            source=str(path),
+        ) from None
+    return parse_mapping(text, str(path))
+
+
+def _fail(
+    source: str, key: str, message: str, value: object = None, expected: str = ""
+) -> InputError:
+    return InputError(
+        f"{key}: {message}", field=key, value=value, expected=expected or None, source=source
+    )
+
+
+def _text(source: str, key: str, value: object, example: str) -> str:
+    if not isinstance(value, str) or not value.strip():
+        raise _fail(source, key, f"expected text, got {value!r}", value, example)
+    return value
+
+
+def parse_mapping(text: str, source: str) -> Mapping:
+    """Validate a mapping's TOML text; ``source`` (the file name) is named in every error."""
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        found = _TOML_LINE.search(str(exc))
+        raise InputError(
+            f"not valid TOML: {exc}",
+            field="mapping",
+            value=source,
+            expected="a TOML mapping with [time] and [channels] tables",
+            source=source,
+            line=int(found.group(1)) if found else None,
+        ) from None
+    for key in data:
+        if key not in ("time", "channels"):
+            raise _fail(source, key, "unknown table", key, "the tables [time] and [channels]")
+    time = data.get("time")
+    if not isinstance(time, dict) or "column" not in time:
+        raise _fail(source, "time.column", "is missing", None, 'the time column, e.g. "Timestamp"')
+    for key in time:
+        if key not in TIME_KEYS:
+            raise _fail(source, f"time.{key}", "unknown key", key, ", ".join(TIME_KEYS))
+    time_column = _text(source, "time.column", time["column"], 'e.g. column = "Timestamp"')
+    tz = _timezone(source, time.get("timezone", "UTC"))
+    fmt = time.get("format")
+    if fmt is not None:
+        fmt = _time_format(source, fmt)
+    max_gap = None
+    if "max_gap" in time:
+        max_gap = _quantity(source, "time.max_gap", time["max_gap"], "time", positive=True)
+    raw = data.get("channels", {})
+    if not isinstance(raw, dict):
+        raise _fail(source, "channels", "expected a table", raw, "[channels]")
+    channels: dict[str, ChannelMap] = {}
+    used = {time_column: "time.column"}
+    for name, spec in raw.items():
+        cmap = _channel(source, name, spec)
+        key = f"channels.{name}.column"
+        if cmap.column in used:
+            raise _fail(source, key, f"column {cmap.column!r} is already mapped by "
+                        f"{used[cmap.column]}", cmap.column, "one column per channel")  # fmt: skip
+        used[cmap.column] = key
+        channels[name] = cmap
+    return Mapping(
+        source=source,
+        text=text,
+        sha256=hashlib.sha256(text.encode("utf-8")).hexdigest(),
+        time_column=time_column,
+        time_format=fmt,
+        timezone=tz,
+        max_gap_s=max_gap,
+        channels=channels,
+    )
+
+
+def _channel(source: str, name: str, spec: object) -> ChannelMap:
+    key = f"channels.{name}"
+    if name not in CHANNEL_KINDS:
+        raise _fail(source, key, f"unknown channel {name!r}", name,
+                    "one of " + ", ".join(CHANNEL_KINDS))  # fmt: skip
+    example = '{ column = "PT-01", unit = "psi" }' if name != "phase" else '{ column = "Step" }'
+    if not isinstance(spec, dict):
+        raise _fail(source, key, f"expected an inline table, got {spec!r}", spec, example)
+    for k in spec:
+        if k not in CHANNEL_KEYS:
+            raise _fail(source, f"{key}.{k}", "unknown key", k, ", ".join(CHANNEL_KEYS))
+    if "column" not in spec:
+        raise _fail(source, f"{key}.column", "is missing", None, example)
+    column = _text(source, f"{key}.column", spec["column"], example)
+    kind = CHANNEL_KINDS[name]
+    unit = spec.get("unit")
+    if kind is None:
+        if unit is not None:
+            raise _fail(source, f"{key}.unit", "a text column has no unit", unit)
+        if "density" in spec:
+            raise _fail(source, f"{key}.density", "only permeate_mass takes a density")
+        return ChannelMap(name, column, None)
+    if unit is None:
+        raise _fail(source, f"{key}.unit", "is missing", None,
+                    f"the column's unit, e.g. {units.KINDS[kind].example}")  # fmt: skip
+    unit = _text(source, f"{key}.unit", unit, f"e.g. {units.KINDS[kind].example}")
+    offset = _convert(source, f"{key}.unit", 0.0, unit, kind)
+    scale = _convert(source, f"{key}.unit", 1.0, unit, kind) - offset
+    density = None
+    if "density" in spec:
+        if name != "permeate_mass":
+            raise _fail(source, f"{key}.density", "only permeate_mass takes a density")
+        density = _quantity(source, f"{key}.density", spec["density"], "density", positive=True)
+    return ChannelMap(name, column, unit, density, scale, offset)
+
+
+def _convert(source: str, key: str, value: float, unit: str, kind: str) -> float:
+    try:
+        return units.to_si(value, unit, kind, field=key, raw=unit)
+    except InputError as exc:
+        # units.to_si already turns pint's own errors into InputError
+        raise _fail(source, key, exc.message.removeprefix(f"{key}: "), unit,
+                    exc.expected or "") from None  # fmt: skip
+
+
+def _quantity(source: str, key: str, value: object, kind: str, *, positive: bool) -> float:
+    example = units.KINDS[kind].example.split(",")[0]
+    if not isinstance(value, str):
+        raise _fail(source, key, f"{value!r} has no unit", value,
+                    f'a quoted {kind} with its unit, e.g. "{example}"')  # fmt: skip
+    try:
+        return units.parse(value, kind, field=key, positive=positive)
+    except InputError as exc:
+        raise _fail(source, key, exc.message.removeprefix(f"{key}: "), value,
+                    exc.expected or "") from None  # fmt: skip
+
+
+def _timezone(source: str, tz: object) -> str:
+    from zoneinfo import ZoneInfo
+
+    expected = "an IANA time zone name such as Europe/Dublin or UTC"
+    if not isinstance(tz, str) or not tz.strip():
+        raise _fail(source, "time.timezone", f"expected text, got {tz!r}", tz, expected)
+    try:
+        ZoneInfo(tz)
+    # zoneinfo raises ZoneInfoNotFoundError, ValueError or others for a malformed key
+    except Exception:
+        raise _fail(source, "time.timezone", f"unknown time zone {tz!r}", tz, expected) from None
+    return tz
+
+
+def _time_format(source: str, fmt: object) -> str:
+    expected = 'a strptime format such as "%d/%m/%Y %H:%M:%S"'
+    if not isinstance(fmt, str) or "%" not in fmt:
+        raise _fail(source, "time.format", f"{fmt!r} is not a strptime format", fmt, expected)
+    # A format must read back what it writes, or it has a directive strptime lacks.
+    sample = datetime(2026, 11, 30, 13, 5, 9, tzinfo=UTC)
+    try:
+        datetime.strptime(sample.strftime(fmt), fmt)
+    except ValueError as exc:
+        raise _fail(source, "time.format", f"{fmt!r} is not a usable strptime format ({exc})",
+                    fmt, expected) from None  # fmt: skip
+    return fmt

@@ -1,0 +1,488 @@
+"""Run services, one transaction each: plan, start, import the skid log, QC, deviations,
+finish and submit for review. Every write goes through the audit journal."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+from datetime import datetime
+from pathlib import Path
+
+from sqlmodel import Session, select
+
+from ledger.errors import InputError, RefusedError
+from ledger.logbook import latest
+from ledger.logbook.auth import DECIDERS, RECORDERS, require_role
+from ledger.logbook.checks import required
+from ledger.logbook.fitness import facts
+from ledger.logbook.modules import get_module
+from ledger.logbook.times import activity_time
+from ledger.logbook.uses import end_use, start_use
+from ledger.rules import runs as sequence
+from ledger.rules.acceptance import Check, unexplained_failures
+from ledger.rules.fitness import EDGE_TOLERANCE, verdict
+from ledger.runs import template as templates
+from ledger.runs.checks import run_checks
+from ledger.runs.plan import ModuleFacts, Plan, make_plan
+from ledger.store.audit import Journal
+from ledger.store.tables import (
+    Deviation,
+    Module,
+    ModuleType,
+    QcResult,
+    Run,
+    SkidLogFile,
+    UserAccount,
+    WaterFluxTest,
+)
+
+
+def module_facts(module: Module, mtype: ModuleType) -> ModuleFacts:
+    return ModuleFacts(
+        serial=module.serial,
+        type_code=mtype.code,
+        area_m2=mtype.area_m2,
+        fibers=mtype.fiber_count,
+        lumen_diameter_m=mtype.lumen_diameter_m,
+        fiber_length_m=mtype.effective_length_m,
+        max_volume_loading_m=mtype.max_volume_loading_m,
+        max_mass_loading_kg_m2=mtype.max_mass_loading_kg_m2,
+    )
+
+
+def label(run: Run) -> str:
+    return f"run {run.id}"
+
+
+def get_run(session: Session, run_id: int, *, lock: bool = False) -> Run:
+    query = select(Run).where(Run.id == run_id)
+    if lock:
+        query = query.with_for_update()
+    run = session.exec(query).first()
+    if run is None or run.voided_at is not None:
+        raise InputError(
+            f"there is no run {run_id}",
+            field="run",
+            value=run_id,
+            expected="the number of a planned run (see `fluxledger run list`)",
+        )
+    return run
+
+
+def run_template(run: Run) -> templates.Template:
+    """The exact template the run was planned from, as stored with it."""
+    return templates.parse(
+        run.template_text.encode("utf-8"), f"{run.template_id} v{run.template_version}"
+    )
+
+
+def run_plan(run: Run) -> Plan:
+    return Plan.from_record(run.plan)
+
+
+def _allow(run: Run, action: str) -> None:
+    message = sequence.refusal(action, run.status, label(run))
+    if message:
+        raise RefusedError(message, field="run", value=run.id)
+
+
+def plan_run(
+    session: Session,
+    actor: UserAccount,
+    template_ref: str,
+    serial: str,
+    product: str,
+    lot: str,
+    inputs: Mapping[str, str],
+    *,
+    scouting: Sequence[tuple[float, float]] | None = None,
+    override_reason: str | None = None,
+) -> Run:
+    """Plan a run on a module. A module that is not fit needs an engineer's or QA's override
+    with a reason; a failing plan check (module loading) refuses the plan."""
+    require_role(actor, DECIDERS, "plan runs")
+    product = required("product", product, "the product of the run")
+    lot = required("lot", lot, "the batch or lot of the run")
+    tmpl = templates.find(template_ref)
+    module = get_module(session, serial)
+    mtype = session.get(ModuleType, module.type_id)
+    assert mtype is not None
+    journal = Journal(session, actor.login)
+    judged = verdict(facts(session, module, product, now=journal.at))
+    failing = [r for r in judged.reasons if r.outcome == "fail"]
+    if failing and not (override_reason and override_reason.strip()):
+        lines = "; ".join(f"{r.check}: {r.message}" for r in failing)
+        raise RefusedError(
+            f"module {serial} is NOT FIT: {lines}; plan anyway only with --override-reason",
+            field="serial",
+            value=serial,
+        )
+    if override_reason and not failing:
+        raise InputError(
+            "an override reason was given but the module is fit",
+            field="override_reason",
+            value=override_reason,
+            expected="no override for a module that is fit",
+        )
+    plan = make_plan(
+        tmpl, module_facts(module, mtype), inputs, product=product, lot=lot, scouting=scouting
+    )
+    bad = [c for c in plan.checks if c.verdict == "FAIL"]
+    if bad:
+        raise RefusedError(
+            "the plan fails its own checks: " + "; ".join(c.text for c in bad),
+            field="input",
+            value=bad[0].name,
+        )
+    return journal.create(
+        Run(
+            module_id=module.id,  # type: ignore[arg-type]
+            product=product,
+            lot=lot,
+            template_id=tmpl.id,
+            template_version=tmpl.version,
+            template_sha256=tmpl.sha256,
+            template_text=tmpl.text,
+            inputs=dict(inputs),
+            plan=plan.to_record(),
+            override_reason=override_reason.strip() if override_reason else None,
+        ),
+        reason="run planned" + (f" despite NOT FIT: {override_reason}" if override_reason else ""),
+    )
+
+
+def start_run(
+    session: Session, actor: UserAccount, run_id: int, *, activity_at: datetime | None = None
+) -> Run:
+    """Put the module in use for the run; its pre-use tests must be recent and passed."""
+    run = get_run(session, run_id, lock=True)
+    _allow(run, "start")
+    module = session.get(Module, run.module_id)
+    mtype = session.get(ModuleType, module.type_id) if module else None
+    assert module is not None and mtype is not None
+    at, _ = activity_time(activity_at, Journal(session, actor.login).at)
+    cleaning = latest.cleaning(session, run.module_id)
+    cleaned_at = cleaning.activity_at if cleaning else None
+    pre = latest.water(session, run.module_id, "pre_use")
+    it = latest.integrity(session, run.module_id, after=cleaned_at)
+    # The pre-use NWP must sit in the type's band around the last post-clean NWP (the
+    # baseline before the first cleaning).
+    ref = latest.water(session, run.module_id, "post_clean") or latest.water(
+        session, run.module_id, "baseline"
+    )
+    pre_ok = bool(
+        pre is not None
+        and ref is not None
+        and pre.activity_at >= ref.activity_at
+        and ref.nwp_m_s_pa > 0
+        and abs(pre.nwp_m_s_pa / ref.nwp_m_s_pa - 1) <= mtype.preuse_band * (1 + EDGE_TOLERANCE)
+    )
+    problems = sequence.start_problems(
+        at,
+        mtype.clean_hold_s or mtype.storage_limit_s,
+        cleaned_at,
+        pre.activity_at if isinstance(pre, WaterFluxTest) else None,
+        pre_ok,
+        it.activity_at if it else None,
+        bool(it and it.passed),
+    )
+    if problems:
+        raise RefusedError(
+            f"{label(run)} cannot start on {module.serial}: " + "; ".join(problems),
+            field="run",
+            value=run_id,
+        )
+    override = run.override_reason if module.dedicated_product not in (None, run.product) else None
+    use = start_use(
+        session, actor, module.serial, run.product, run.lot,
+        override_reason=override, activity_at=activity_at,
+    )  # fmt: skip
+    Journal(session, actor.login).change(
+        run,
+        {"status": "in_progress", "use_id": use.id, "started_at": use.activity_at},
+        reason="run started",
+        module_id=run.module_id,
+    )
+    return run
+
+
+def import_log(
+    session: Session,
+    actor: UserAccount,
+    run_id: int,
+    path: str | Path,
+    mapping_path: str | Path,
+    windows: Sequence[object] = (),
+) -> tuple[SkidLogFile, bool]:
+    """Attach the skid log and compute its actuals. The same file again changes nothing
+    (returns it with False); a different file needs the first one voided."""
+    import hashlib
+
+    from ledger.runs.actuals import Geometry, PhaseWindow, Range, summarize
+    from ledger.runs.mapping import load_mapping
+    from ledger.runs.skidlog import read_log
+
+    require_role(actor, RECORDERS, "import skid logs")
+    run = get_run(session, run_id, lock=True)
+    _allow(run, "import")
+    path = Path(path)
+    try:
+        content = path.read_bytes()
+    except OSError as exc:
+        raise InputError(
+            f"cannot read skid log {path}: {exc.strerror}",
+            field="file",
+            value=str(path),
+            expected="a readable CSV file",
+        ) from None
+    digest = hashlib.sha256(content).hexdigest()
+    existing = session.exec(
+        select(SkidLogFile).where(
+            SkidLogFile.run_id == run_id,
+            SkidLogFile.voided_at.is_(None),  # type: ignore[union-attr]
+        )
+    ).first()
+    if existing is not None:
+        if existing.sha256 == digest:
+            return existing, False
+        raise RefusedError(
+            f"{label(run)} already has skid log {existing.file_name} (sha256 "
+            f"{existing.sha256[:12]}); void it first (fluxledger void skid_log_file "
+            f"{existing.id} --reason ...)",
+            field="run",
+            value=run_id,
+        )
+    mapping = load_mapping(mapping_path)
+    log = read_log(path, mapping)
+    module = session.get(Module, run.module_id)
+    mtype = session.get(ModuleType, module.type_id) if module else None
+    assert mtype is not None
+    plan = run_plan(run)
+    ranges = [
+        Range(v.name, v.actual, v.low, v.high, v.phase)
+        for v in plan.values
+        if v.actual and "." not in v.actual and v.actual in templates.CHANNELS
+    ]
+    summary = summarize(
+        log,
+        Geometry(mtype.area_m2, mtype.fiber_count, mtype.lumen_diameter_m),
+        ranges,
+        [w for w in windows if isinstance(w, PhaseWindow)] or None,
+    )
+    record = Journal(session, actor.login).create(
+        SkidLogFile(
+            run_id=run_id,
+            file_name=path.name,
+            sha256=digest,
+            size_bytes=len(content),
+            content=content,
+            mapping_text=mapping.text,
+            mapping_sha256=mapping.sha256,
+            windows=[
+                {"name": w.name, "start": w.start.isoformat(), "end": w.end.isoformat()}
+                for w in windows
+                if isinstance(w, PhaseWindow)
+            ]
+            or None,
+            rows=log.rows,
+            actuals=summary.to_record(),
+        ),
+        module_id=run.module_id,
+        reason=f"skid log of {label(run)}",
+    )
+    return record, True
+
+
+def enter_qc(
+    session: Session,
+    actor: UserAccount,
+    run_id: int,
+    results: Mapping[str, str],
+    *,
+    correction_reason: str | None = None,
+) -> list[QcResult]:
+    """Record QC results (``attribute -> "82 nm"``); a second result for an attribute needs a
+    correction reason and voids the first."""
+    from ledger import units
+
+    require_role(actor, RECORDERS, "enter QC results")
+    run = get_run(session, run_id, lock=True)
+    _allow(run, "qc")
+    spec = {a.name: a for a in run_template(run).qc}
+    journal = Journal(session, actor.login)
+    out = []
+    for name, text in results.items():
+        attr = spec.get(name)
+        if attr is None:
+            raise InputError(
+                f"--result {name}: {run.template_id} has no QC attribute {name!r}",
+                field="result",
+                value=name,
+                expected="one of " + ", ".join(spec),
+            )
+        where = f"--result {name}"
+        if attr.kind is None and attr.unit.strip() != "percent":
+            number, unit = units.split_number(text, field=where, expected="a plain number")
+            if unit:
+                raise InputError(
+                    f"{where}: {text!r} should be a plain number",
+                    field="result",
+                    value=text,
+                    expected="a plain number",
+                )
+            value = number
+        else:
+            value = units.parse(text, attr.kind or "fraction", field=where, bare_ratio=False)
+        earlier = qc_results(session, run_id).get(name)
+        if earlier is not None:
+            if not correction_reason:
+                raise RefusedError(
+                    f"{label(run)} already has a {name} result ({earlier.text}); give "
+                    "--correction-reason to replace it",
+                    field="result",
+                    value=name,
+                )
+            journal.void(earlier, f"corrected: {correction_reason}")
+        out.append(
+            journal.create(
+                QcResult(run_id=run_id, attribute=name, value=value, text=text.strip(),
+                         method=attr.method),
+                module_id=run.module_id,
+            )
+        )  # fmt: skip
+    return out
+
+
+def qc_results(session: Session, run_id: int) -> dict[str, QcResult]:
+    rows = session.exec(
+        select(QcResult).where(
+            QcResult.run_id == run_id,
+            QcResult.voided_at.is_(None),  # type: ignore[union-attr]
+        )
+    ).all()
+    return {r.attribute: r for r in rows}
+
+
+def deviations(session: Session, run_id: int) -> list[Deviation]:
+    return list(
+        session.exec(select(Deviation).where(Deviation.run_id == run_id).order_by(Deviation.number))  # type: ignore[arg-type]
+    )
+
+
+def skid_log(session: Session, run_id: int) -> SkidLogFile | None:
+    return session.exec(
+        select(SkidLogFile).where(
+            SkidLogFile.run_id == run_id,
+            SkidLogFile.voided_at.is_(None),  # type: ignore[union-attr]
+        )
+    ).first()
+
+
+def add_deviation(
+    session: Session,
+    actor: UserAccount,
+    run_id: int,
+    description: str,
+    *,
+    check: str | None = None,
+    impact: str | None = None,
+) -> Deviation:
+    require_role(actor, RECORDERS, "record deviations")
+    run = get_run(session, run_id, lock=True)
+    _allow(run, "deviation")
+    description = required("description", description, "what departed from the plan, and why")
+    if check is not None:
+        names = {c.name for c in checks_of(session, run)}
+        if check not in names:
+            raise InputError(
+                f"--check {check}: {label(run)} has no check {check!r}",
+                field="check",
+                value=check,
+                expected="one of " + ", ".join(sorted(names)),
+            )
+    number = len(deviations(session, run_id)) + 1
+    return Journal(session, actor.login).create(
+        Deviation(run_id=run_id, number=number, check_name=check, description=description,
+                  impact=impact),
+        module_id=run.module_id,
+    )  # fmt: skip
+
+
+def close_deviation(
+    session: Session, actor: UserAccount, run_id: int, number: int, closure: str
+) -> Deviation:
+    require_role(actor, DECIDERS, "close deviations")
+    run = get_run(session, run_id, lock=True)
+    _allow(run, "close_deviation")
+    closure = required("closure", closure, "the investigation's conclusion and actions")
+    found = next((d for d in deviations(session, run_id) if d.number == number), None)
+    if found is None:
+        raise InputError(
+            f"{label(run)} has no deviation {number}",
+            field="number",
+            value=number,
+            expected="the number of a recorded deviation",
+        )
+    if found.closed_at is not None:
+        raise RefusedError(f"deviation {number} of {label(run)} is already closed", field="number")
+    journal = Journal(session, actor.login)
+    journal.change(
+        found,
+        {"closed_at": journal.at, "closed_by": actor.login, "closure": closure},
+        reason="deviation closed",
+        module_id=run.module_id,
+    )
+    return found
+
+
+def finish_run(
+    session: Session, actor: UserAccount, run_id: int, *, activity_at: datetime | None = None
+) -> Run:
+    """End the module's use: it awaits cleaning and its cycle count grows by one."""
+    run = get_run(session, run_id, lock=True)
+    _allow(run, "finish")
+    module = session.get(Module, run.module_id)
+    assert module is not None
+    use = end_use(session, actor, module.serial, activity_at=activity_at)
+    Journal(session, actor.login).change(
+        run,
+        {"status": "finished", "finished_at": use.ended_at},
+        reason="run finished",
+        module_id=run.module_id,
+    )
+    return run
+
+
+def submit_run(session: Session, actor: UserAccount, run_id: int) -> Run:
+    """Send the run to review; refused while a FAIL check has no recorded deviation."""
+    require_role(actor, RECORDERS, "submit runs for review")
+    run = get_run(session, run_id, lock=True)
+    _allow(run, "submit")
+    found = checks_of(session, run)
+    blocking = unexplained_failures(found, [d.check_name for d in deviations(session, run_id)])
+    if blocking:
+        names = ", ".join(c.name for c in blocking)
+        raise RefusedError(
+            f"{label(run)} cannot go to review: FAIL without a recorded deviation: {names} "
+            "(record one with `fluxledger run deviation RUN --check NAME`)",
+            field="run",
+            value=run_id,
+        )
+    journal = Journal(session, actor.login)
+    journal.change(
+        run,
+        {"status": "in_review", "submitted_at": journal.at},
+        reason="submitted for review",
+        module_id=run.module_id,
+    )
+    return run
+
+
+def checks_of(session: Session, run: Run) -> list[Check]:
+    """Every acceptance check of the run, from its plan, skid log and QC results."""
+    log = skid_log(session, run.id)  # type: ignore[arg-type]
+    return run_checks(
+        run_plan(run),
+        run_template(run),
+        log.actuals if log else None,
+        {k: v.value for k, v in qc_results(session, run.id).items()},  # type: ignore[arg-type]
+    )
