@@ -1,4 +1,4 @@
-"""`fluxledger log summarize`: a skid log's actuals and excursions without a database."""
+"""`fluxledger log summarize`: a skid log's actuals and excursions, without a database."""
 
 from __future__ import annotations
 
@@ -8,9 +8,19 @@ from typing import Any
 import typer
 
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.cli.describe import SITE_NOTE
 
 app = typer.Typer(help="Skid data logs: a quick look without a database.", no_args_is_help=True)
+
+# (channel, column label) of the channel-means table, in this order when computed
+MEANS = (
+    ("tmp", "TMP"),
+    ("pressure_drop", "ΔP"),
+    ("feed_flow", "feed"),
+    ("permeate_flow", "permeate"),
+    ("flux", "flux"),
+    ("wall_shear", "shear"),
+    ("temperature", "temp."),
+)
 
 
 @app.command("summarize")
@@ -19,20 +29,23 @@ def summarize(
     file: Path = typer.Argument(..., help="The skid's CSV data log (read, never changed)."),
     mapping: Path = typer.Option(..., "--mapping", help="TOML mapping of the file's columns."),
     limits: Path | None = typer.Option(
-        None, "--limits", help="TOML file of [[range]] tables: channel, low/high, phase."
+        None, "--limits", help="TOML file of [[range]] tables: channel, low/high, phase, name."
     ),
     area: str | None = quantity_option(None, "--area", help="Membrane area, for flux."),
     fibers: int | None = typer.Option(None, "--fibers", help="Fiber count, for wall shear."),
     lumen_diameter: str | None = quantity_option(
-        None, "--lumen-diameter", help="Fiber lumen ID, for wall shear."
+        None, "--lumen-diameter", help="Fiber lumen inner diameter, for wall shear."
     ),
     phase: list[str] = typer.Option(
-        [], "--phase", help="A phase by time when the log has no phase column: NAME=START/END."
+        [],
+        "--phase",
+        help="A phase by time, NAME=START/END (ISO 8601 with offset); repeatable. "
+        "Replaces the log's phase column.",
     ),
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Durations, TMP, flows, shear, flux, permeate volume, diavolumes, concentration factor
-    and excursions, per phase and for the run."""
+    and excursions, per phase and for the run. Excursions do not change the exit code."""
     import json
 
     from ledger import units
@@ -45,8 +58,12 @@ def summarize(
     from ledger.runs.skidlog import read_log
 
     if fibers is not None and fibers < 1:
-        raise InputError("--fibers must be at least 1", field="fibers", value=fibers,
-                         expected="a whole number of 1 or more")  # fmt: skip
+        raise InputError(
+            f"--fibers {fibers}: must be at least 1",
+            field="fibers",
+            value=fibers,
+            expected="a whole number of 1 or more",
+        )
     geometry = Geometry(
         units.parse(area, "area", field="--area", positive=True) if area else None,
         fibers,
@@ -54,64 +71,128 @@ def summarize(
         if lumen_diameter
         else None,
     )
-    ranges = load_limits(limits) if limits else []
     spans = windows(phase)
-    log = read_log(file, load_mapping(mapping))
+    try:
+        ranges = load_limits(limits) if limits else []
+        log = read_log(file, load_mapping(mapping))
+    except InputError as err:
+        raise _in_file(err) from None
     s = compute(log, geometry, ranges, spans or None)
     if as_json:
         typer.echo(json.dumps(summary_json(s), indent=2, ensure_ascii=False))
         return
-    _print(s)
+    _print(s, with_limits=bool(ranges))
 
 
-def _print(s: Any) -> None:
+def _in_file(err: Any) -> Any:
+    """The error without its field: it names its file (and line) already, and a column or
+    key that happens to share an option's name ("phase") must not be shown as that option."""
+    from ledger.errors import InputError
+
+    return InputError(err.message, value=err.value, expected=err.expected, source=err.source,
+                      line=err.line)  # fmt: skip
+
+
+def _when(t: Any) -> str:
+    return str(t.strftime("%Y-%m-%d %H:%M:%S"))
+
+
+def _print(s: Any, *, with_limits: bool) -> None:
+    from ledger.cli.describe import SITE_NOTE
     from ledger.cli.output import Q, Report, Table
 
     report = Report("log summarize")
     head = report.section("Skid log")
     head.add("file", s.source)
-    head.add("sha256", s.sha256, "SHA-256")
+    head.add("sha256", f"{s.sha256[:16]}…" if s.sha256 else None, "SHA-256")
     head.add("rows", s.rows)
-    head.add("start", s.start)
-    head.add("end", s.end)
+    head.add("start", f"{_when(s.start)} UTC")
+    head.add("end", f"{_when(s.end)} UTC")
+    scopes = [s.run, *s.phases]
 
-    def maybe(v: float | None, kind: str) -> Any:
-        return None if v is None else Q(v, kind)
+    def q(v: float | None, kind: str, unit: str | None = None) -> Any:
+        return None if v is None else Q(v, kind, unit)
 
     table = Table("Actuals", [("phase", "phase"), ("duration", "duration"),
-                              ("tmp", "mean TMP"), ("feed_flow", "mean feed"),
-                              ("permeate", "permeate"), ("final_volume", "final volume"),
-                              ("cf", "CF"), ("dv", "DV"), ("flux", "mean flux")])  # fmt: skip
-    for a in [s.run, *s.phases]:
-
-        def mean(k: str, kind: str, a: Any = a) -> Any:
-            return Q(a.stats[k].mean, kind) if k in a.stats else None
-
+                              ("permeate", "permeate"), ("initial", "start vol."),
+                              ("final", "end vol."), ("cf", "CF"), ("dv", "DV"),
+                              ("decline", "flux decline")])  # fmt: skip
+    for a in scopes:
         table.rows.append([
-            a.phase or "whole run", Q(a.duration_s, "time"), mean("tmp", "pressure"),
-            mean("feed_flow", "flow"), maybe(a.permeate_volume_m3, "volume"),
-            None if a.final_volume_m3 is None else Q(a.final_volume_m3, "volume", "mL"),
-            _round(a.concentration_factor), _round(a.diavolumes),
-            mean("flux", "flux"),
+            a.phase or "whole run", _duration(a.duration_s), q(a.permeate_volume_m3, "volume"),
+            q(a.initial_volume_m3, "volume"), q(a.final_volume_m3, "volume"),
+            _fixed(a.concentration_factor, 2), _fixed(a.diavolumes, 2),
+            None if a.flux_decline is None else f"{_fixed(100 * a.flux_decline, 1)} %",
         ])  # fmt: skip
     report.tables.append(table)
+    # permeate flow only when there is no flux (the same figure per area), to fit 100 columns
+    skip = {"permeate_flow"} if "flux" in s.run.stats else set()
+    shown = [(k, label) for k, label in MEANS if k in s.run.stats and k not in skip]
+    if shown:
+        from ledger.runs.actuals import KINDS
+
+        means = Table("Time-weighted means", [("phase", "phase"), *shown])
+        for a in scopes:
+            means.rows.append(
+                [a.phase or "whole run"] + [Q(a.stats[k].mean, KINDS[k]) for k, _ in shown]
+            )
+        report.tables.append(means)
     if s.excursions:
         from ledger.runs.actuals import KINDS
 
-        exc = Table("Excursions", [("name", "range"), ("phase", "phase"), ("side", "side"),
-                                   ("start", "start"), ("duration", "duration"),
-                                   ("worst", "worst"), ("limit", "limit")])  # fmt: skip
+        exc = Table(
+            "Excursions",
+            [
+                ("name", "range"),
+                ("phase", "phase"),
+                ("side", "side"),
+                ("start", "start (UTC)"),
+                ("duration", "duration"),
+                ("samples", "samples"),
+                ("worst", "worst"),
+                ("limit", "limit"),
+            ],
+        )
+        one_day = s.start.date() == s.end.date()
+        clock = "%H:%M:%S" if one_day else "%m-%d %H:%M:%S"
         for e in s.excursions:
-            exc.rows.append([e.name, e.phase or "—", e.side, e.start.isoformat(timespec="seconds"),
-                             Q(e.duration_s, "time", "s"), Q(e.worst, KINDS[e.channel]),
-                             Q(e.limit, KINDS[e.channel])])  # fmt: skip
+            exc.rows.append(
+                [
+                    e.name,
+                    e.phase or "—",
+                    e.side,
+                    e.start.strftime(clock),
+                    Q(e.duration_s, "time", "s"),
+                    e.samples,
+                    Q(e.worst, KINDS[e.channel]),
+                    Q(e.limit, KINDS[e.channel]),
+                ]
+            )
         report.tables.append(exc)
-    for n in s.not_computed:
-        report.notes.append(f"not computed: {n.what}: {n.why}")
-    report.notes.extend(s.assumptions)
-    report.notes.append(SITE_NOTE)
+    elif with_limits:
+        report.notes.append("no excursions: every sample is within its range")
+    for what, why in _grouped(s.not_computed):
+        report.notes.append(f"not computed: {what}: {why}")
+    report.notes.extend(f"assumption: {a}" for a in s.assumptions)
+    if with_limits:
+        report.notes.append(SITE_NOTE)
     report.print(False)
 
 
-def _round(x: float | None) -> float | None:
-    return None if x is None else round(x, 2) + 0.0  # + 0.0 turns -0.0 into 0.0
+def _grouped(items: list[Any]) -> list[tuple[str, str]]:
+    """Not-computed items with the same reason on one line."""
+    out: dict[str, list[str]] = {}
+    for n in items:
+        out.setdefault(n.why, []).append(n.what)
+    return [(", ".join(whats), why) for why, whats in out.items()]
+
+
+def _duration(seconds: float) -> str:
+    """H:MM:SS, to the second."""
+    whole = round(seconds)
+    return f"{whole // 3600}:{whole % 3600 // 60:02d}:{whole % 60:02d}"
+
+
+def _fixed(x: float | None, decimals: int) -> str | None:
+    """A plain number with fixed decimals (no "-0.0")."""
+    return None if x is None else f"{round(x, decimals) + 0.0:.{decimals}f}"

@@ -1,41 +1,78 @@
 """Actuals of a skid log, per phase and for the run, and every excursion outside a range.
 
-SI throughout. Definitions (DEVELOPERS.md and the tests rely on them):
+SI throughout (Pa gauge, m³/s, m/s, 1/s, K, m³, s). Definitions (the tests rely on them):
 
-- A phase is a run of consecutive samples with one label of the phase column, or the samples
-  of a user's time window (start <= t < end). It spans from its first sample to the first
-  sample after it (the last phase ends at the last sample); duration = end - start.
-- Integrals (permeate volume from flow) and time-weighted means use the trapezoid rule over
-  the phase's samples and the first sample after it, so phase integrals add up to the run's.
-- Permeate volume: the balance's mass change over the density when a balance is mapped, else
-  the integrated permeate flow. Initial and final retentate volume (and the flux at start and
-  end) are the value at the phase's start or end of a least-squares line through its first or
-  last 30 samples (60 for flux): robust to level-sensor noise.
-- Diavolumes = (permeate volume + final volume - initial volume) / mean retentate volume, i.e.
-  buffer added over working volume (near 0 for a pure concentration).
-- An excursion is a maximal run of consecutive samples outside a range; it starts at the first
-  sample outside and ends at the first sample back inside (or one median interval after the
-  last sample if the log ends outside), so n samples at 1 Hz last n s.
+- A phase is a run of consecutive samples with one label of the phase column (a label that
+  comes back later starts another phase of that name), or the samples of a user's time window
+  (start <= t < end). It spans from its first sample to the first sample after it (the last
+  phase ends at the last sample); duration = end - start. The run spans first to last sample.
+- Integrals (permeate volume from flow) and time-weighted means use the trapezoid rule from
+  the phase's first sample up to and including the first sample after it, so the phases'
+  integrals add up to the run's. min and max are over the phase's own samples.
+- Permeate volume: the balance's mass change over the density when permeate_mass is mapped,
+  else the integrated permeate flow.
+- Initial and final retentate volume (and the flux at start and end) are the value at the
+  phase's start or end of a least-squares line through its first or last min(30, n) samples
+  (min(60, n) for flux), robust to level-sensor noise. Concentration factor = initial / final.
+- Diavolumes = (permeate volume + final volume - initial volume) / time-weighted mean
+  retentate volume: buffer added over working volume (about 0 for a pure concentration).
+- Flux decline = 1 - flux at end / flux at start.
+- An excursion is a maximal run of consecutive samples on one side of a range (below low or
+  above high). It starts at the first sample outside and ends at the first sample back inside
+  (or out of the range's phase), or one median interval after the last sample if the log ends
+  outside, so n samples at 1 Hz last n s; worst is the most extreme value beyond the limit.
+
+Derived channels: tmp = (Pf + Pr)/2 - Pp (never with an assumed permeate pressure),
+pressure_drop = Pf - Pr, wall_shear = 32·(Q_feed/N)/(π·D³) (ledger.science.hydraulics),
+flux = Qp/A, permeate_volume (cumulative since the first sample).
 """
 
 from __future__ import annotations
 
-import math
 from collections.abc import Mapping, Sequence
 from dataclasses import asdict, dataclass, field
 from datetime import datetime, timedelta
 from typing import Any
 
 import numpy as np
+from numpy.typing import NDArray
 
 from ledger.runs.skidlog import SkidLog
 
-END_WINDOW = 30  # samples for the volume end estimates
-FLUX_WINDOW = 60
+END_WINDOW = 30  # samples for the retentate-volume end estimates
+FLUX_WINDOW = 60  # samples for the flux end estimates
+
+# Every channel a summary may hold (the mapped ones and the derived ones) and its kind.
+KINDS: dict[str, str] = {
+    "feed_pressure": "pressure",
+    "retentate_pressure": "pressure",
+    "permeate_pressure": "pressure",
+    "tmp": "pressure",
+    "pressure_drop": "pressure",
+    "feed_flow": "flow",
+    "permeate_flow": "flow",
+    "wall_shear": "shear_rate",
+    "flux": "flux",
+    "temperature": "temperature",
+    "retentate_volume": "volume",
+    "permeate_volume": "volume",
+}
+MAPPED = (
+    "feed_pressure",
+    "retentate_pressure",
+    "permeate_pressure",
+    "feed_flow",
+    "permeate_flow",
+    "temperature",
+    "retentate_volume",
+)
+VOLUME_METRICS = ("initial_volume", "final_volume", "concentration_factor", "diavolumes")
 
 
 @dataclass(frozen=True)
 class Geometry:
+    """The module's membrane area (m²), fiber count and lumen inner diameter (m)."""
+
     area_m2: float | None = None
     fibers: int | None = None
     lumen_diameter_m: float | None = None
@@ -43,6 +80,8 @@ class Geometry:
 
 @dataclass(frozen=True)
 class Range:
+    """Limits (SI) on a channel, optionally only within the samples of one phase."""
+
     name: str
     channel: str
     low: float | None
@@ -52,6 +91,8 @@ class Range:
 
 @dataclass(frozen=True)
 class PhaseWindow:
+    """A phase given by time (aware datetimes): the samples with start <= t < end."""
+
     name: str
     start: datetime
     end: datetime
@@ -69,7 +110,7 @@ class Excursion:
     name: str
     channel: str
     phase: str | None
-    side: str
+    side: str  # "low" or "high"
     limit: float
     start: datetime
     end: datetime
@@ -80,6 +121,8 @@ class Excursion:
 
 @dataclass
 class Actuals:
+    """One phase's (or, with ``phase`` None, the whole run's) actuals in SI."""
+
     phase: str | None
     start: datetime
     end: datetime
@@ -117,36 +160,49 @@ class Summary:
     assumptions: list[str]
 
     def scope(self, phase: str | None) -> Actuals | None:
+        """The run (``phase`` None) or the first phase of that name."""
         if phase is None:
             return self.run
         return next((p for p in self.phases if p.phase == phase), None)
 
     def metric(self, name: str, phase: str | None = None) -> float | None:
-        """A scalar actual by metric name (see ledger.runs.template) in a phase or the run."""
+        """A scalar actual by metric name (duration, permeate_volume, diavolumes,
+        initial_volume, final_volume, concentration_factor, flux_decline or
+        <channel>.mean|min|max) of the run or the first phase of that name; None if absent."""
         a = self.scope(phase)
         if a is None:
             return None
         if "." in name:
             channel, stat = name.split(".", 1)
             s = a.stats.get(channel)
-            return None if s is None else float(getattr(s, stat))
-        fields = {"duration": a.duration_s, "permeate_volume": a.permeate_volume_m3,
-                  "initial_volume": a.initial_volume_m3, "final_volume": a.final_volume_m3,
-                  "concentration_factor": a.concentration_factor, "diavolumes": a.diavolumes,
-                  "flux_decline": a.flux_decline}  # fmt: skip
+            if s is None or stat not in ("mean", "min", "max"):
+                return None
+            return float(getattr(s, stat))
+        fields = {
+            "duration": a.duration_s,
+            "permeate_volume": a.permeate_volume_m3,
+            "initial_volume": a.initial_volume_m3,
+            "final_volume": a.final_volume_m3,
+            "concentration_factor": a.concentration_factor,
+            "diavolumes": a.diavolumes,
+            "flux_decline": a.flux_decline,
+        }
         return fields.get(name)
 
     def to_record(self) -> dict[str, Any]:
         """JSON-ready (SI, ISO 8601 times); :meth:`from_record` reads it back exactly."""
-        return _jsonable(asdict(self))
+        out: dict[str, Any] = _jsonable(asdict(self))
+        return out
 
     @classmethod
     def from_record(cls, d: Mapping[str, Any]) -> Summary:
-        def actuals(a: dict[str, Any]) -> Actuals:
-            a = dict(a)
-            a["start"], a["end"] = _time(a["start"]), _time(a["end"])
-            a["stats"] = {k: Stats(**v) for k, v in a["stats"].items()}
-            return Actuals(**a)
+        """The inverse of :meth:`to_record`."""
+
+        def actuals(a: Mapping[str, Any]) -> Actuals:
+            b = dict(a)
+            b["start"], b["end"] = _time(b["start"]), _time(b["end"])
+            b["stats"] = {k: Stats(**v) for k, v in b["stats"].items()}
+            return Actuals(**b)
 
         return cls(
             source=d["source"],
@@ -183,102 +239,151 @@ def _jsonable(v: Any) -> Any:
     return v
 
 
-def derived_channels(log: SkidLog, geometry: Geometry) -> tuple[dict[str, Any], list[NotComputed]]:
-    """Our channels in SI from the mapped ones, and what could not be derived and why."""
+def _not_mapped(names: Sequence[str]) -> str:
+    verb = "is" if len(names) == 1 else "are"
+    return f"{', '.join(names)} {verb} not mapped"
+
+
+def derived_channels(
+    log: SkidLog, geometry: Geometry
+) -> tuple[dict[str, NDArray[np.float64]], list[NotComputed]]:
+    """Every channel in SI that the log and geometry allow, and what could not be and why."""
+    from ledger.science.hydraulics import per_fiber_flow, wall_shear_rate
+
     ch = log.channels
-    out: dict[str, Any] = {}
-    missing: list[NotComputed] = []
-    for name in ("feed_pressure", "retentate_pressure", "permeate_pressure", "feed_flow",
-                 "permeate_flow", "temperature", "retentate_volume"):  # fmt: skip
-        if name in ch:
-            out[name] = ch[name]
-    pressures = [
-        p for p in ("feed_pressure", "retentate_pressure", "permeate_pressure") if p not in ch
-    ]
-    if not pressures:
-        out["tmp"] = (ch["feed_pressure"] + ch["retentate_pressure"]) / 2 - ch["permeate_pressure"]
+    out = {name: ch[name] for name in MAPPED if name in ch}
+    missing = [NotComputed(name, "not mapped") for name in MAPPED if name not in ch]
+    pressures = ("feed_pressure", "retentate_pressure", "permeate_pressure")
+    absent = [p for p in pressures if p not in ch]
+    if not absent:
+        # TMP as ledger.science.permeability.transmembrane_pressure, over whole arrays
+        out["tmp"] = (ch["feed_pressure"] + ch["retentate_pressure"]) * 0.5
+        out["tmp"] -= ch["permeate_pressure"]
     else:
-        missing.append(NotComputed("tmp", "needs feed, retentate and permeate pressure; "
-                                   f"{', '.join(pressures)} not mapped"))  # fmt: skip
-    if "feed_pressure" in ch and "retentate_pressure" in ch:
+        why = "needs feed, retentate and permeate pressure; " + _not_mapped(absent)
+        missing.append(NotComputed("tmp", why))
+    absent = [p for p in pressures[:2] if p not in ch]
+    if not absent:
         out["pressure_drop"] = ch["feed_pressure"] - ch["retentate_pressure"]
     else:
-        missing.append(NotComputed("pressure_drop", "needs feed and retentate pressure"))
-    if "feed_flow" in ch and geometry.fibers and geometry.lumen_diameter_m:
-        # γ = 32·Q_fiber/(π·D³), laminar flow (DESIGN §4)
-        out["wall_shear"] = (
-            32 * (ch["feed_flow"] / geometry.fibers) / (math.pi * geometry.lumen_diameter_m**3)
-        )
+        why = "needs feed and retentate pressure; " + _not_mapped(absent)
+        missing.append(NotComputed("pressure_drop", why))
+    reasons = []
+    if "feed_flow" not in ch:
+        reasons.append("needs feed_flow, which is not mapped")
+    if not (geometry.fibers and geometry.lumen_diameter_m):
+        reasons.append("needs the fiber count and lumen diameter (--fibers, --lumen-diameter)")
+    if not reasons:
+        assert geometry.fibers and geometry.lumen_diameter_m  # narrowed above
+        # γ is linear in the feed flow: one factor from the science function, per m³/s
+        per_m3_s = wall_shear_rate(per_fiber_flow(1.0, geometry.fibers), geometry.lumen_diameter_m)
+        out["wall_shear"] = ch["feed_flow"] * per_m3_s
     else:
-        why = (
-            "needs feed_flow"
-            if "feed_flow" not in ch
-            else "needs the fiber count and lumen diameter (--fibers, --lumen-diameter)"
-        )
-        missing.append(NotComputed("wall_shear", why))
-    if "permeate_flow" in ch and geometry.area_m2:
+        missing.append(NotComputed("wall_shear", "; ".join(reasons)))
+    reasons = []
+    if "permeate_flow" not in ch:
+        reasons.append("needs permeate_flow, which is not mapped")
+    if not geometry.area_m2:
+        reasons.append("needs the membrane area (--area)")
+    if not reasons:
+        assert geometry.area_m2
         out["flux"] = ch["permeate_flow"] / geometry.area_m2
     else:
-        why = (
-            "needs permeate_flow"
-            if "permeate_flow" not in ch
-            else "needs the membrane area (--area)"
-        )
-        missing.append(NotComputed("flux", why))
-    if "permeate_mass" not in ch and "permeate_flow" not in ch:
-        missing.append(NotComputed("permeate_volume", "needs permeate_flow or permeate_mass"))
-    if "retentate_volume" not in ch:
+        missing.append(NotComputed("flux", "; ".join(reasons)))
+        missing.append(NotComputed("flux_decline", "needs flux, which " + "; ".join(reasons)))
+    if "permeate_mass" in ch:
+        out["permeate_volume"] = (ch["permeate_mass"] - ch["permeate_mass"][0]) / log.density_kg_m3
+    elif "permeate_flow" in ch:
+        out["permeate_volume"] = _cumulative(ch["permeate_flow"], log.time_s)
+    else:
         missing.append(
             NotComputed(
-                "retentate_volume",
-                "retentate_volume is not mapped: no volumes, concentration factor or diavolumes",
+                "permeate_volume", "needs permeate_flow or permeate_mass; neither is mapped"
+            )
+        )
+    if "retentate_volume" not in ch:
+        for what in VOLUME_METRICS:
+            missing.append(NotComputed(what, "needs retentate_volume, which is not mapped"))
+    elif "permeate_volume" not in out:
+        missing.append(
+            NotComputed(
+                "diavolumes",
+                "needs a permeate volume (permeate_flow or permeate_mass); neither is mapped",
             )
         )
     return out, missing
 
 
-def _segments(log: SkidLog, windows: Sequence[PhaseWindow] | None) -> list[tuple[str, int, int]]:
+def _cumulative(x: NDArray[np.float64], t: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Cumulative trapezoid integral of x over t, 0 at the first sample."""
+    c = np.empty_like(x)
+    c[0] = 0.0
+    if x.size > 1:
+        steps = (x[1:] + x[:-1]) * np.diff(t)
+        np.cumsum(steps, out=c[1:])
+        c[1:] *= 0.5
+    return c
+
+
+def _integral(x: NDArray[np.float64], dt: NDArray[np.float64], i: int, j: int) -> float:
+    """Trapezoid integral of x over samples i..j inclusive; ``dt`` = np.diff(time).
+
+    einsum sums the products over views without a temporary array; a BLAS dot product would
+    too, but it stalled for milliseconds next to pyarrow's threads (measured)."""
+    if j <= i:
+        return 0.0
+    w = dt[i:j]
+    return 0.5 * float(np.einsum("i,i->", x[i:j], w) + np.einsum("i,i->", x[i + 1 : j + 1], w))
+
+
+def segments(log: SkidLog, windows: Sequence[PhaseWindow] | None) -> list[tuple[str, int, int]]:
+    """Phases as (name, first sample, one past the last sample), in order."""
     n = log.rows
     if windows:
-        t_abs = log.time_s
         out = []
         for w in windows:
             a = (w.start - log.start).total_seconds()
             b = (w.end - log.start).total_seconds()
-            i0 = int(np.searchsorted(t_abs, a, side="left"))
-            i1 = int(np.searchsorted(t_abs, b, side="left"))
-            if i1 > i0:
-                out.append((w.name, i0, i1))
+            i0 = int(np.searchsorted(log.time_s, a, side="left"))
+            i1 = int(np.searchsorted(log.time_s, b, side="left"))
+            out.append((w.name, i0, i1))
         return out
-    if log.phases is None:
+    if log.phases is None or log.phase_codes is None:
         return []
-    labels = log.phases
-    change = np.flatnonzero(labels[1:] != labels[:-1]) + 1
+    codes = log.phase_codes
+    change = np.flatnonzero(codes[1:] != codes[:-1]) + 1
     starts = np.concatenate(([0], change))
     ends = np.concatenate((change, [n]))
-    return [(str(labels[a]), int(a), int(b)) for a, b in zip(starts, ends, strict=True)]
+    return [(str(log.phases[a]), int(a), int(b)) for a, b in zip(starts, ends, strict=True)]
 
 
-def _cumtrapz(x: Any, t: Any) -> Any:
-    c = np.empty_like(x)
-    c[0] = 0.0
-    np.cumsum((x[1:] + x[:-1]) * 0.5 * np.diff(t), out=c[1:])
-    return c
+def _end_value(
+    x: NDArray[np.float64],
+    t: NDArray[np.float64],
+    i0: int,
+    i1: int,
+    at: float,
+    window: int,
+    first: bool,
+) -> float:
+    """Value at time ``at`` of the least-squares line through the first (or last) samples."""
+    from ledger.science.fit import fit_line
 
-
-def _end_value(x: Any, t: Any, i0: int, i1: int, at: float, window: int, first: bool) -> float:
     k = min(window, i1 - i0)
     sl = slice(i0, i0 + k) if first else slice(i1 - k, i1)
     if k < 2:
         return float(x[sl][0])
-    tt, xx = t[sl], x[sl]
-    tm = tt.mean()
-    slope = float(((tt - tm) * (xx - xx.mean())).sum() / ((tt - tm) ** 2).sum())
-    return float(xx.mean() + slope * (at - tm))
+    return fit_line(t[sl] - at, x[sl], x_name="time", y_name="value").intercept
 
 
 def _actuals(
-    log: SkidLog, ch: dict[str, Any], cum: dict[str, Any], name: str | None, i0: int, i1: int
+    log: SkidLog,
+    ch: dict[str, NDArray[np.float64]],
+    dt: NDArray[np.float64],
+    name: str | None,
+    i0: int,
+    i1: int,
+    missing: list[NotComputed],
 ) -> Actuals:
     t, n = log.time_s, log.rows
     j = min(i1, n - 1)  # the first sample after the phase closes its last interval
@@ -293,70 +398,116 @@ def _actuals(
     )
     for key, x in ch.items():
         own = x[i0:i1]
-        mean = float((cum[key][j] - cum[key][i0]) / span) if span > 0 else float(own.mean())
+        mean = _integral(x, dt, i0, j) / span if span > 0 else float(own.mean())
         a.stats[key] = Stats(mean, float(own.min()), float(own.max()))
     raw = log.channels
-    if "permeate_mass" in raw:
-        a.permeate_volume_m3 = (
-            float(raw["permeate_mass"][j] - raw["permeate_mass"][i0]) / log.density_kg_m3
-        )
-        a.permeate_source = "permeate_mass"
-    elif "permeate_flow" in raw:
-        a.permeate_volume_m3 = float(cum["permeate_flow"][j] - cum["permeate_flow"][i0])
-        a.permeate_source = "permeate_flow"
+    if "permeate_volume" in ch:
+        a.permeate_volume_m3 = float(ch["permeate_volume"][j] - ch["permeate_volume"][i0])
+        a.permeate_source = "permeate_mass" if "permeate_mass" in raw else "permeate_flow"
+    where = "the run" if name is None else f"phase {name}"
     if "retentate_volume" in raw:
         v = raw["retentate_volume"]
         a.initial_volume_m3 = _end_value(v, t, i0, i1, t0, END_WINDOW, True)
         a.final_volume_m3 = _end_value(v, t, i0, i1, t1, END_WINDOW, False)
         if a.final_volume_m3 > 0:
             a.concentration_factor = a.initial_volume_m3 / a.final_volume_m3
+        else:
+            missing.append(
+                NotComputed(
+                    f"concentration_factor ({where})",
+                    "the final retentate volume is not above zero",
+                )
+            )
         mean_v = a.stats["retentate_volume"].mean
         if a.permeate_volume_m3 is not None and mean_v > 0:
             added = a.permeate_volume_m3 + a.final_volume_m3 - a.initial_volume_m3
             a.diavolumes = added / mean_v
+        elif a.permeate_volume_m3 is not None:
+            missing.append(
+                NotComputed(f"diavolumes ({where})", "the mean retentate volume is not above zero")
+            )
     if "flux" in ch:
         a.flux_start_m_s = _end_value(ch["flux"], t, i0, i1, t0, FLUX_WINDOW, True)
         a.flux_end_m_s = _end_value(ch["flux"], t, i0, i1, t1, FLUX_WINDOW, False)
         if a.flux_start_m_s > 0:
             a.flux_decline = 1 - a.flux_end_m_s / a.flux_start_m_s
+        else:
+            missing.append(
+                NotComputed(f"flux_decline ({where})", "the flux at the start is not above zero")
+            )
     return a
 
 
-def _excursions(log: SkidLog, ch: dict[str, Any], ranges: Sequence[Range],
-                segments: list[tuple[str, int, int]]) -> list[Excursion]:  # fmt: skip
+def _runs(mask: NDArray[np.bool_]) -> tuple[NDArray[np.intp], NDArray[np.intp]]:
+    """Starts and ends (one past) of the runs of True in ``mask``."""
+    edges = np.diff(np.concatenate(([0], mask.view(np.int8), [0])))
+    return np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)
+
+
+def _run_extremes(
+    x: NDArray[np.float64], starts: NDArray[np.intp], ends: NDArray[np.intp], high: bool
+) -> NDArray[np.float64]:
+    """Max (or min) of x over each run [start, end), in one reduceat."""
+    bounds = np.empty(2 * starts.size, dtype=np.intp)
+    bounds[0::2], bounds[1::2] = starts, ends
+    if bounds[-1] == x.size:  # reduceat runs the last index to the end by itself
+        bounds = bounds[:-1]
+    ufunc = np.maximum if high else np.minimum
+    return ufunc.reduceat(x, bounds)[0::2]
+
+
+def _excursions(
+    log: SkidLog,
+    ch: dict[str, NDArray[np.float64]],
+    ranges: Sequence[Range],
+    spans: list[tuple[str, int, int]],
+) -> list[Excursion]:
     t, n = log.time_s, log.rows
+    owner = np.full(n, -1, dtype=np.int32)
+    for k, (_, i0, i1) in enumerate(spans):
+        owner[i0:i1] = k
+    step = log.median_step_s or 0.0
     found: list[Excursion] = []
     for r in ranges:
         x = ch.get(r.channel)
         if x is None:
             continue
-        scope = np.ones(n, dtype=bool)
+        scope = None
         if r.phase is not None:
-            scope[:] = False
-            for name, i0, i1 in segments:
+            scope = np.zeros(n, dtype=bool)
+            for name, i0, i1 in spans:
                 if name == r.phase:
                     scope[i0:i1] = True
-        low = -np.inf if r.low is None else r.low
-        high = np.inf if r.high is None else r.high
-        out = scope & ((x < low) | (x > high))
-        if not out.any():
-            continue
-        edges = np.diff(np.concatenate(([0], out.view(np.int8), [0])))
-        for a, b in zip(np.flatnonzero(edges == 1), np.flatnonzero(edges == -1), strict=True):
-            seg = x[a:b]
-            above = r.high is not None and float(seg.max()) > high
-            side = "high" if above else "low"
-            worst = float(seg.max()) if above else float(seg.min())
-            end_t = float(t[b]) if b < n else float(t[n - 1]) + log.median_step_s
-            phase = next((nm for nm, i0, i1 in segments if i0 <= a < i1), None)
-            found.append(Excursion(
-                name=r.name, channel=r.channel, phase=phase, side=side,
-                limit=float(high if above else low),
-                start=log.start + timedelta(seconds=float(t[a])),
-                end=log.start + timedelta(seconds=end_t),
-                duration_s=end_t - float(t[a]), worst=worst, samples=int(b - a),
-            ))  # fmt: skip
-    found.sort(key=lambda e: (e.start, e.name))
+        for side, limit in (("low", r.low), ("high", r.high)):
+            if limit is None:
+                continue
+            out = x > limit if side == "high" else x < limit
+            if scope is not None:
+                out &= scope
+            starts, ends = _runs(out)
+            if starts.size == 0:
+                continue
+            worst = _run_extremes(x, starts, ends, side == "high")
+            t_end = np.where(ends < n, t[np.minimum(ends, n - 1)], t[n - 1] + step)
+            for a, b, w, te in zip(
+                starts.tolist(), ends.tolist(), worst.tolist(), t_end.tolist(), strict=True
+            ):
+                k = int(owner[a])
+                found.append(
+                    Excursion(
+                        name=r.name,
+                        channel=r.channel,
+                        phase=spans[k][0] if k >= 0 else None,
+                        side=side,
+                        limit=float(limit),
+                        start=log.start + timedelta(seconds=float(t[a])),
+                        end=log.start + timedelta(seconds=te),
+                        duration_s=te - float(t[a]),
+                        worst=w,
+                        samples=b - a,
+                    )
+                )
+    found.sort(key=lambda e: (e.start, e.name, e.side))
     return found
 
 
@@ -366,17 +517,29 @@ def summarize(
     ranges: Sequence[Range] = (),
     windows: Sequence[PhaseWindow] | None = None,
 ) -> Summary:
-    """The run's and each phase's actuals, and every excursion outside ``ranges``."""
+    """The run's and each phase's actuals, every excursion outside ``ranges``, and what could
+    not be computed with the reason."""
     ch, missing = derived_channels(log, geometry)
-    cum = {k: _cumtrapz(v, log.time_s) for k, v in ch.items()}
-    segments = _segments(log, windows)
-    run = _actuals(log, ch, cum, None, 0, log.rows)
-    run.end = log.start + timedelta(seconds=float(log.time_s[-1]))
-    phases = [_actuals(log, ch, cum, name, i0, i1) for name, i0, i1 in segments]
+    spans = segments(log, windows)
+    for w_name, i0, i1 in spans:
+        if i1 <= i0:
+            missing.append(NotComputed(f"phase {w_name}", "no samples in its time window"))
+    spans = [s for s in spans if s[2] > s[1]]
+    dt = np.diff(log.time_s)
+    run = _actuals(log, ch, dt, None, 0, log.rows, missing)
+    phases = [_actuals(log, ch, dt, name, i0, i1, missing) for name, i0, i1 in spans]
+    names = list(dict.fromkeys(s[0] for s in spans))
     for r in ranges:
         if r.channel not in ch:
-            why = next((m.why for m in missing if m.what == r.channel), "not mapped")
+            why = next((m.why for m in missing if m.what == r.channel), "not a channel")
             missing.append(NotComputed(f"range {r.name}", f"{r.channel}: {why}"))
+        elif r.phase is not None and r.phase not in names:
+            known = ", ".join(names) if names else "none"
+            missing.append(
+                NotComputed(
+                    f"range {r.name}", f"phase {r.phase!r} is not in the log (phases: {known})"
+                )
+            )
     return Summary(
         source=log.source,
         sha256=log.sha256,
@@ -385,16 +548,10 @@ def summarize(
         end=run.end,
         run=run,
         phases=phases,
-        excursions=_excursions(log, ch, ranges, segments),
+        excursions=_excursions(log, ch, ranges, spans),
         not_computed=missing,
         assumptions=list(log.assumptions),
     )
-
-
-KINDS = {"feed_pressure": "pressure", "retentate_pressure": "pressure",
-         "permeate_pressure": "pressure", "tmp": "pressure", "pressure_drop": "pressure",
-         "feed_flow": "flow", "permeate_flow": "flow", "wall_shear": "shear_rate",
-         "flux": "flux", "temperature": "temperature", "retentate_volume": "volume"}  # fmt: skip
 
 
 def summary_json(s: Summary) -> dict[str, Any]:
@@ -406,30 +563,53 @@ def summary_json(s: Summary) -> dict[str, Any]:
 
     def actuals(a: Actuals) -> dict[str, Any]:
         return {
-            "phase": a.phase, "start": a.start.isoformat(), "end": a.end.isoformat(),
-            "samples": a.samples, "duration": q(a.duration_s, "time"),
+            "phase": a.phase,
+            "start": a.start.isoformat(),
+            "end": a.end.isoformat(),
+            "samples": a.samples,
+            "duration": q(a.duration_s, "time"),
             "permeate_volume": q(a.permeate_volume_m3, "volume"),
             "permeate_source": a.permeate_source,
             "initial_volume": q(a.initial_volume_m3, "volume"),
             "final_volume": q(a.final_volume_m3, "volume"),
-            "concentration_factor": a.concentration_factor, "diavolumes": a.diavolumes,
-            "flux_start": q(a.flux_start_m_s, "flux"), "flux_end": q(a.flux_end_m_s, "flux"),
+            "concentration_factor": a.concentration_factor,
+            "diavolumes": a.diavolumes,
+            "flux_start": q(a.flux_start_m_s, "flux"),
+            "flux_end": q(a.flux_end_m_s, "flux"),
             "flux_decline": a.flux_decline,
-            "channels": {k: {"mean": q(v.mean, KINDS[k]), "min": q(v.min, KINDS[k]),
-                             "max": q(v.max, KINDS[k])} for k, v in a.stats.items()},
-        }  # fmt: skip
+            "channels": {
+                k: {
+                    "mean": q(v.mean, KINDS[k]),
+                    "min": q(v.min, KINDS[k]),
+                    "max": q(v.max, KINDS[k]),
+                }
+                for k, v in a.stats.items()
+            },
+        }
 
     return {
-        "file": s.source, "sha256": s.sha256, "rows": s.rows,
-        "start": s.start.isoformat(), "end": s.end.isoformat(),
-        "run": actuals(s.run), "phases": [actuals(p) for p in s.phases],
+        "file": s.source,
+        "sha256": s.sha256,
+        "rows": s.rows,
+        "start": s.start.isoformat(),
+        "end": s.end.isoformat(),
+        "run": actuals(s.run),
+        "phases": [actuals(p) for p in s.phases],
         "excursions": [
-            {"name": e.name, "channel": e.channel, "phase": e.phase, "side": e.side,
-             "limit": q(e.limit, KINDS[e.channel]), "start": e.start.isoformat(),
-             "end": e.end.isoformat(), "duration": q(e.duration_s, "time"),
-             "worst": q(e.worst, KINDS[e.channel]), "samples": e.samples}
+            {
+                "name": e.name,
+                "channel": e.channel,
+                "phase": e.phase,
+                "side": e.side,
+                "limit": q(e.limit, KINDS[e.channel]),
+                "start": e.start.isoformat(),
+                "end": e.end.isoformat(),
+                "duration": q(e.duration_s, "time"),
+                "worst": q(e.worst, KINDS[e.channel]),
+                "samples": e.samples,
+            }
             for e in s.excursions
         ],
         "not_computed": [{"what": n.what, "why": n.why} for n in s.not_computed],
         "assumptions": list(s.assumptions),
-    }  # fmt: skip
+    }

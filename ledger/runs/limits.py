@@ -1,15 +1,19 @@
-"""Channel ranges for `log summarize --limits FILE` (TOML): one [[range]] table each.
+"""Channel ranges for `fluxledger log summarize --limits FILE` (TOML), one [[range]] each:
 
-[[range]]
-channel = "tmp"      # a derived channel (see ledger.runs.actuals.KINDS)
-low = "0.2 bar"      # optional; at least one of low and high
-high = "1.2 bar"
-phase = "diafilter"  # optional: only the samples of this phase
-name = "TMP"         # optional label, default the channel
+    [[range]]
+    channel = "tmp"      # a channel of ledger.runs.actuals.KINDS
+    low = "0.2 bar"      # optional; at least one of low and high
+    high = "1.2 bar"
+    phase = "diafilter"  # optional: only the samples of this phase
+    name = "TMP"         # optional label, default the channel
+
+Limits become SI (ledger.units). Every mistake is an InputError naming the file and the key
+(and the line, when the TOML itself is malformed).
 """
 
 from __future__ import annotations
 
+import re
 import tomllib
 from pathlib import Path
 
@@ -17,54 +21,119 @@ from ledger import units
 from ledger.errors import InputError
 from ledger.runs.actuals import KINDS, Range
 
+KEYS = ("channel", "low", "high", "phase", "name")
+_TOML_LINE = re.compile(r"\(at line (\d+), column (\d+)\)")
+
 
 def load_limits(path: str | Path) -> list[Range]:
+    """Read the limits file at ``path`` into ranges (SI)."""
     path = Path(path)
     source = str(path)
     try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
-    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError) as exc:
+        text = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as exc:
+        why = exc.strerror if isinstance(exc, OSError) else "it is not UTF-8 text"
         raise InputError(
-            f"{source}: cannot read the limits file ({exc})",
+            f"cannot read the limits file: {why}",
             field="limits",
             value=source,
-            expected="a TOML file of [[range]] tables",
+            expected="a readable TOML file",
+            source=source,
         ) from None
-    raw = data.get("range")
-    if set(data) - {"range"} or not isinstance(raw, list) or not raw:
+    return parse_limits(text, source)
+
+
+def _fail(
+    source: str, key: str, message: str, value: object = None, expected: str = ""
+) -> InputError:
+    return InputError(
+        f"{key}: {message}", field=key, value=value, expected=expected or None, source=source
+    )
+
+
+def parse_limits(text: str, source: str) -> list[Range]:
+    """Validate a limits file's TOML text; ``source`` is named in every error."""
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        found = _TOML_LINE.search(str(exc))
         raise InputError(
-            f"{source}: expected one or more [[range]] tables",
+            f"not valid TOML: {exc}",
             field="limits",
-            value=sorted(data),
+            value=source,
             expected="[[range]] tables",
+            source=source,
+            line=int(found.group(1)) if found else None,
+        ) from None
+    for key in data:
+        if key != "range":
+            raise _fail(source, key, "unknown table", key, "[[range]] tables")
+    raw = data.get("range")
+    if not isinstance(raw, list) or not raw:
+        raise _fail(source, "range", "no [[range]] tables", raw, "one or more [[range]] tables")
+    return [_range(source, f"range[{i}]", spec) for i, spec in enumerate(raw, start=1)]
+
+
+def _range(source: str, key: str, spec: object) -> Range:
+    if not isinstance(spec, dict):
+        raise _fail(source, key, "expected a [[range]] table", spec)
+    for k in spec:
+        if k not in KEYS:
+            raise _fail(source, f"{key}.{k}", "unknown key", k, ", ".join(KEYS))
+    channel = spec.get("channel")
+    if channel not in KINDS:
+        raise _fail(
+            source,
+            f"{key}.channel",
+            f"unknown channel {channel!r}",
+            channel,
+            "one of " + ", ".join(KINDS),
         )
-    out = []
-    for i, spec in enumerate(raw, start=1):
-        key = f"range[{i}]"
+    assert isinstance(channel, str)
+    if "low" not in spec and "high" not in spec:
+        raise _fail(
+            source,
+            f"{key}.low",
+            "a range needs low, high or both",
+            None,
+            f'e.g. low = "{units.KINDS[KINDS[channel]].example.split(",")[0]}"',
+        )
+    bounds: dict[str, float] = {}
+    for end in ("low", "high"):
+        if end in spec:
+            bounds[end] = _limit(source, f"{key}.{end}", spec[end], KINDS[channel])
+    if "low" in bounds and "high" in bounds and bounds["low"] > bounds["high"]:
+        raise _fail(
+            source,
+            f"{key}.low",
+            f"low {spec['low']!r} is above high {spec['high']!r}",
+            spec["low"],
+            "low <= high",
+        )
+    texts = {}
+    for k in ("phase", "name"):
+        value = spec.get(k)
+        if value is not None and (not isinstance(value, str) or not value.strip()):
+            raise _fail(source, f"{key}.{k}", f"expected text, got {value!r}", value)
+        texts[k] = value
+    return Range(
+        texts["name"] or channel, channel, bounds.get("low"), bounds.get("high"), texts["phase"]
+    )
 
-        def fail(
-            k: str, message: str, value: object = None, expected: str = "", key: str = key
-        ) -> InputError:
-            return InputError(f"{source}: {key}.{k}: {message}", field=f"{key}.{k}", value=value,
-                              expected=expected or None)  # fmt: skip
 
-        unknown = set(spec) - {"channel", "low", "high", "phase", "name"}
-        if unknown:
-            raise fail(sorted(unknown)[0], "unknown key", None, "channel, low, high, phase, name")
-        channel = spec.get("channel")
-        if channel not in KINDS:
-            raise fail("channel", f"unknown channel {channel!r}", channel, ", ".join(KINDS))
-        if "low" not in spec and "high" not in spec:
-            raise fail("low", "a range needs low, high or both")
-        bounds = {}
-        for end in ("low", "high"):
-            if end in spec:
-                try:
-                    bounds[end] = units.parse(str(spec[end]), KINDS[channel], field=f"{key}.{end}")
-                except InputError as exc:
-                    raise fail(end, exc.message.removeprefix(f"{key}.{end}: "), spec[end]) from None
-        if "low" in bounds and "high" in bounds and bounds["low"] > bounds["high"]:
-            raise fail("low", "low is above high", (spec["low"], spec["high"]))
-        out.append(Range(str(spec.get("name", channel)), channel, bounds.get("low"),
-                         bounds.get("high"), spec.get("phase")))  # fmt: skip
-    return out
+def _limit(source: str, key: str, value: object, kind: str) -> float:
+    example = units.KINDS[kind].example.split(",")[0]
+    if not isinstance(value, str):
+        raise _fail(
+            source,
+            key,
+            f"{value!r} has no unit",
+            value,
+            f'a quoted {kind.replace("_", " ")} with its unit, e.g. "{example}"',
+        )
+    try:
+        return units.parse(value, kind, field=key)
+    except InputError as exc:
+        raise _fail(
+            source, key, exc.message.removeprefix(f"{key}: "), value, exc.expected or ""
+        ) from None

@@ -134,8 +134,13 @@ def parse_mapping(text: str, source: str) -> Mapping:
         cmap = _channel(source, name, spec)
         key = f"channels.{name}.column"
         if cmap.column in used:
-            raise _fail(source, key, f"column {cmap.column!r} is already mapped by "
-                        f"{used[cmap.column]}", cmap.column, "one column per channel")  # fmt: skip
+            raise _fail(
+                source,
+                key,
+                f"column {cmap.column!r} is already mapped by {used[cmap.column]}",
+                cmap.column,
+                "one column per channel",
+            )
         used[cmap.column] = key
         channels[name] = cmap
     return Mapping(
@@ -153,8 +158,9 @@ def parse_mapping(text: str, source: str) -> Mapping:
 def _channel(source: str, name: str, spec: object) -> ChannelMap:
     key = f"channels.{name}"
     if name not in CHANNEL_KINDS:
-        raise _fail(source, key, f"unknown channel {name!r}", name,
-                    "one of " + ", ".join(CHANNEL_KINDS))  # fmt: skip
+        raise _fail(
+            source, key, f"unknown channel {name!r}", name, "one of " + ", ".join(CHANNEL_KINDS)
+        )
     example = '{ column = "PT-01", unit = "psi" }' if name != "phase" else '{ column = "Step" }'
     if not isinstance(spec, dict):
         raise _fail(source, key, f"expected an inline table, got {spec!r}", spec, example)
@@ -173,8 +179,13 @@ def _channel(source: str, name: str, spec: object) -> ChannelMap:
             raise _fail(source, f"{key}.density", "only permeate_mass takes a density")
         return ChannelMap(name, column, None)
     if unit is None:
-        raise _fail(source, f"{key}.unit", "is missing", None,
-                    f"the column's unit, e.g. {units.KINDS[kind].example}")  # fmt: skip
+        raise _fail(
+            source,
+            f"{key}.unit",
+            "is missing",
+            None,
+            f"the column's unit, e.g. {units.KINDS[kind].example}",
+        )
     unit = _text(source, f"{key}.unit", unit, f"e.g. {units.KINDS[kind].example}")
     offset = _convert(source, f"{key}.unit", 0.0, unit, kind)
     scale = _convert(source, f"{key}.unit", 1.0, unit, kind) - offset
@@ -191,20 +202,27 @@ def _convert(source: str, key: str, value: float, unit: str, kind: str) -> float
         return units.to_si(value, unit, kind, field=key, raw=unit)
     except InputError as exc:
         # units.to_si already turns pint's own errors into InputError
-        raise _fail(source, key, exc.message.removeprefix(f"{key}: "), unit,
-                    exc.expected or "") from None  # fmt: skip
+        raise _fail(
+            source, key, exc.message.removeprefix(f"{key}: "), unit, exc.expected or ""
+        ) from None
 
 
 def _quantity(source: str, key: str, value: object, kind: str, *, positive: bool) -> float:
     example = units.KINDS[kind].example.split(",")[0]
     if not isinstance(value, str):
-        raise _fail(source, key, f"{value!r} has no unit", value,
-                    f'a quoted {kind} with its unit, e.g. "{example}"')  # fmt: skip
+        raise _fail(
+            source,
+            key,
+            f"{value!r} has no unit",
+            value,
+            f'a quoted {kind} with its unit, e.g. "{example}"',
+        )
     try:
         return units.parse(value, kind, field=key, positive=positive)
     except InputError as exc:
-        raise _fail(source, key, exc.message.removeprefix(f"{key}: "), value,
-                    exc.expected or "") from None  # fmt: skip
+        raise _fail(
+            source, key, exc.message.removeprefix(f"{key}: "), value, exc.expected or ""
+        ) from None
 
 
 def _timezone(source: str, tz: object) -> str:
@@ -230,6 +248,7 @@ def _time_format(source: str, fmt: object) -> str:
     try:
         datetime.strptime(sample.strftime(fmt), fmt)
     except ValueError as exc:
-        raise _fail(source, "time.format", f"{fmt!r} is not a usable strptime format ({exc})",
-                    fmt, expected) from None  # fmt: skip
+        raise _fail(
+            source, "time.format", f"{fmt!r} is not a usable strptime format ({exc})", fmt, expected
+        ) from None
     return fmt

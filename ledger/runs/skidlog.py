@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import csv
 import hashlib
+import threading
 from dataclasses import dataclass, field
 from datetime import UTC, datetime, timedelta
 from pathlib import Path
@@ -65,6 +66,30 @@ def file_sha256(path: Path) -> str:
     return h.hexdigest()
 
 
+class _Digest(threading.Thread):
+    """file_sha256 of ``path`` on a daemon thread; :meth:`result` waits for it."""
+
+    def __init__(self, path: Path) -> None:
+        super().__init__(daemon=True)
+        self.path = path
+        self.value: str | None = None
+        self.error: OSError | None = None
+        self.start()
+
+    def run(self) -> None:
+        try:
+            self.value = file_sha256(self.path)
+        except OSError as exc:  # the file went away after it was read
+            self.error = exc
+
+    def result(self) -> str:
+        self.join()
+        if self.value is None:
+            raise InputError(f"cannot read the skid log: {self.error}", field="file",
+                             source=str(self.path))  # fmt: skip
+        return self.value
+
+
 class _Where:
     """Names file lines: the physical line of data row i and the text of one of its cells.
 
@@ -82,7 +107,7 @@ class _Where:
             next(reader, None)
             seen = -1
             for record in reader:
-                if not record:  # the CSV reader skips blank lines as well
+                if not record:  # a blank line: pyarrow skips it, so it is no data row
                     continue
                 seen += 1
                 if seen == row:
@@ -103,25 +128,23 @@ class _Where:
 
 def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> SkidLog:
     """Read the log at ``path`` through ``mapping``; ``digest`` records its SHA-256."""
-    import pandas as pd
-
     path = Path(path)
     header = _header(path)
     where = _Where(path, header)
     _check_columns(path, header, mapping)
-    wanted = [mapping.time_column] + [c.column for c in mapping.channels.values()]
-    dtypes = {c.column: "str" for n, c in mapping.channels.items() if n == "phase"}
-    if mapping.time_format:
-        dtypes[mapping.time_column] = "str"  # or pyarrow would guess ISO 8601 itself
-    try:
-        frame = pd.read_csv(path, engine="pyarrow", usecols=wanted, dtype=dtypes)
-    # pyarrow reports a malformed CSV with several error types; name the line if we can
-    except Exception as exc:
-        raise _unparseable(path, header, exc) from None
+    frame, failure = _read(path, header, mapping)
+    # Hash on another thread while this one converts: hashlib releases the GIL, and pyarrow,
+    # which used both cores for the parse, is done.
+    hashing = _Digest(path) if digest else None
     n = len(frame)
     if n == 0:
-        raise InputError("the file has a header but no data rows", field="rows",
-                         source=str(path), line=2, expected="one data row per sample")  # fmt: skip
+        raise InputError(
+            "the file has a header but no data rows",
+            field="rows",
+            source=str(path),
+            line=2,
+            expected="one data row per sample",
+        )
     ns = _times(frame[mapping.time_column], mapping, where)
     channels: dict[str, NDArray[np.float64]] = {}
     phases = codes = None
@@ -136,6 +159,8 @@ def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> Skid
             np.add(si, cmap.offset, out=si)
         channels[name] = si
     del frame
+    if failure is not None:  # read as text, every cell passed: say what pandas said
+        raise _unparseable(path, header, failure)
     t = (ns - ns[0]).astype(np.float64) / 1e9
     median = _check_gaps(t, mapping, where)
     assumptions = []
@@ -148,7 +173,7 @@ def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> Skid
             density = given
     return SkidLog(
         source=str(path),
-        sha256=file_sha256(path) if digest else None,
+        sha256=hashing.result() if hashing else None,
         rows=n,
         start=EPOCH + timedelta(microseconds=int(ns[0]) // 1000),
         time_s=t,
@@ -161,20 +186,57 @@ def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> Skid
     )
 
 
+def _read(path: Path, header: list[str], mapping: Mapping) -> tuple[Any, Exception | None]:
+    """The mapped columns, their types as pyarrow infers them (so that "true" or "12 psi" in
+    a number column stays text and is refused below, not cast to a number).
+
+    If pandas cannot convert a column (an integer column with an empty cell), read every
+    column as text instead, so that the checks below name the first bad cell and its line;
+    the exception comes back with it.
+    """
+    import pandas as pd
+
+    wanted = [mapping.time_column] + [c.column for c in mapping.channels.values()]
+    # (phase labels need no "str" dtype: pandas would cast the column again, and _labels
+    # takes labels of any type)
+    dtypes = {}
+    if mapping.time_format:
+        dtypes[mapping.time_column] = "str"  # or pyarrow would guess ISO 8601 itself
+    try:
+        return pd.read_csv(path, engine="pyarrow", usecols=wanted, dtype=dtypes), None
+    # pandas and pyarrow report bad cells and malformed CSV with several error types
+    except Exception as exc:
+        try:
+            text = pd.read_csv(path, engine="pyarrow", usecols=wanted, dtype="str")
+        except Exception:
+            raise _unparseable(path, header, exc) from None
+        return text, exc
+
+
 def _header(path: Path) -> list[str]:
     try:
         with path.open(newline="", encoding="utf-8-sig") as f:
             header = next(csv.reader(f), None)
     except OSError as exc:
-        raise InputError(f"cannot read the skid log: {exc.strerror}", field="file",
-                         value=str(path), source=str(path),
-                         expected="a readable CSV file")  # fmt: skip
+        raise InputError(
+            f"cannot read the skid log: {exc.strerror}",
+            field="file",
+            value=str(path),
+            source=str(path),
+            expected="a readable CSV file",
+        ) from None
     except (UnicodeDecodeError, csv.Error) as exc:
-        raise InputError(f"the header is not CSV text in UTF-8 ({exc})", field="header",
-                         source=str(path), line=1)  # fmt: skip
+        raise InputError(
+            f"the header is not CSV text in UTF-8 ({exc})", field="header", source=str(path), line=1
+        ) from None
     if not header or not any(h.strip() for h in header):
-        raise InputError("the file is empty", field="header", source=str(path), line=1,
-                         expected="a header line of column names, then data rows")  # fmt: skip
+        raise InputError(
+            "the file is empty",
+            field="header",
+            source=str(path),
+            line=1,
+            expected="a header line of column names, then data rows",
+        )
     return header
 
 
@@ -232,7 +294,12 @@ def _numbers(col: Any, column: str, where: _Where) -> NDArray[np.float64]:
     finite = np.isfinite(values)
     if not finite.all():
         i = int(np.argmin(finite))
-        what = "an empty cell ({text})" if np.isnan(values[i]) else "{text} is not finite"
+        if not np.isnan(values[i]):
+            what = "{text} is not finite"
+        elif (where.cell(i, column)[1] or "").strip():
+            what = "{text} is a missing-value mark"  # NA, n/a, NaN, null... (pyarrow's list)
+        else:
+            what = "an empty cell"
         raise where.error(i, column, f"{what}; expected a number")
     return values
 
@@ -257,9 +324,12 @@ def _check_gaps(t: NDArray[np.float64], mapping: Mapping, where: _Where) -> floa
     if gap.any():
         i = int(np.argmax(gap))
         how = "time.max_gap" if mapping.max_gap_s is not None else f"{GAP_FACTOR:g} x the median"
-        raise where.error(i + 1, mapping.time_column,
-                          f"{{text}} is {steps[i]:g} s after the sample before, a gap over "
-                          f"{allowed:g} s ({how}; set time.max_gap in the mapping to allow more)")  # fmt: skip
+        raise where.error(
+            i + 1,
+            mapping.time_column,
+            f"{{text}} is {steps[i]:g} s after the sample before, a gap over "
+            f"{allowed:g} s ({how}; time.max_gap in the mapping allows more)",
+        )
     return median
 
 
@@ -292,8 +362,11 @@ def _times(col: Any, mapping: Mapping, where: _Where) -> NDArray[np.int64]:
         i = int(np.argmax(back))
         line, _ = where.cell(i, column)
         what = "repeats the time of" if steps[i] == 0 else "is earlier than"
-        raise where.error(i + 1, column, f"the time {{text}} {what} line {line}; expected "
-                          "times that increase from line to line")  # fmt: skip
+        raise where.error(
+            i + 1,
+            column,
+            f"the time {{text}} {what} line {line}; expected times that increase from line to line",
+        )
     return ns
 
 
@@ -301,8 +374,8 @@ def _strptime(col: Any, fmt: str) -> Any:
     """Parse with pyarrow's strptime (fast); if it cannot read every row (e.g. %f, which it
     lacks), pandas parses the column with the full strptime."""
     import pandas as pd
-    import pyarrow as pa
-    import pyarrow.compute as pc
+    import pyarrow as pa  # type: ignore[import-untyped]
+    import pyarrow.compute as pc  # type: ignore[import-untyped]
 
     utc = "%z" in fmt
     try:
@@ -326,9 +399,12 @@ def _iso(col: Any, column: str, where: _Where) -> Any:
         first = aware_np[known][0]
         differs = known & (aware_np != first)
         if differs.any():
-            raise where.error(int(np.argmax(differs)), column,
-                              "some times have a UTC offset and some do not; expected all "
-                              "times written the same way")  # fmt: skip
+            raise where.error(
+                int(np.argmax(differs)),
+                column,
+                "some times have a UTC offset and some do not; expected all "
+                "times written the same way",
+            )
     return pd.to_datetime(col, format="ISO8601", errors="coerce", utc=bool(aware_np.any()))
 
 
@@ -348,5 +424,9 @@ def _localize(index: Any, mapping: Mapping, where: _Where) -> Any:
             else f"falls in the repeated hour when the clocks went back in {tz}, and the order "
             "of the samples does not tell which one"
         )
-        raise where.error(i, mapping.time_column, f"the local time {{text}} {why}; write "
-                          "times with their UTC offset, or check time.timezone")  # fmt: skip
+        raise where.error(
+            i,
+            mapping.time_column,
+            f"the local time {{text}} {why}; write "
+            "times with their UTC offset, or check time.timezone",
+        ) from None

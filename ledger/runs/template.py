@@ -20,6 +20,7 @@ from typing import Any
 
 from ledger import units
 from ledger.errors import InputError
+from ledger.runs.actuals import KINDS
 from ledger.runs.expr import Expr, ExpressionError, compile_expr
 
 MEANINGS = ("performed", "verified", "reviewed", "approved")
@@ -34,20 +35,6 @@ MODULE_NAMES: dict[str, str | None] = {
     "max_mass_loading": "areal_mass",
 }
 
-# Skid-log channels and the kind of their values (see ledger/runs/actuals.py).
-CHANNELS: dict[str, str] = {
-    "feed_pressure": "pressure",
-    "retentate_pressure": "pressure",
-    "permeate_pressure": "pressure",
-    "tmp": "pressure",
-    "pressure_drop": "pressure",
-    "feed_flow": "flow",
-    "permeate_flow": "flow",
-    "wall_shear": "shear_rate",
-    "flux": "flux",
-    "temperature": "temperature",
-    "retentate_volume": "volume",
-}
 SCALAR_METRICS: dict[str, str | None] = {
     "duration": "time",
     "permeate_volume": "volume",
@@ -57,6 +44,9 @@ SCALAR_METRICS: dict[str, str | None] = {
     "concentration_factor": None,
     "flux_decline": None,
 }
+# Skid-log channels a parameter can follow sample by sample, and their kinds: those a summary
+# holds, except the cumulative permeate volume, which is checked as the scalar metric.
+CHANNELS: dict[str, str] = {k: v for k, v in KINDS.items() if k not in SCALAR_METRICS}
 STATISTICS = ("mean", "min", "max")
 
 # When a unit fits several kinds (L/m² is a length), the first kind listed wins.

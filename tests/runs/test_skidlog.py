@@ -1,161 +1,261 @@
-"""Skid-log reading: every bad input names file, line and column; actuals by hand-checkable
-cases; unit invariance and additivity of phases (hypothesis)."""
+"""Reading skid logs: SI arrays from the mapped columns, times in UTC, and every bad file an
+InputError naming the file, the line and the column."""
 
 from __future__ import annotations
 
-import math
+import hashlib
+import os
+from datetime import UTC, datetime
 from pathlib import Path
-from typing import Any
 
+import numpy as np
 import pytest
-from hypothesis import given, settings
-from hypothesis import strategies as st
 
 from ledger.errors import InputError
-from ledger.runs.actuals import Geometry, Range, summarize
-from ledger.runs.mapping import parse_mapping
+from ledger.runs.mapping import Mapping, parse_mapping
 from ledger.runs.skidlog import read_log
 
-MAPPING = """
+PSI = 6894.757293168  # Pa, exact by definition (NIST SP 811)
+BASIC = """
 [time]
-column = "t"
+column = "Timestamp"
+{time}
 [channels]
-feed_pressure = { column = "pf", unit = "psi" }
-retentate_pressure = { column = "pr", unit = "psi" }
-permeate_pressure = { column = "pp", unit = "psi" }
-permeate_flow = { column = "qp", unit = "mL/min" }
-retentate_volume = { column = "v", unit = "mL" }
-phase = { column = "step" }
+feed_pressure = {{ column = "PT-01", unit = "psi" }}
+permeate_flow = {{ column = "FT-02", unit = "mL/min" }}
+temperature = {{ column = "TT-01", unit = "degC" }}
+phase = {{ column = "Step" }}
 """
-HEAD = "t,step,pf,pr,pp,qp,v"
+HEADER = "Timestamp,Step,PT-01,FT-02,TT-01,Spare"
 
 
-def rows(n: int = 10, step: int = 1) -> list[str]:
-    return [f"2026-11-03T08:00:{i * step:02d}+00:00,c,10,8,1,60,{1000 - i}" for i in range(n)]
+def basic(time: str = "") -> Mapping:
+    return parse_mapping(BASIC.format(time=time), "skid.toml")
 
 
-def write(tmp_path: Path, lines: list[str], head: str = HEAD) -> Path:
-    p = tmp_path / "log.csv"
-    p.write_text("\n".join([head, *lines]) + "\n")
-    return p
+def write(path: Path, lines: list[str], header: str = HEADER) -> Path:
+    path.write_text("\n".join([header, *lines]) + "\n", encoding="utf-8")
+    return path
 
 
-def read(p: Path, mapping: str = MAPPING) -> Any:
-    return read_log(p, parse_mapping(mapping, "m.toml"))
+def rows(n: int = 5, start: str = "2026-06-01T08:00:00", step: int = 1) -> list[str]:
+    base = np.datetime64(start)
+    return [
+        f"{base + np.timedelta64(i * step, 's')},run,{10 + i},{60 + i},{20 + i},x" for i in range(n)
+    ]
+
+
+def fails(path: Path, m: Mapping | None = None) -> InputError:
+    with pytest.raises(InputError) as caught:
+        read_log(path, m or basic())
+    err = caught.value
+    assert err.source == str(path)  # every error names the file
+    return err
+
+
+def test_iso_times_and_si_values(tmp_path: Path) -> None:
+    path = write(tmp_path / "log.csv", rows(5))
+    log = read_log(path, basic())
+    assert log.rows == 5
+    assert log.start == datetime(2026, 6, 1, 8, 0, tzinfo=UTC)  # no offset: the mapping's UTC
+    assert log.time_s.tolist() == [0.0, 1.0, 2.0, 3.0, 4.0]
+    # psi exact (NIST SP 811); mL/min = 1e-6 m³ / 60 s; K = °C + 273.15 (SI brochure)
+    assert log.channels["feed_pressure"] == pytest.approx(np.arange(10, 15) * PSI, rel=1e-12)
+    assert log.channels["permeate_flow"] == pytest.approx(np.arange(60, 65) * 1e-6 / 60)
+    assert log.channels["temperature"] == pytest.approx(np.arange(20, 25) + 273.15)
+    assert set(log.channels) == {"feed_pressure", "permeate_flow", "temperature"}
+    assert log.phases is not None and log.phases.tolist() == ["run"] * 5
+    assert log.median_step_s == 1.0
+    assert log.sha256 == hashlib.sha256(path.read_bytes()).hexdigest()
+
+
+def test_the_file_is_never_changed_and_digest_is_optional(tmp_path: Path) -> None:
+    path = write(tmp_path / "log.csv", rows(5))
+    before = path.read_bytes()
+    os.utime(path, (1_000_000_000, 1_000_000_000))
+    log = read_log(path, basic(), digest=False)
+    assert log.sha256 is None
+    assert path.read_bytes() == before
+    assert path.stat().st_mtime == 1_000_000_000
+
+
+def test_offsets_are_honoured_and_may_change_at_dst(tmp_path: Path) -> None:
+    # Europe/Dublin switches from UTC+01:00 to UTC+00:00 at 01:00 UTC on 2026-10-25 (IANA tz)
+    lines = [
+        "2026-10-25T01:59:58+01:00,a,1,1,1,x",
+        "2026-10-25T01:59:59+01:00,a,1,1,1,x",
+        "2026-10-25T01:00:00+00:00,a,1,1,1,x",
+        "2026-10-25T01:00:01+00:00,a,1,1,1,x",
+    ]
+    log = read_log(write(tmp_path / "log.csv", lines), basic())
+    assert log.start == datetime(2026, 10, 25, 0, 59, 58, tzinfo=UTC)
+    assert log.time_s.tolist() == [0.0, 1.0, 2.0, 3.0]
+
+
+def test_local_times_are_placed_in_the_mapping_zone(tmp_path: Path) -> None:
+    # Irish summer time is UTC+01:00 (IANA tz database)
+    log = read_log(write(tmp_path / "log.csv", rows(3)), basic('timezone = "Europe/Dublin"'))
+    assert log.start == datetime(2026, 6, 1, 7, 0, tzinfo=UTC)
+
+
+def test_the_repeated_hour_is_placed_by_the_order_of_samples(tmp_path: Path) -> None:
+    # Local 01:00-01:59 happens twice on 2026-10-25 in Dublin; 10-min samples through it
+    first = [f"2026-10-25 01:{m:02d}:00" for m in range(0, 60, 10)]
+    lines = [
+        f"{t},a,1,1,1,x" for t in ["2026-10-25 00:50:00", *first, *first, "2026-10-25 02:00:00"]
+    ]
+    log = read_log(write(tmp_path / "log.csv", lines), basic('timezone = "Europe/Dublin"'))
+    assert log.start == datetime(2026, 10, 24, 23, 50, tzinfo=UTC)
+    assert np.diff(log.time_s).tolist() == [600.0] * 13  # strictly 10 min apart in UTC
+
+
+def test_a_time_the_clocks_skipped_names_its_line(tmp_path: Path) -> None:
+    # Dublin skips local 01:00-01:59 on 2026-03-29 (IANA tz database)
+    lines = ["2026-03-29 00:59:00,a,1,1,1,x", "2026-03-29 01:30:00,a,1,1,1,x"]
+    err = fails(write(tmp_path / "log.csv", lines), basic('timezone = "Europe/Dublin"'))
+    assert err.line == 3 and err.field == "Timestamp"
+    assert "does not exist in Europe/Dublin" in str(err)
+
+
+def test_an_ambiguous_time_that_cannot_be_placed_names_its_line(tmp_path: Path) -> None:
+    lines = ["2026-10-25 00:59:00,a,1,1,1,x", "2026-10-25 01:30:00,a,1,1,1,x"]
+    err = fails(write(tmp_path / "log.csv", lines), basic('timezone = "Europe/Dublin"'))
+    assert err.line == 3 and "repeated hour" in str(err)
 
 
 @pytest.mark.parametrize(
-    ("edit", "line", "column", "needle"),
+    ("fmt", "texts"),
     [
-        (lambda r: r.__setitem__(3, r[3].replace(",60,", ",sixty,")), 5, "qp",
-         "'sixty' is not a number"),
-        (lambda r: r.__setitem__(4, r[4].replace(",60,", ",,")), 6, "qp", "empty"),
-        (lambda r: r.__setitem__(5, r[4]), 7, "t", "repeats the time of line 6"),
-        (lambda r: r.__setitem__(5, r[2]), 7, "t", "goes back in time"),
-        (lambda r: r.__setitem__(2, r[2].replace("2026-11-03T08", "yesterday")), 4, "t",
-         "is not a time"),
+        ("%d/%m/%Y %H:%M:%S", ["01/06/2026 08:00:00", "01/06/2026 08:00:02"]),
+        ("%d/%m/%Y %H:%M:%S.%f", ["01/06/2026 08:00:00.250", "01/06/2026 08:00:02.250"]),
+        ("%d/%m/%Y %H:%M:%S %z", ["01/06/2026 09:00:00 +0100", "01/06/2026 09:00:02 +0100"]),
     ],
-)  # fmt: skip
-def test_bad_rows_name_file_line_and_column(
-    tmp_path: Path, edit: Any, line: int | None, column: str, needle: str
-) -> None:
-    r = rows()
-    edit(r)
-    with pytest.raises(InputError) as err:
-        read(write(tmp_path, r))
-    e = err.value
-    assert e.source == str(tmp_path / "log.csv") and e.field == column, str(e)
-    if line is not None:
-        assert e.line == line, str(e)
-    assert needle in str(e)
+)
+def test_a_strptime_format(tmp_path: Path, fmt: str, texts: list[str]) -> None:
+    lines = [f"{t},a,1,1,1,x" for t in texts]
+    log = read_log(write(tmp_path / "log.csv", lines), basic(f'format = "{fmt}"'))
+    assert log.start.replace(microsecond=0) == datetime(2026, 6, 1, 8, 0, tzinfo=UTC)
+    assert log.time_s.tolist() == [0.0, 2.0]
 
 
-def test_gap_is_named_and_can_be_allowed(tmp_path: Path) -> None:
-    r = rows()
-    r[6:] = [x.replace("08:00:0", "08:01:0") for x in r[6:]]
-    with pytest.raises(InputError, match="a gap of 61 s after line 7"):
-        read(write(tmp_path, r))
-    allowed = MAPPING.replace('column = "t"', 'column = "t"\nmax_gap = "2 min"')
-    assert read(write(tmp_path, r), allowed).rows == 10
+def test_blank_lines_are_counted_when_a_line_is_named(tmp_path: Path) -> None:
+    lines = rows(4)
+    lines[3] = lines[3].replace(",13,", ",thirteen,")
+    lines.insert(1, "")
+    err = fails(write(tmp_path / "log.csv", lines))
+    assert err.line == 6  # header, 1 row, a blank line, 2 rows, then the bad row
 
 
-def test_file_and_mapping_problems(tmp_path: Path) -> None:
-    with pytest.raises(InputError, match="has a header but no data rows"):
-        read(write(tmp_path, []))
-    empty = tmp_path / "empty.csv"
-    empty.write_text("")
-    with pytest.raises(InputError, match="the file is empty"):
-        read(empty)
-    with pytest.raises(InputError, match=r"channels\.permeate_flow\.column: column 'qp' is not"):
-        read(write(tmp_path, [x.replace(",60,", ",") for x in rows()], "t,step,pf,pr,pp,v"))
-    with pytest.raises(
-        InputError, match=r"m\.toml: channels\.permeate_flow\.unit: .* is a pressure"
-    ):
-        parse_mapping(MAPPING.replace('unit = "mL/min"', 'unit = "bar"'), "m.toml")
-    with pytest.raises(InputError, match="unknown channel 'feed_presure'"):
-        parse_mapping(MAPPING.replace("feed_pressure =", "feed_presure ="), "m.toml")
-    with pytest.raises(InputError, match="unknown time zone"):
-        parse_mapping(
-            MAPPING.replace('column = "t"', 'column = "t"\ntimezone = "Mars/Olympus"'), "m"
-        )
+def test_integer_columns_bom_and_a_single_row(tmp_path: Path) -> None:
+    path = tmp_path / "log.csv"
+    path.write_text("\ufeff" + HEADER + "\n2026-06-01T08:00:00,a,3,4,5,x\n", encoding="utf-8")
+    log = read_log(path, basic())
+    assert log.rows == 1 and log.time_s.tolist() == [0.0]
+    assert log.channels["feed_pressure"].tolist() == pytest.approx([3 * PSI])
 
 
-def test_hand_checkable_actuals(tmp_path: Path) -> None:
-    # 60 mL/min for 9 s (10 samples at 1 s): trapezoid exact for constant flow -> 9 mL.
-    # TMP = (10 + 8)/2 − 1 = 8 psi exactly (definition, DESIGN §4).
-    log = read(write(tmp_path, rows()))
-    s = summarize(log, Geometry(area_m2=0.01), [Range("tmp", "tmp", None, 8 * 6894.757293168 - 1)])
-    assert s.run.duration_s == 9.0
-    assert s.run.permeate_volume_m3 == pytest.approx(9e-6, rel=1e-12)
-    assert s.run.stats["tmp"].mean == pytest.approx(8 * 6894.757293168, rel=1e-12)
-    # The level falls 1 mL/s exactly, so the line-fit end values are exact: 1000 and 991 mL.
-    assert s.run.initial_volume_m3 == pytest.approx(1e-3, rel=1e-9)
-    assert s.run.final_volume_m3 == pytest.approx(0.991e-3, rel=1e-9)
-    # Every sample is above the high limit: one excursion of 10 samples lasting 10 s (log ends).
-    assert len(s.excursions) == 1 and s.excursions[0].samples == 10
-    assert s.excursions[0].duration_s == 10.0
-    names = {n.what for n in s.not_computed}
-    assert "wall_shear" in names and "tmp" not in names
+def test_density_assumption_is_reported(tmp_path: Path) -> None:
+    text = """
+[time]
+column = "Timestamp"
+[channels]
+permeate_mass = { column = "PT-01", unit = "g" }
+"""
+    log = read_log(write(tmp_path / "log.csv", rows(3)), parse_mapping(text, "m.toml"))
+    assert log.density_kg_m3 == 1000.0
+    assert log.assumptions == ["permeate density 1.0 g/mL assumed (the mapping gives none)"]
 
 
-@settings(max_examples=25, deadline=None)
-@given(scale=st.sampled_from([("psi", 1.0), ("bar", 0.0689475729), ("kPa", 6.89475729)]),
-       flow=st.sampled_from([("mL/min", 1.0), ("L/h", 0.06)]),
-       cut=st.integers(min_value=2, max_value=18))  # fmt: skip
-def test_unit_invariance_and_phase_additivity(
-    tmp_path_factory: pytest.TempPathFactory,
-    scale: tuple[str, float],
-    flow: tuple[str, float],
-    cut: int,
-) -> None:
-    tmp = tmp_path_factory.mktemp("inv")
-    lines = []
-    for i in range(20):
-        pf = (10 + math.sin(i)) * scale[1]
-        q = (60 + 5 * math.cos(i)) * flow[1]
-        lines.append(f"2026-11-03T08:00:{i:02d}+00:00,{'a' if i < cut else 'b'},{pf:.9f},"
-                     f"{8 * scale[1]:.9f},{1 * scale[1]:.9f},{q:.9f},{1000 - i}")  # fmt: skip
-    mapping = MAPPING.replace('"psi"', f'"{scale[0]}"').replace('"mL/min"', f'"{flow[0]}"')
-    s = summarize(read(write(tmp, lines), mapping))
-    ref_lines = [
-        f"2026-11-03T08:00:{i:02d}+00:00,{'a' if i < cut else 'b'},{10 + math.sin(i):.9f},8,1,"
-        f"{60 + 5 * math.cos(i):.9f},{1000 - i}"
-        for i in range(20)
-    ]
-    ref = summarize(read(write(tmp_path_factory.mktemp("ref"), ref_lines)))
-    assert s.run.permeate_volume_m3 == pytest.approx(ref.run.permeate_volume_m3, rel=1e-8)
-    assert s.run.stats["tmp"].mean == pytest.approx(ref.run.stats["tmp"].mean, rel=1e-8)
-    # Phase integrals add up to the run's (each phase closes on the next one's first sample).
-    total = sum(p.permeate_volume_m3 for p in s.phases)  # type: ignore[misc]
-    assert total == pytest.approx(s.run.permeate_volume_m3, rel=1e-12)
-    assert sum(p.duration_s for p in s.phases) == pytest.approx(s.run.duration_s)
+def edited(row: int, cell: int, text: str, n: int = 6) -> list[str]:
+    lines = rows(n)
+    cells = lines[row].split(",")
+    cells[cell] = text
+    lines[row] = ",".join(cells)
+    return lines
 
 
-def test_record_round_trip(tmp_path: Path) -> None:
-    import json
+# (lines of the file, line named, column named, words in the message); data row i is line i + 2
+BAD = {
+    "text in a number column": (edited(3, 2, "5psi"), 5, "PT-01", "'5psi' is not a number"),
+    "an empty number cell": (edited(2, 3, ""), 4, "FT-02", "an empty cell"),
+    "a missing-value mark": (edited(4, 4, "n/a"), 6, "TT-01", "'n/a' is a missing-value mark"),
+    "an infinite value": (edited(1, 2, "inf"), 3, "PT-01", "not finite"),
+    "true/false in a number column": (
+        [f"2026-06-01T08:00:0{i},a,{b},1,1,x" for i, b in enumerate(["true", "false", "true"])],
+        2,
+        "PT-01",
+        "'true' is not a number",
+    ),
+    "a duplicated time": (
+        edited(3, 0, "2026-06-01T08:00:02"),
+        5,
+        "Timestamp",
+        "repeats the time of line 4",
+    ),
+    "a time going backwards": (
+        edited(3, 0, "2026-06-01T07:59:00"),
+        5,
+        "Timestamp",
+        "is earlier than line 4",
+    ),
+    "a gap": (edited(5, 0, "2026-06-01T08:00:30"), 7, "Timestamp", "gap over 5 s"),
+    "an unreadable time": (edited(2, 0, "yesterday"), 4, "Timestamp", "'yesterday' is not a time"),
+    "an empty time": (edited(2, 0, ""), 4, "Timestamp", "an empty cell"),
+    "offsets on some times only": (
+        edited(2, 0, "2026-06-01T08:00:02+00:00"),
+        4,
+        "Timestamp",
+        "some times have a UTC offset",
+    ),
+    "an empty phase label": (edited(2, 1, ""), 4, "Step", "empty phase label"),
+}
 
-    from ledger.runs.actuals import Summary
 
-    s = summarize(read(write(tmp_path, rows())), ranges=[Range("tmp", "tmp", None, 1.0)])
-    again = Summary.from_record(json.loads(json.dumps(s.to_record())))
-    assert again == s
+@pytest.mark.parametrize("case", sorted(BAD))
+def test_each_bad_row_names_file_line_and_column(tmp_path: Path, case: str) -> None:
+    lines, line, column, words = BAD[case]
+    err = fails(write(tmp_path / "log.csv", lines))
+    assert err.line == line
+    assert str(err).startswith(f"{tmp_path / 'log.csv'}:{line}: column '{column}': ")
+    assert err.field == column
+    assert words in str(err), str(err)
+
+
+def test_max_gap_from_the_mapping(tmp_path: Path) -> None:
+    path = write(tmp_path / "log.csv", rows(4, step=20))
+    assert read_log(path, basic('max_gap = "30 s"')).rows == 4
+    err = fails(path, basic('max_gap = "10 s"'))
+    assert err.line == 3 and "gap over 10 s (time.max_gap" in str(err)
+
+
+def test_a_missing_column_lists_the_files_columns(tmp_path: Path) -> None:
+    header = HEADER.replace("FT-02", "FT-2")
+    err = fails(write(tmp_path / "log.csv", rows(3), header))
+    assert err.line == 1 and err.field == "FT-02"
+    assert "channels.permeate_flow.column of skid.toml" in str(err)
+    assert "'FT-2'" in str(err) and "'Spare'" in str(err)
+
+
+@pytest.mark.parametrize(
+    ("content", "line", "words"),
+    [
+        ("", 1, "the file is empty"),
+        ("\n\n", 1, "the file is empty"),
+        (HEADER + "\n", 2, "no data rows"),
+        (
+            HEADER + "\n2026-06-01T08:00:00,a,1,1,1,x\n2026-06-01T08:00:01,a,1,1,1,x,extra\n",
+            3,
+            "7 fields; the header has 6",
+        ),
+    ],
+)
+def test_empty_and_malformed_files(tmp_path: Path, content: str, line: int, words: str) -> None:
+    path = tmp_path / "log.csv"
+    path.write_text(content, encoding="utf-8")
+    err = fails(path)
+    assert err.line == line and words in str(err), str(err)
+
+
+def test_an_absent_file(tmp_path: Path) -> None:
+    err = fails(tmp_path / "nope.csv")
+    assert err.field == "file" and "cannot read" in str(err)
