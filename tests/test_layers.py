@@ -67,6 +67,7 @@ ABOVE = {
     "ledger/store": {"ledger.logbook", "ledger.runs", "ledger.records", "ledger.cli",
                      "ledger.rules"},
     "ledger/logbook": {"ledger.runs", "ledger.records", "ledger.cli"},
+    "ledger/runs": {"ledger.records", "ledger.cli"},
     "migrations": {"ledger.logbook", "ledger.runs", "ledger.records", "ledger.cli",
                    "ledger.rules", "ledger.science"},
 }  # fmt: skip
