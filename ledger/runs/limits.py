@@ -13,16 +13,14 @@ Limits become SI (ledger.units). Every mistake is an InputError naming the file 
 
 from __future__ import annotations
 
-import re
-import tomllib
 from pathlib import Path
 
 from ledger import units
 from ledger.errors import InputError
 from ledger.runs.actuals import KINDS, Range
+from ledger.runs.mapping import parse_toml
 
 KEYS = ("channel", "low", "high", "phase", "name")
-_TOML_LINE = re.compile(r"\(at line (\d+), column (\d+)\)")
 
 
 def load_limits(path: str | Path) -> list[Range]:
@@ -53,18 +51,7 @@ def _fail(
 
 def parse_limits(text: str, source: str) -> list[Range]:
     """Validate a limits file's TOML text; ``source`` is named in every error."""
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        found = _TOML_LINE.search(str(exc))
-        raise InputError(
-            f"not valid TOML: {exc}",
-            field="limits",
-            value=source,
-            expected="[[range]] tables",
-            source=source,
-            line=int(found.group(1)) if found else None,
-        ) from None
+    data = parse_toml(text, source, "limits", "[[range]] tables")
     for key in data:
         if key != "range":
             raise _fail(source, key, "unknown table", key, "[[range]] tables")

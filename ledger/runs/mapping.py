@@ -15,6 +15,7 @@ import tomllib
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
+from typing import Any
 
 from ledger import units
 from ledger.errors import InputError
@@ -94,20 +95,25 @@ def _text(source: str, key: str, value: object, example: str) -> str:
     return value
 
 
-def parse_mapping(text: str, source: str) -> Mapping:
-    """Validate a mapping's TOML text; ``source`` (the file name) is named in every error."""
+def parse_toml(text: str, source: str, field: str, expected: str) -> dict[str, Any]:
+    """TOML text as a dict; a syntax error names ``source`` and the line tomllib reports."""
     try:
-        data = tomllib.loads(text)
+        return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         found = _TOML_LINE.search(str(exc))
         raise InputError(
             f"not valid TOML: {exc}",
-            field="mapping",
+            field=field,
             value=source,
-            expected="a TOML mapping with [time] and [channels] tables",
+            expected=expected,
             source=source,
             line=int(found.group(1)) if found else None,
         ) from None
+
+
+def parse_mapping(text: str, source: str) -> Mapping:
+    """Validate a mapping's TOML text; ``source`` (the file name) is named in every error."""
+    data = parse_toml(text, source, "mapping", "a TOML mapping with [time] and [channels] tables")
     for key in data:
         if key not in ("time", "channels"):
             raise _fail(source, key, "unknown table", key, "the tables [time] and [channels]")
