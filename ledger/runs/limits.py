@@ -18,27 +18,14 @@ from pathlib import Path
 from ledger import units
 from ledger.errors import InputError
 from ledger.runs.actuals import KINDS, Range
-from ledger.runs.mapping import parse_toml
+from ledger.runs.mapping import parse_toml, read_text
 
 KEYS = ("channel", "low", "high", "phase", "name")
 
 
 def load_limits(path: str | Path) -> list[Range]:
     """Read the limits file at ``path`` into ranges (SI)."""
-    path = Path(path)
-    source = str(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as exc:
-        why = exc.strerror if isinstance(exc, OSError) else "it is not UTF-8 text"
-        raise InputError(
-            f"cannot read the limits file: {why}",
-            field="limits",
-            value=source,
-            expected="a readable TOML file",
-            source=source,
-        ) from None
-    return parse_limits(text, source)
+    return parse_limits(read_text(path, "limits", "a readable TOML file"), str(path))
 
 
 def _fail(

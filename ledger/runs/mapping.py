@@ -66,19 +66,23 @@ class Mapping:
 
 def load_mapping(path: str | Path) -> Mapping:
     """Read and validate the mapping file at ``path``."""
+    return parse_mapping(read_text(path, "mapping", "a readable TOML mapping file"), str(path))
+
+
+def read_text(path: str | Path, field: str, expected: str) -> str:
+    """A small UTF-8 text file (a mapping, a limits file); unreadable is an InputError."""
     path = Path(path)
     try:
-        text = path.read_text(encoding="utf-8")
+        return path.read_text(encoding="utf-8")
     except (OSError, UnicodeDecodeError) as exc:
         why = exc.strerror if isinstance(exc, OSError) else "it is not UTF-8 text"
         raise InputError(
-            f"cannot read the mapping: {why}",
-            field="mapping",
+            f"cannot read the {field} file: {why}",
+            field=field,
             value=str(path),
-            expected="a readable TOML mapping file",
+            expected=expected,
             source=str(path),
         ) from None
-    return parse_mapping(text, str(path))
 
 
 def _fail(
