@@ -68,6 +68,7 @@ ABOVE = {
                      "ledger.rules"},
     "ledger/logbook": {"ledger.runs", "ledger.records", "ledger.cli"},
     "ledger/runs": {"ledger.records", "ledger.cli"},
+    "ledger/records": {"ledger.cli"},
     "migrations": {"ledger.logbook", "ledger.runs", "ledger.records", "ledger.cli",
                    "ledger.rules", "ledger.science"},
 }  # fmt: skip

@@ -17,6 +17,7 @@ import sys
 import tomllib
 from datetime import datetime, timedelta
 from pathlib import Path
+from typing import Any
 
 import typer
 
@@ -27,22 +28,28 @@ SAMPLES = Path(__file__).resolve().parents[2] / "sample_records"
 
 
 def _run(args: list[str], stdin: str = "") -> tuple[int, str]:
-    """Run one fluxledger command in-process; return its exit code and stdout."""
+    """Run one fluxledger command in-process; return its exit code and stdout (and, when it
+    failed, stderr)."""
     from typer.main import get_command
 
     from ledger.cli.main import app
 
-    out = io.StringIO()
+    out, err = io.StringIO(), io.StringIO()
     code = 0
     saved_stdin, sys.stdin = sys.stdin, io.StringIO(stdin)
-    with contextlib.redirect_stdout(out), contextlib.ExitStack() as restore:
+    with (
+        contextlib.redirect_stdout(out),
+        contextlib.redirect_stderr(err),
+        contextlib.ExitStack() as restore,
+    ):
         restore.callback(setattr, sys, "stdin", saved_stdin)
         try:
             result = get_command(app).main(args=args, prog_name="fluxledger", standalone_mode=False)
             code = result if isinstance(result, int) else 0
         except typer.Exit as exc:
             code = exc.exit_code
-    return code, out.getvalue()
+    # A refusal's message goes to stderr; the transcript shows it.
+    return code, out.getvalue() + (err.getvalue() if code else "")
 
 
 def _shown(path: Path) -> str:
@@ -161,8 +168,8 @@ def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
                 f"{users[admin]['password']}\n{u['password']}\n",
             ))  # fmt: skip
     now = utc_now()
-    steps: list[tuple[str | None, list[str], str, str | None]] = [
-        ("Users of the logbook" if i == 0 else None, args, stdin, None)
+    steps: list[tuple[str | None, list[str], str, str | None, int]] = [
+        ("Users of the logbook" if i == 0 else None, args, stdin, None, 0)
         for i, (args, stdin) in enumerate(setup)
     ]
     steps += _scenario_steps(scenario["steps"], users, samples, now)
@@ -173,14 +180,16 @@ def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
 
     write_log(skid_log, run_start)
     runs = tomllib.loads((samples / "run_history.toml").read_text(encoding="utf-8"))
+    seal = _demo_seal(out)
     more = {"skid_log": _shown(skid_log), "run_start": run_start.isoformat(timespec="seconds"),
-            "run_end": run_end.isoformat(timespec="seconds")}  # fmt: skip
+            "run_end": run_end.isoformat(timespec="seconds"), "out": _shown(out),
+            "seal_key": _shown(seal.p12), "seal_cert": _shown(seal.cert)}  # fmt: skip
     steps += _scenario_steps(runs["steps"], users, samples, now, more)
     transcript = ["", f"Demo scenario: {scenario['site']['title']}"]
     written: list[Path] = [skid_log]
-    for title, args, stdin, save in steps:
+    for title, args, stdin, save, refused in steps:
         code, text = _run([*args, *db], stdin)
-        if code not in (0, 1):
+        if code not in (0, 1, refused):
             raise RuntimeError(f"demo step {shlex.join(args)!r} failed with exit code {code}")
         chunk = [""] + ([f"== {title}"] if title else [])
         chunk += [f"$ fluxledger {shlex.join(args)}", text.rstrip()]
@@ -191,8 +200,21 @@ def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
             _, jtext = _run([*args, *db, "--json"], stdin)
             written.append(_write_atomically(out / save, jtext))
     written.insert(0, out / "fluxledger.db")
+    written += [p for p in (out / "BR-000001-rev1.pdf", out / "BR-000001-rev1-sealed.pdf")
+                if p.exists()]  # fmt: skip
     written.append(_write_atomically(out / "logbook_session.txt", "\n".join(transcript) + "\n"))
     return written
+
+
+def _demo_seal(out: Path) -> Any:
+    """A self-signed seal identity for the demo (a site seals with its own PKI's certificate)."""
+    from ledger.records.identity import make_identity
+
+    folder = out / "demo-seal"
+    folder.mkdir(exist_ok=True)
+    return make_identity(folder, common_name="Quellmoor demo batch-record seal",
+                         organization="Quellmoor Biotherapeutics (invented)",
+                         passphrase=b"demo-seal-2026")  # fmt: skip
 
 
 def _scenario_steps(
@@ -201,13 +223,16 @@ def _scenario_steps(
     samples: Path,
     now: datetime,
     more: dict[str, str] | None = None,
-) -> list[tuple[str | None, list[str], str, str | None]]:
-    out: list[tuple[str | None, list[str], str, str | None]] = []
+) -> list[tuple[str | None, list[str], str, str | None, int]]:
+    out: list[tuple[str | None, list[str], str, str | None, int]] = []
     for step in raw:
         args = _expand(step["command"], samples, now, more)
         stdin = ""
         if "user" in step:
             args += ["--user", step["user"], "--password-stdin"]
             stdin = users[step["user"]]["password"] + "\n"
-        out.append((step.get("title"), args, stdin, step.get("save")))
+        if "stdin" in step:
+            stdin += step["stdin"] + "\n"
+        # A step may show a refusal on purpose (``refused = 3``: the exit code it must give).
+        out.append((step.get("title"), args, stdin, step.get("save"), int(step.get("refused", 0))))
     return out

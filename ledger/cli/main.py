@@ -59,6 +59,9 @@ def _register() -> None:
     from ledger.cli import logs
 
     app.add_typer(logs.app, name="log")
+    from ledger.cli import batch
+
+    app.add_typer(batch.app, name="record")
     app.command("demo")(guarded(demo.demo))
 
 

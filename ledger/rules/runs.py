@@ -1,14 +1,17 @@
 """The run's life: which action each run status allows, and what a run start requires.
 
-planned -> (start) in_progress -> (finish) finished -> (submit) in_review. Skid logs and QC
-results can be entered while the run is in progress or finished; deviations until review.
+planned -> (start) in_progress -> (finish) finished -> (submit) in_review -> (approval, the
+last signature) approved. Skid logs and QC results can be entered while the run is in progress
+or finished; deviations until review. Once in review the record's data is frozen for signing;
+an approved record is locked. A correction (from review or after approval) sends the run back
+to finished, and its next submission is signed as a new revision.
 """
 
 from __future__ import annotations
 
 from datetime import datetime
 
-RUN_STATUSES = ("planned", "in_progress", "finished", "in_review")
+RUN_STATUSES = ("planned", "in_progress", "finished", "in_review", "approved")
 
 ALLOWED: dict[str, frozenset[str]] = {
     "start": frozenset({"planned"}),
@@ -18,12 +21,16 @@ ALLOWED: dict[str, frozenset[str]] = {
     "close_deviation": frozenset({"planned", "in_progress", "finished"}),
     "finish": frozenset({"in_progress"}),
     "submit": frozenset({"finished"}),
+    "sign": frozenset({"in_review"}),
+    "correct": frozenset({"in_review", "approved"}),
 }
 NEXT: dict[str, str] = {
     "planned": "start the run (run start)",
     "in_progress": "import the skid log, enter QC results, then finish the run (run finish)",
     "finished": "enter any missing QC results and deviations, then submit it (run submit)",
-    "in_review": "nothing more: the record is with its reviewers",
+    "in_review": "sign it (fluxledger record sign), or correct it (fluxledger record correct)",
+    "approved": "nothing: the record is approved and locked; a correction makes a new revision "
+    "(fluxledger record correct)",
 }
 WORDS = {"close_deviation": "close a deviation of", "qc": "enter QC results for",
          "import": "import a skid log into"}  # fmt: skip

@@ -24,6 +24,15 @@ from ledger.runs.actuals import KINDS
 from ledger.runs.expr import Expr, ExpressionError, compile_expr
 
 MEANINGS = ("performed", "verified", "reviewed", "approved")
+# Who may sign each meaning when a template does not say (common practice, no single source):
+# an administrator signs nothing (21 CFR 11 / Annex 11 separation of duties).
+SIGNER_ROLES = ("operator", "engineer", "qa")
+DEFAULT_SIGNERS: dict[str, tuple[str, ...]] = {
+    "performed": ("operator", "engineer"),
+    "verified": ("operator", "engineer", "qa"),
+    "reviewed": ("engineer", "qa"),
+    "approved": ("qa",),
+}
 
 # The module's facts a template may name, with their kinds (None: a count).
 MODULE_NAMES: dict[str, str | None] = {
@@ -140,6 +149,7 @@ class Template:
     product: str | None = None
     optimum: Optimum | None = None
     notes: list[str] = field(default_factory=list)
+    signers: dict[str, tuple[str, ...]] = field(default_factory=dict)  # meaning -> roles
 
     def parameter(self, name: str) -> Parameter:
         return next(p for p in self.parameters if p.name == name)
@@ -251,7 +261,7 @@ class _Reader:
         head = self.table(
             "template",
             self.data["template"],
-            {"id", "version", "title", "product", "signatures", "notes"},
+            {"id", "version", "title", "product", "signatures", "signers", "notes"},
             {"id", "version", "title", "signatures"},
         )
         inputs = self.inputs(self.data.get("inputs", {}))
@@ -270,6 +280,7 @@ class _Reader:
         notes = head.get("notes", [])
         if not isinstance(notes, list) or not all(isinstance(n, str) for n in notes):
             raise self.fail("template.notes", "expected a list of text")
+        signatures = self.meanings("template.signatures", head["signatures"])
         return Template(
             id=self.text("template.id", head["id"]),
             version=self.text("template.version", str(head["version"])),
@@ -281,11 +292,38 @@ class _Reader:
             parameters=parameters,
             steps=steps,
             qc=self.qc(self.data.get("qc", {})),
-            signatures=self.meanings("template.signatures", head["signatures"]),
+            signatures=signatures,
             product=head.get("product"),
             optimum=self.optimum(self.data.get("optimum")),
             notes=list(notes),
+            signers=self.signers(head.get("signers"), signatures),
         )
+
+    def signers(self, raw: Any, meanings: tuple[str, ...]) -> dict[str, tuple[str, ...]]:
+        """The roles that may sign each meaning: [template.signers], else DEFAULT_SIGNERS."""
+        if raw is None:
+            return {m: DEFAULT_SIGNERS[m] for m in meanings}
+        if not isinstance(raw, dict):
+            raise self.fail("template.signers", f"expected a table, got {raw!r}")
+        out: dict[str, tuple[str, ...]] = {}
+        for m in meanings:
+            key = f"template.signers.{m}"
+            roles = raw.get(m)
+            if roles is None:
+                raise self.fail(key, f"no roles given for the signature {m!r}", None,
+                                "a list of roles, e.g. [\"qa\"]")  # fmt: skip
+            if not isinstance(roles, list) or not roles:
+                raise self.fail(key, f"expected a list of roles, got {roles!r}", roles)
+            for r in roles:
+                if r not in SIGNER_ROLES:
+                    raise self.fail(key, f"role {r!r} may not sign records", r,
+                                    f"one of {', '.join(SIGNER_ROLES)}")  # fmt: skip
+            out[m] = tuple(roles)
+        for m in raw:
+            if m not in meanings:
+                raise self.fail(f"template.signers.{m}", f"{m!r} is not one of this template's "
+                                "signatures", m, ", ".join(meanings))  # fmt: skip
+        return out
 
     def name(self, key: str, name: str) -> str:
         if not _NAME.match(name):

@@ -272,7 +272,7 @@ class Hold(Recorded, table=True):
     meaning: str | None = Field(default=None, max_length=16)  # the signature's meaning
 
 
-RUN_STATUSES = ("planned", "in_progress", "finished", "in_review")
+RUN_STATUSES = ("planned", "in_progress", "finished", "in_review", "approved")
 
 
 class Run(Voidable, table=True):
@@ -296,6 +296,7 @@ class Run(Voidable, table=True):
     started_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
     finished_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
     submitted_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    correction_reason: str | None = None  # why the record is being corrected (next revision)
 
 
 class SkidLogFile(Voidable, table=True):
@@ -349,6 +350,54 @@ class Deviation(Recorded, table=True):
     closure: str | None = None
 
 
+class RecordRevision(Recorded, table=True):
+    """One issued revision of a run's batch record: its frozen context and that content's hash.
+
+    Issued when the first signature is given; signatures bind to ``sha256``. A correction
+    supersedes it; its signatures stay, belonging to it.
+    """
+
+    __tablename__ = "record_revision"
+    __table_args__ = (
+        Index("ix_record_revision_run_number", "run_id", "number", unique=True),
+        {"sqlite_autoincrement": True},
+    )
+    # The content hash covers the frozen context; the audit trail does not repeat it.
+    redacted: ClassVar[frozenset[str]] = frozenset({"content"})
+
+    id: int | None = Field(default=None, primary_key=True)
+    run_id: int = Field(foreign_key="run.id")
+    number: int  # 1, 2, ... within the run
+    reason: str  # "first issue" or why it was corrected
+    content: dict[str, Any] = Field(sa_type=JSON)  # ledger.records.context.Context.content()
+    sha256: str = Field(max_length=64)  # SHA-256 of the canonical JSON of content
+    as_of: datetime = Field(sa_type=UTCDateTime)  # the database as it was then
+    audit_seq: int  # the last audit event the content includes
+    superseded_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    superseded_by: str | None = Field(default=None, max_length=64)
+    superseded_reason: str | None = None
+
+
+class Signature(Recorded, table=True):
+    """An electronic signature on one record revision (21 CFR 11.50, 11.70)."""
+
+    __table_args__ = (
+        Index("ix_signature_run_revision", "run_id", "revision"),
+        {"sqlite_autoincrement": True},
+    )
+
+    id: int | None = Field(default=None, primary_key=True)
+    run_id: int = Field(foreign_key="run.id")
+    revision_id: int = Field(foreign_key="record_revision.id")
+    revision: int  # the revision's number
+    revision_sha256: str = Field(max_length=64)  # the hash of the content it signs
+    meaning: str = Field(max_length=16)  # performed, verified, reviewed, approved
+    login: str = Field(max_length=64)
+    full_name: str
+    role: str = Field(max_length=16)
+    signed_at: datetime = Field(sa_type=UTCDateTime)
+
+
 class AuditEvent(SQLModel, table=True):
     """One append-only entry of the audit trail, chained to the previous one by SHA-256."""
 
@@ -398,6 +447,8 @@ RECORDS: dict[str, type[Recorded]] = {
     "skid_log_file": SkidLogFile,
     "qc_result": QcResult,
     "deviation": Deviation,
+    "record_revision": RecordRevision,
+    "signature": Signature,
 }
 
 

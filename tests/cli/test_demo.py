@@ -87,3 +87,38 @@ def test_demo_plans_and_imports_its_run(cli: Run, tmp_path: Path) -> None:
     assert run["diafiltration_optimum_(gel_model)"]["optimum_concentration"]["unit"] == "g/L"
     session = (tmp_path / "logbook_session.txt").read_text()
     assert "was already imported" in session
+
+
+def test_readme_commands_on_the_demo_output_run(cli: Run, tmp_path: Path) -> None:
+    """The README's `console` examples work on what `make demo` wrote (its paths swapped)."""
+    import re
+    import shlex
+
+    readme = (Path(__file__).resolve().parents[2] / "README.md").read_text(encoding="utf-8")
+    lines = [
+        line.strip()
+        for block in re.findall(r"```console\n(.*?)```", readme, flags=re.S)
+        for line in block.splitlines()
+        if line.strip().startswith("fluxledger ")
+    ]
+    assert any(" record verify " in line for line in lines)
+    assert cli("demo", "--out", str(tmp_path), "--json").code == 0
+    for line in lines:
+        args = shlex.split(line.replace("demo-output/", f"{tmp_path}/"))[1:]
+        result = cli(*args)
+        assert result.code == 0, (line, result.stdout, result.stderr)
+
+
+def test_demo_writes_signed_and_sealed_records(cli: Run, tmp_path: Path) -> None:
+    from ledger.records.pdf import stamp_of
+    from ledger.records.seal import examine
+
+    assert cli("demo", "--out", str(tmp_path), "--json").code == 0
+    signed = (tmp_path / "BR-000001-rev1.pdf").read_bytes()
+    sealed = (tmp_path / "BR-000001-rev1-sealed.pdf").read_bytes()
+    stamp = stamp_of(signed)
+    assert stamp is not None and stamp["record"] == "BR-000001" and stamp["revision"] == "1"
+    assert len(stamp["signatures"].split(",")) == 4  # performed, verified, reviewed, approved
+    report = examine(sealed, trust=[tmp_path / "demo-seal" / "seal-cert.pem"])
+    assert report.sealed and report.intact and report.whole_file and report.trusted
+    assert sealed[: report.signed_length] == signed

@@ -243,7 +243,8 @@ def _other(value: object, column: object) -> object:
 
 
 def _a_run(w: World, tmp_path: Path) -> None:
-    """A run with a skid log, a QC result and a deviation, so their tables have rows."""
+    """A run with a skid log, a QC result, a deviation and a signed record revision, so their
+    tables have rows."""
     from ledger.cli.demo_log import write_log
     from tests.cli.test_runs import INPUTS, MAPPING
 
@@ -256,6 +257,9 @@ def _a_run(w: World, tmp_path: Path) -> None:
     w.ok(w.as_user("op.kim", "run", "import", "1", str(log), "--mapping", str(MAPPING)))
     w.ok(w.as_user("op.kim", "run", "qc", "1", "--result", "ph=7.4"))
     w.ok(w.as_user("op.kim", "run", "deviation", "1", "--check", "tmp", "--description", "spike"))
+    w.ok(w.as_user("op.kim", "run", "finish", "1"))
+    w.ok(w.as_user("op.kim", "run", "submit", "1"))
+    w.ok(w.as_user("op.kim", "record", "sign", "1", "--meaning", "performed"))
 
 
 def test_a_change_to_any_column_of_any_record_is_found(tested: World, tmp_path: Path) -> None:

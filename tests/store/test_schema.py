@@ -54,7 +54,8 @@ def test_empty_database_is_refused_with_init_advice(db_url: str) -> None:
 
 @pytest.mark.parametrize(
     ("stored", "message"),
-    [("0001", "older than this software's 0002; run `fluxledger init`"),
+    [("0001", "older than this software's 0003; run `fluxledger init`"),
+     ("0002", "older than this software's 0003; run `fluxledger init`"),
      ("0042", "does not know"),
      ("a1b2c3", "does not know")],
 )  # fmt: skip
@@ -195,8 +196,23 @@ def test_a_0001_logbook_upgrades_to_the_runs_schema(db_url: str) -> None:
     with engine.begin() as conn:
         command.upgrade(schema.alembic_config(engine, conn), "0001")
     assert schema.stored_revision(engine) == "0001"
-    assert schema.upgrade(engine) == ("0001", "0002")
+    assert schema.upgrade(engine) == ("0001", "0003")
     names = set(inspect(engine).get_table_names())
     assert {"run", "skid_log_file", "qc_result", "deviation"} <= names
     columns = {c["name"] for c in inspect(engine).get_columns("module_type")}
     assert {"max_volume_loading_m", "max_mass_loading_kg_m2", "clean_hold_s"} <= columns
+
+
+def test_a_0002_database_upgrades_to_the_records_schema(db_url: str) -> None:
+    """A database made by the runs release (0002) gains revisions and signatures on `init`."""
+    from alembic import command
+    from sqlalchemy import inspect
+
+    engine = connect(resolve_url(db_url), create=True)
+    with engine.begin() as conn:
+        command.upgrade(schema.alembic_config(engine, conn), "0002")
+    assert schema.upgrade(engine) == ("0002", "0003")
+    names = set(inspect(engine).get_table_names())
+    assert {"record_revision", "signature"} <= names
+    columns = {c["name"] for c in inspect(engine).get_columns("run")}
+    assert "correction_reason" in columns

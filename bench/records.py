@@ -1,0 +1,121 @@
+"""Batch-record PDF speed and size: the 24 h record with charts against the same record as
+plain tables (DESIGN §9).
+
+What is measured, and how:
+
+1. The context. tests/records/sample.py builds an invented record from a synthetic 24 h,
+   1 Hz log (86,400 samples per channel, three charted channels: TMP, permeate flux,
+   retentate volume), each downsampled to 400 min/max buckets; 24 checks, 60 audit rows,
+   five cycles of module history.
+2. Timing, in this one process, after a warm-up call of each (fonts registered, reportlab
+   imported): ``render(ctx, charts=True)`` (the full record) and the baseline
+   ``render(ctx, charts=False)`` (the same record with the charts left out), alternated call
+   by call; the median and minimum of ``--repeats`` calls each (``time.perf_counter``).
+   Targets: the full record under 0.5 s and under 400 KB.
+3. The downsampling the charts rest on: ``min_max`` of the 86,400 raw samples of three
+   channels to 400 buckets each, timed alone the same way; and how many points the charts
+   draw against the raw samples they stand for.
+
+Run alone with ``.venv/bin/python bench/records.py``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import statistics
+import sys
+import time
+from collections.abc import Callable
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+TARGET_S = 0.5
+TARGET_BYTES = 400_000
+SOFTWARE = "bench"
+
+
+def _alternate(
+    fns: dict[str, Callable[[], object]], repeats: int
+) -> dict[str, tuple[float, float]]:
+    """(median, minimum) seconds of each function, called in turn ``repeats`` times after a
+    warm-up."""
+    for fn in fns.values():
+        fn()
+    times: dict[str, list[float]] = {name: [] for name in fns}
+    for _ in range(repeats):
+        for name, fn in fns.items():
+            start = time.perf_counter()
+            fn()
+            times[name].append(time.perf_counter() - start)
+    return {name: (statistics.median(ts), min(ts)) for name, ts in times.items()}
+
+
+def run(repeats: int = 10, seconds: int = 86_400) -> bool:
+    """Print the figures; True when the full record meets both targets."""
+    import numpy as np
+
+    sys.path.insert(0, str(ROOT))
+    from ledger.records import charts
+    from ledger.records.downsample import min_max
+    from ledger.records.pdf import render
+    from tests.records.sample import sample_context
+
+    ctx = sample_context(log_seconds=seconds)
+    t = np.arange(seconds, dtype=float)
+    raw = [0.3 + 0.05 * np.sin(t / 600.0 + k) for k in range(3)]
+
+    def downsample() -> None:
+        for y in raw:
+            min_max(t, y, buckets=400)
+
+    full = render(ctx, software_version=SOFTWARE)
+    plain = render(ctx, software_version=SOFTWARE, charts=False)
+    figures = _alternate(
+        {
+            "full": lambda: render(ctx, software_version=SOFTWARE),
+            "plain": lambda: render(ctx, software_version=SOFTWARE, charts=False),
+            "min_max": downsample,
+        },
+        repeats,
+    )
+    drawn = sum(charts.points_drawn(s) for s in ctx.charts)
+    raw_points = sum(s.raw_points for s in ctx.charts)
+    recovery = len(ctx.history.recovery)
+    (f_med, f_min), (p_med, p_min), (d_med, d_min) = (
+        figures["full"], figures["plain"], figures["min_max"])  # fmt: skip
+    ok = f_med < TARGET_S and len(full) < TARGET_BYTES
+    hours = seconds / 3600
+    print(f"Batch-record PDF: {hours:g} h, 1 Hz log, {len(ctx.charts)} charts, "
+          f"{len(ctx.checks)} checks, {len(ctx.audit)} audit rows")  # fmt: skip
+    rows = [
+        ("baseline", "render(charts=False), plain tables", (p_med, p_min), len(plain)),
+        ("measured", "render(charts=True), full record", (f_med, f_min), len(full)),
+    ]
+    for label, what, (med, low), size in rows:
+        print(f"  {label:<9} {what:<40} median {med * 1e3:7.1f} ms  (min {low * 1e3:6.1f})  "
+              f"{size / 1024:6.1f} KiB")  # fmt: skip
+    added_kib = (len(full) - len(plain)) / 1024
+    print(f"  ratio     {f_med / p_med:.2f}x time, {len(full) / len(plain):.2f}x size; charts "
+          f"add {(f_med - p_med) * 1e3:.1f} ms and {added_kib:.1f} KiB")  # fmt: skip
+    print(f"  downsample min_max of {seconds:,} samples x 3 channels to 400 buckets: median "
+          f"{d_med * 1e3:.1f} ms (min {d_min * 1e3:.1f})")  # fmt: skip
+    print(f"  points    {drawn:,} envelope points drawn for {raw_points:,} raw samples "
+          f"({raw_points / max(drawn, 1):,.0f} samples per point), plus {recovery} NWP recovery "
+          f"points")  # fmt: skip
+    verdict = "meets" if ok else "MISSES"
+    print(f"  target    full record < {TARGET_S * 1e3:.0f} ms and < {TARGET_BYTES // 1000} KB: "
+          f"{verdict} ({repeats} runs each)")  # fmt: skip
+    return ok
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    parser.add_argument("--repeats", type=int, default=10, help="timed calls of each (>= 3)")
+    parser.add_argument("--seconds", type=int, default=86_400,
+                        help="length of the synthetic 1 Hz log")  # fmt: skip
+    args = parser.parse_args(argv)
+    return 0 if run(max(args.repeats, 3), args.seconds) else 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())

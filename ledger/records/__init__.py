@@ -1,0 +1,1 @@
+"""Batch records: the context assembled from the database, the PDF, signatures and seals."""

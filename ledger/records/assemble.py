@@ -1,0 +1,488 @@
+"""Build a run's batch-record context from the database, as the database stood at a time.
+
+A revision is frozen when it is issued: ``as_of`` (a UTC time) and ``audit_seq`` (the last audit
+event it includes) are stored with it, and assembling again with them gives the same content
+as long as nobody altered the database: records made later are left out, and records voided
+later count as they did then. That is how ``record verify`` finds a value edited after
+signing. The run's own data cannot change once it is in review (rules/runs.py).
+"""
+
+from __future__ import annotations
+
+import re
+import tempfile
+from collections.abc import Sequence
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Any
+
+from sqlmodel import Session, col, select
+
+from ledger.records import context as c
+from ledger.runs import service as runs
+from ledger.runs.plan import Plan, show
+from ledger.store.tables import (
+    AuditEvent,
+    Cleaning,
+    Deviation,
+    IntegrityTest,
+    Module,
+    ModuleType,
+    ModuleUse,
+    QcResult,
+    Run,
+    Signature,
+    SkidLogFile,
+    WaterFluxTest,
+)
+
+RECENT_CYCLES = 10
+RECOVERY_POINTS = 30
+RECENT_CLEANINGS = 3
+AUDIT_VALUE_CHARS = 80
+CHART_BUCKETS = 400
+# (series, title, display unit, display = SI × scale)
+CHARTS = (
+    ("tmp", "TMP", "bar", 1e-5),
+    ("flux", "Permeate flux", "LMH", 3.6e6),
+    ("retentate_volume", "Retentate volume", "L", 1e3),
+)
+_CLEANING_WORDS = re.compile(r"clean|sanitiz|sanitis|naoh|caustic|hydroxide", re.IGNORECASE)
+
+
+def record_id(run_id: int) -> str:
+    return f"BR-{run_id:06d}"
+
+
+def iso(at: datetime | None) -> str | None:
+    """ISO 8601 in UTC with its offset, to the second."""
+    if at is None:
+        return None
+    return at.astimezone(UTC).isoformat(timespec="seconds")
+
+
+def _at(at: datetime | None) -> str:
+    return iso(at) or "—"
+
+
+def _existed(rec: Any, as_of: datetime | None) -> bool:
+    """The record existed at ``as_of`` and was not void then."""
+    if as_of is not None and rec.created_at > as_of:
+        return False
+    voided = getattr(rec, "voided_at", None)
+    return voided is None or (as_of is not None and voided > as_of)
+
+
+def assemble(
+    session: Session,
+    run_id: int,
+    *,
+    revision: int = 0,
+    reason: str = "draft: not issued for signature",
+    as_of: datetime | None = None,
+    audit_seq: int | None = None,
+) -> c.Context:
+    """The context of ``run_id``; revision 0 is a draft of the live data (no cut-off)."""
+    run = runs.get_run(session, run_id)
+    module = session.get(Module, run.module_id)
+    assert module is not None
+    mtype = session.get(ModuleType, module.type_id)
+    assert mtype is not None
+    template = runs.run_template(run)
+    plan = runs.run_plan(run)
+    log = _skid_log(session, run_id, as_of)
+    devs = [
+        d
+        for d in session.exec(select(Deviation).where(Deviation.run_id == run_id))
+        if _existed(d, as_of)
+    ]
+    devs.sort(key=lambda d: d.number)
+    uses = _uses(session, module.id, as_of)  # type: ignore[arg-type]
+    cycle = next((i for i, u in enumerate(uses, start=1) if u.id == run.use_id), None)
+    header = c.Header(
+        record_id=record_id(run_id),
+        revision=revision,
+        revision_reason=reason,
+        run_id=run_id,
+        product=run.product,
+        lot=run.lot,
+        status="in_review" if revision else run.status,
+        template_id=run.template_id,
+        template_version=run.template_version,
+        template_title=template.title,
+        template_sha256=run.template_sha256,
+        module_serial=module.serial,
+        module_type=mtype.code,
+        module_area=show(mtype.area_m2, "m^2", "area"),
+        cycle=cycle,
+        planned_by=run.created_by,
+        planned_at=_at(run.created_at),
+        started_at=iso(run.started_at),
+        finished_at=iso(run.finished_at),
+        submitted_at=iso(run.submitted_at),
+        skid_log=(f"{log.file_name} ({log.rows:,} rows, SHA-256 {log.sha256})" if log else None),
+        override_reason=run.override_reason,
+    )
+    checks = _checks(session, run, devs, as_of)
+    steps = tuple(
+        c.Step(
+            s["operation"],
+            s["phase"],
+            s["title"],
+            s["text"],
+            tuple(s["signatures"]),
+            bool(_CLEANING_WORDS.search(f"{s['operation']} {s['title']} {s['text']}")),
+        )
+        for s in plan.steps
+    )
+    cutoff = run.finished_at or run.started_at or as_of or datetime.now(UTC)
+    history = _history(session, module, mtype, uses, run.use_id, cutoff, as_of)
+    summary = _summary(log)
+    cautions = [c.SITE_CAUTION]
+    if history.cleanings or any(s.cleaning for s in steps):
+        cautions.append(c.CAUSTIC_CAUTION)
+    return c.Context(
+        header=header,
+        steps=steps,
+        checks=checks,
+        excursions=_excursions(summary, plan),
+        qc=_qc(session, run, checks, as_of),
+        deviations=tuple(
+            c.DeviationRow(
+                d.number,
+                d.check_name,
+                d.description,
+                d.impact,
+                d.created_by,
+                _at(d.created_at),
+                d.closed_by if _closed(d, as_of) else None,
+                iso(d.closed_at) if _closed(d, as_of) else None,
+                d.closure if _closed(d, as_of) else None,
+            )
+            for d in devs
+        ),
+        history=history,
+        charts=_charts(log, mtype, plan) if log else (),
+        audit=_audit(session, run, audit_seq),
+        required_signatures=tuple(template.signatures),
+        signature_roles={m: tuple(r) for m, r in template.signers.items()},
+        assumptions=_assumptions(summary),
+        cautions=tuple(cautions),
+    )
+
+
+def signature_rows(
+    session: Session, run_id: int, up_to: int | None = None
+) -> tuple[c.SignatureRow, ...]:
+    """The run's signatures (of revisions up to ``up_to``), in the order they were given."""
+    rows = session.exec(
+        select(Signature).where(Signature.run_id == run_id).order_by(col(Signature.id))
+    ).all()
+    return tuple(
+        c.SignatureRow(
+            s.id or 0,
+            s.revision,
+            s.meaning,
+            s.login,
+            s.full_name,
+            s.role,
+            _at(s.signed_at),
+            s.revision_sha256,
+        )
+        for s in rows
+        if up_to is None or s.revision <= up_to
+    )
+
+
+def _closed(d: Deviation, as_of: datetime | None) -> bool:
+    return d.closed_at is not None and (as_of is None or d.closed_at <= as_of)
+
+
+def _skid_log(session: Session, run_id: int, as_of: datetime | None) -> SkidLogFile | None:
+    rows = session.exec(select(SkidLogFile).where(SkidLogFile.run_id == run_id)).all()
+    return next((r for r in rows if _existed(r, as_of)), None)
+
+
+def _qc_rows(session: Session, run_id: int, as_of: datetime | None) -> dict[str, QcResult]:
+    rows = session.exec(select(QcResult).where(QcResult.run_id == run_id)).all()
+    return {r.attribute: r for r in rows if _existed(r, as_of)}
+
+
+def _checks(
+    session: Session, run: Run, devs: Sequence[Deviation], as_of: datetime | None
+) -> tuple[c.CheckRow, ...]:
+    from ledger.runs.checks import run_checks
+
+    log = _skid_log(session, run.id, as_of)  # type: ignore[arg-type]
+    qc = {k: v.value for k, v in _qc_rows(session, run.id, as_of).items()}  # type: ignore[arg-type]
+    found = run_checks(runs.run_plan(run), runs.run_template(run), log.actuals if log else None, qc)
+    out = []
+    for k in found:
+        dev = next((d for d in devs if d.check_name == k.name), None)
+        out.append(
+            c.CheckRow(
+                k.name,
+                k.source,
+                k.title,
+                k.phase,
+                k.planned,
+                k.actual,
+                k.rule,
+                k.verdict,
+                k.note,
+                dev.number if dev else None,
+                bool(dev and _closed(dev, as_of)),
+            )
+        )
+    return tuple(out)
+
+
+def _qc(
+    session: Session, run: Run, checks: Sequence[c.CheckRow], as_of: datetime | None
+) -> tuple[c.QcRow, ...]:
+    rows = _qc_rows(session, run.id, as_of)  # type: ignore[arg-type]
+    out = []
+    for k in checks:
+        if k.source != "qc":
+            continue
+        r = rows.get(k.name)
+        attr = next(a for a in runs.run_template(run).qc if a.name == k.name)
+        out.append(
+            c.QcRow(
+                k.name,
+                k.title,
+                k.rule,
+                r.text if r else "—",
+                attr.method,
+                r.created_by if r else None,
+                iso(r.created_at) if r else None,
+                k.verdict,
+            )
+        )
+    return tuple(out)
+
+
+def _summary(log: SkidLogFile | None) -> Any:
+    if log is None:
+        return None
+    from ledger.runs.actuals import Summary
+
+    return Summary.from_record(log.actuals)
+
+
+def _clock(seconds: float) -> str:
+    s = round(seconds)
+    return f"{s // 3600:02d}:{s % 3600 // 60:02d}:{s % 60:02d}"
+
+
+def _excursions(summary: Any, plan: Plan) -> tuple[c.ExcursionRow, ...]:
+    if summary is None:
+        return ()
+    out = []
+    for e in summary.excursions:
+        v = next((p for p in plan.values if p.name == e.name), None)
+        unit, kind = (v.unit, v.kind) if v else ("", None)
+        out.append(
+            c.ExcursionRow(
+                check=e.name,
+                channel=e.channel,
+                phase=e.phase,
+                start=_clock((e.start - summary.start).total_seconds()),
+                duration=f"{e.duration_s:,.0f} s",
+                worst=show(e.worst, unit, kind),
+                limit=v.rule if v else show(e.limit, unit, kind),
+            )
+        )
+    return tuple(out)
+
+
+def _assumptions(summary: Any) -> tuple[str, ...]:
+    if summary is None:
+        return ("no skid log imported: no actuals",)
+    out = list(summary.assumptions)
+    out += [f"not computed: {n.what} — {n.why}" for n in summary.not_computed]
+    return tuple(out)
+
+
+def _uses(session: Session, module_id: int, as_of: datetime | None) -> list[ModuleUse]:
+    rows = session.exec(select(ModuleUse).where(ModuleUse.module_id == module_id)).all()
+    return sorted((u for u in rows if _existed(u, as_of)), key=lambda u: (u.activity_at, u.id))
+
+
+def _history(
+    session: Session,
+    module: Module,
+    mtype: ModuleType,
+    uses: list[ModuleUse],
+    use_id: int | None,
+    cutoff: datetime,
+    as_of: datetime | None,
+) -> c.History:
+    def rows(cls: Any) -> list[Any]:
+        found = session.exec(select(cls).where(cls.module_id == module.id)).all()
+        return sorted(
+            (r for r in found if _existed(r, as_of) and r.activity_at <= cutoff),
+            key=lambda r: (r.activity_at, r.id),
+        )
+
+    upto = [u for u in uses if u.activity_at <= cutoff]
+    cycles = tuple(
+        c.CycleRow(i, u.product, u.lot, _at(u.activity_at), iso(u.ended_at), u.id == use_id)
+        for i, u in enumerate(upto, start=1)
+    )[-RECENT_CYCLES:]
+    recovery = []
+    for t in rows(WaterFluxTest):
+        if t.stage != "post_clean" or t.recovery is None:
+            continue
+        done = sum(1 for u in upto if u.activity_at < t.activity_at)
+        nwp = show(t.nwp_m_s_pa, "L/(m^2*h*bar)", "permeability").replace(
+            "L/(m^2*h*bar)", "LMH/bar"
+        )
+        ref = show(t.reference_temperature_k, "degC", "temperature")
+        recovery.append(
+            c.RecoveryPoint(
+                done, _at(t.activity_at), f"{nwp} at {ref}", t.recovery, t.verdict or "—"
+            )
+        )
+    integrity = rows(IntegrityTest)
+    last = integrity[-1] if integrity else None
+    return c.History(
+        cycles_done=len(upto),
+        reuse_limit=mtype.reuse_limit_cycles,
+        recovery_min=mtype.recovery_min,
+        recovery_alert=mtype.recovery_alert,
+        recent_cycles=cycles,
+        recovery=tuple(recovery[-RECOVERY_POINTS:]),
+        last_integrity=_integrity(last) if last else None,
+        cleanings=tuple(_cleaning(r) for r in rows(Cleaning)[-RECENT_CLEANINGS:]),
+    )
+
+
+def _integrity(t: IntegrityTest) -> c.IntegrityRow:
+    if t.kind == "bubble_point":
+        return c.IntegrityRow(
+            _at(t.activity_at),
+            "bubble point",
+            show(t.bubble_point_pa, "bar", "pressure"),
+            "≥ " + show(t.limit_value, "bar", "pressure"),
+            t.passed,
+        )
+    at = show(t.test_pressure_pa, "bar", "pressure")
+    return c.IntegrityRow(
+        _at(t.activity_at),
+        f"pressure decay at {at}",
+        show(t.decay_rate_pa_s, "mbar/min", "pressure_rate"),
+        "≤ " + show(t.limit_value, "mbar/min", "pressure_rate"),
+        t.passed,
+    )
+
+
+def _cleaning(r: Cleaning) -> c.CleaningRow:
+    if r.concentration_unit == "mol/m**3":
+        conc = show(r.concentration, "mol/L", "molarity")
+    elif r.concentration_unit == "kg/m**3":
+        conc = show(r.concentration, "g/L", "concentration")
+    else:
+        conc = show(r.concentration, "percent", "fraction")
+    conforms = (
+        "not checked"
+        if r.deviations is None
+        else "yes"
+        if not r.deviations
+        else "no: " + "; ".join(r.deviations)
+    )
+    return c.CleaningRow(
+        _at(r.activity_at),
+        r.agent,
+        conc,
+        show(r.temperature_k, "degC", "temperature"),
+        show(r.contact_time_s, "min", "time"),
+        conforms,
+    )
+
+
+def _charts(log: SkidLogFile, mtype: ModuleType, plan: Plan) -> tuple[c.Series, ...]:
+    from ledger.records.downsample import min_max
+    from ledger.runs.actuals import Geometry, PhaseWindow, derived_channels, segments
+    from ledger.runs.mapping import parse_mapping
+    from ledger.runs.skidlog import read_log
+
+    mapping = parse_mapping(log.mapping_text, f"mapping of {log.file_name}")
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / log.file_name
+        path.write_bytes(log.content)
+        skid = read_log(path, mapping, digest=False)
+    geometry = Geometry(mtype.area_m2, mtype.fiber_count, mtype.lumen_diameter_m)
+    channels, _ = derived_channels(skid, geometry)
+    windows = [
+        PhaseWindow(w["name"], datetime.fromisoformat(w["start"]), datetime.fromisoformat(w["end"]))
+        for w in log.windows or []
+    ]
+    t = skid.time_s
+    phases = tuple(
+        (name, float(t[i0]), float(t[i1 - 1]))
+        for name, i0, i1 in segments(skid, windows or None)
+        if i1 > i0
+    )
+    out = []
+    for name, title, unit, scale in CHARTS:
+        y = channels.get(name)
+        if y is None:
+            continue
+        ts, low, high = min_max(t, y, buckets=CHART_BUCKETS)
+        bands = tuple(
+            c.Band(v.phase or "whole run", v.low, v.high) for v in plan.values if v.actual == name
+        )
+        out.append(
+            c.Series(
+                name,
+                title,
+                unit,
+                scale,
+                tuple(ts),
+                tuple(low),
+                tuple(high),
+                int(skid.rows),
+                bands,
+                phases,
+            )
+        )
+    return tuple(out)
+
+
+def _short(value: str | None) -> str | None:
+    if value is None or len(value) <= AUDIT_VALUE_CHARS:
+        return value
+    return f"{value[:AUDIT_VALUE_CHARS]}… ({len(value):,} characters)"
+
+
+def _audit(session: Session, run: Run, audit_seq: int | None) -> tuple[c.AuditRow, ...]:
+    """The audit trail of the run's critical data: the run, its log, QC results, deviations."""
+    ids: dict[str, set[str]] = {"run": {str(run.id)}}
+    for entity, cls in (
+        ("skid_log_file", SkidLogFile),
+        ("qc_result", QcResult),
+        ("deviation", Deviation),
+    ):
+        found = session.exec(select(cls.id).where(cls.run_id == run.id)).all()
+        ids[entity] = {str(i) for i in found}
+    statement = select(AuditEvent).where(col(AuditEvent.entity).in_(list(ids)))
+    if audit_seq is not None:
+        statement = statement.where(AuditEvent.seq <= audit_seq)
+    events = session.exec(statement.order_by(col(AuditEvent.seq))).all()
+    return tuple(
+        c.AuditRow(
+            e.seq,
+            _at(e.at),
+            e.actor,
+            e.action,
+            e.entity,
+            e.entity_id,
+            e.field,
+            _short(e.old_value),
+            _short(e.new_value),
+            e.reason,
+        )
+        for e in events
+        if e.entity_id in ids[e.entity]
+    )

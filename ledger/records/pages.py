@@ -1,0 +1,109 @@
+"""What every page of a batch record carries: running head, footer and the draft watermark.
+
+The footer names the record, revision, short content hash, template and software version,
+"page x of y" and the true-copy statement. "y" is only known once the story is laid out, so
+the canvas keeps each finished page and draws the footers when the document is saved.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from reportlab.lib import colors  # type: ignore[import-untyped]
+from reportlab.lib.units import mm  # type: ignore[import-untyped]
+from reportlab.pdfbase.pdfmetrics import stringWidth  # type: ignore[import-untyped]
+from reportlab.pdfgen.canvas import Canvas  # type: ignore[import-untyped]
+
+from ledger.records import fonts, layout
+from ledger.records.context import TRUE_COPY
+
+DRAFT_INK = colors.Color(0.70, 0.10, 0.10)
+WATERMARK = colors.Color(0.95, 0.86, 0.86)
+
+
+@dataclass(frozen=True)
+class Marks:
+    """The texts of the running head and footer (the page numbers are added per page)."""
+
+    head_left: str
+    head_right: str
+    foot: str
+    draft: bool
+
+
+def _fitted(canv: Any, text: str, font: str, size: float, room: float) -> float:
+    """Set ``font`` at ``size``, or smaller so ``text`` fits ``room`` points; the width."""
+    width = stringWidth(text, font, size)
+    if width > room:
+        size, width = size * room / width, room
+    canv.setFont(font, size)
+    return float(width)
+
+
+def furniture(canv: Any, marks: Marks, page: int, pages: int) -> None:
+    """Draw the running head and the footer of one page."""
+    left, right = layout.MARGIN_X, layout.PAGE_W - layout.MARGIN_X
+    top = layout.PAGE_H - 11 * mm
+    canv.saveState()
+    canv.setFillColor(layout.INK)
+    head_right = layout.plain(marks.head_right)
+    _fitted(canv, layout.plain(marks.head_left), fonts.BOLD, 8, layout.FRAME_W * 0.48)
+    canv.drawString(left, top, layout.plain(marks.head_left))
+    if marks.draft:
+        head_right = f"DRAFT · {head_right}"
+        canv.setFillColor(DRAFT_INK)
+    _fitted(canv, head_right, fonts.SANS, 8, layout.FRAME_W * 0.5)
+    canv.drawRightString(right, top, head_right)
+    canv.setStrokeColor(layout.RULE)
+    canv.setLineWidth(0.5)
+    canv.line(left, top - 3.5, right, top - 3.5)
+
+    bottom = 12 * mm
+    canv.line(left, bottom + 9, right, bottom + 9)
+    canv.setFillColor(layout.INK)
+    numbering = f"page {page} of {pages}"
+    used = _fitted(canv, numbering, fonts.BOLD, 7.5, 80)
+    canv.drawRightString(right, bottom, numbering)
+    foot = layout.plain(marks.foot)
+    _fitted(canv, foot, fonts.SANS, 7, layout.FRAME_W - used - 12)
+    canv.drawString(left, bottom, foot)
+    canv.setFillColor(layout.MUTED)
+    _fitted(canv, TRUE_COPY, fonts.ITALIC, 6.8, layout.FRAME_W)
+    canv.drawString(left, bottom - 9, TRUE_COPY)
+    canv.restoreState()
+
+
+def watermark(canv: Any, doc: Any) -> None:
+    """A large diagonal DRAFT under the page's content (a draft is revision 0)."""
+    canv.saveState()
+    canv.setFillColor(WATERMARK)
+    canv.setFont(fonts.BOLD, 120)
+    canv.translate(layout.PAGE_W / 2, layout.PAGE_H / 2)
+    canv.rotate(52)
+    canv.drawCentredString(0, -40, "DRAFT")
+    canv.restoreState()
+
+
+def canvas_maker(marks: Marks) -> type[Canvas]:
+    """A canvas class that holds its pages back until ``save`` so each footer knows the
+    page count."""
+
+    class RecordCanvas(Canvas):
+        def __init__(self, *args: Any, **kwargs: Any) -> None:
+            super().__init__(*args, **kwargs)
+            self._held: list[dict[str, Any]] = []
+
+        def showPage(self) -> None:
+            self._held.append(dict(self.__dict__))
+            self._startPage()
+
+        def save(self) -> None:
+            total = len(self._held)
+            for state in self._held:
+                self.__dict__.update(state)
+                furniture(self, marks, self._pageNumber, total)
+                Canvas.showPage(self)
+            Canvas.save(self)
+
+    return RecordCanvas

@@ -1,0 +1,330 @@
+"""The sections of a batch record, each a list of flowables built from the context alone.
+
+Order (``ledger.records.pdf.render``): identity, cautions, planned against actual,
+excursions, QC results, deviations, procedure, charts, module history, audit excerpt,
+assumptions; the signature sections are in ``ledger.records.signblocks``.
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from typing import Any
+
+from reportlab.pdfbase.pdfmetrics import stringWidth  # type: ignore[import-untyped]
+from reportlab.platypus import Flowable, KeepTogether, Spacer, Table  # type: ignore[import-untyped]
+from reportlab.platypus import TableStyle as TS
+
+from ledger.records import charts as ch
+from ledger.records import fonts, layout, marks
+from ledger.records.context import CAUSTIC_CAUTION, SITE_CAUTION, Context, Series
+from ledger.records.layout import esc, para, styles, when, widths
+
+ACCENT = layout.colors.Color(0.16, 0.30, 0.52)
+
+
+class SectionHead(Flowable):
+    """A numbered section title over a hairline."""
+
+    def __init__(self, number: int, title: str) -> None:
+        super().__init__()
+        self.number, self.title = number, title
+        self.spaceBefore, self.spaceAfter = 9.0, 4.0
+        self.width, self.height = layout.FRAME_W, 17.0
+
+    def wrap(self, avail_width: float, avail_height: float) -> tuple[float, float]:
+        return self.width, self.height
+
+    def draw(self) -> None:
+        c = self.canv
+        c.setFillColor(ACCENT)
+        c.rect(0, 3, 4, 11, stroke=0, fill=1)
+        c.setFont(fonts.BOLD, 11)
+        number = str(self.number)
+        c.drawString(9, 5, number)
+        c.setFillColor(layout.INK)
+        c.drawString(9 + stringWidth(number, fonts.BOLD, 11) + 6, 5, layout.plain(self.title))
+        c.setStrokeColor(ACCENT)
+        c.setLineWidth(0.6)
+        c.line(0, 0.5, self.width, 0.5)
+
+
+def sub(title: str) -> Any:
+    """A sub-heading inside a section."""
+    return layout.markup(f"<b>{esc(title)}</b>", styles().body)
+
+
+def note(text: str) -> Any:
+    """A muted italic line."""
+    return para(text, styles().note)
+
+
+def caution_panel(text: str, width: float = layout.FRAME_W, small: bool = False) -> Any:
+    """A caution: the hazard triangle beside the text, on a tinted panel."""
+    s = styles()
+    size = 9.0 if small else 13.0
+    style = s.small if small else s.caution
+    body = layout.markup(esc(text), style.clone("c", textColor=layout.INK))
+    t = Table([[marks.HazardMark(size), body]], colWidths=[size + 6, width - size - 6])
+    t.setStyle(TS([("FONT", (0, 0), (-1, -1), fonts.SANS, 7.2),
+                   ("BACKGROUND", (0, 0), (-1, -1), layout.CAUTION_BG),
+                   ("LINEBEFORE", (0, 0), (0, 0), 2.0, layout.CAUTION_EDGE),
+                   ("VALIGN", (0, 0), (-1, -1), "TOP"),
+                   ("LEFTPADDING", (0, 0), (-1, -1), 3), ("RIGHTPADDING", (0, 0), (-1, -1), 3),
+                   ("TOPPADDING", (0, 0), (-1, -1), 3),
+                   ("BOTTOMPADDING", (0, 0), (-1, -1), 3)]))  # fmt: skip
+    return t
+
+
+def _quiet(text: str) -> str:
+    """Markup for the small grey line under a cell's title (the machine name)."""
+    return f"<font size=6.2 color='#606068'>{esc(text)}</font>"
+
+
+def _mono(text: str) -> Any:
+    return layout.markup(esc(text), styles().mono)
+
+
+def identity(ctx: Context, content_sha256: str) -> list[Any]:
+    h = ctx.header
+    s = styles()
+    out: list[Any] = [
+        para(f"Batch record {h.record_id}", s.title),
+        layout.markup(f"<b>Revision {h.revision}</b> — {esc(h.revision_reason)}", s.body),
+    ]
+    if h.revision == 0:
+        banner = Table([[layout.markup(
+            "<b>DRAFT</b> (revision 0): printed before the run was submitted; not a released "
+            "batch record.", s.body.clone("d", textColor=layout.colors.Color(0.6, 0.08, 0.08)))]],
+            colWidths=[layout.FRAME_W])  # fmt: skip
+        banner.setStyle(
+            TS(
+                [
+                    ("FONT", (0, 0), (-1, -1), fonts.SANS, 8),
+                    ("BOX", (0, 0), (-1, -1), 1.2, layout.colors.Color(0.7, 0.1, 0.1)),
+                    ("BACKGROUND", (0, 0), (-1, -1), layout.colors.Color(1, 0.93, 0.93)),
+                ]
+            )
+        )
+        out += [Spacer(1, 3), banner]
+    pairs: list[tuple[str, object]] = [
+        ("Record ID", h.record_id), ("Revision", str(h.revision)),
+        ("Product", h.product), ("Lot", h.lot),
+        ("Status at issue", h.status), ("Run", str(h.run_id)),
+        ("Module serial", h.module_serial), ("Module type", h.module_type),
+        ("Module area", h.module_area),
+        ("Cycle on module", "not started" if h.cycle is None else str(h.cycle)),
+        ("Template ID", h.template_id), ("Template version", h.template_version),
+        ("Planned by", h.planned_by), ("Planned at", when(h.planned_at)),
+        ("Started", when(h.started_at, "not started")),
+        ("Finished", when(h.finished_at, "not finished")),
+        ("Submitted", when(h.submitted_at, "not submitted")),
+        ("Record format", f"context version {ctx.version}"),
+    ]  # fmt: skip
+    wide: list[tuple[str, object]] = [
+        ("Revision reason", h.revision_reason),
+        ("Template title", h.template_title),
+        ("Template SHA-256", _mono(h.template_sha256)),
+        ("Content SHA-256", _mono(content_sha256)),
+        ("Skid log", h.skid_log or "none imported"),
+        (
+            "Fitness override",
+            "none (module was fit when planned)"
+            if h.override_reason is None
+            else layout.markup(
+                f"<b>Planned on a module that was not fit:</b> {esc(h.override_reason)}", s.cell
+            ),
+        ),
+    ]
+    return [*out, Spacer(1, 5), layout.fields_grid(pairs, wide)]
+
+
+def cautions(ctx: Context) -> list[Any]:
+    texts = list(ctx.cautions)
+    if SITE_CAUTION not in texts:
+        texts.insert(0, SITE_CAUTION)
+    out: list[Any] = []
+    for text in texts:
+        out += [caution_panel(text), Spacer(1, 3)]
+    return out
+
+
+def _verdict_summary(verdicts: list[str]) -> str:
+    counts = Counter(verdicts)
+    return ", ".join(f"{n} {v}" for v, n in sorted(counts.items()))
+
+
+def _deviation(number: int | None, closed: bool, verdict: str) -> str:
+    if number is None:
+        return "none" if verdict != "PASS" else "—"
+    return f"no. {number}, {'closed' if closed else 'OPEN'}"
+
+
+def checks(ctx: Context) -> list[Any]:
+    if not ctx.checks:
+        return [note("The template defines no acceptance checks.")]
+    s = styles()
+    cols = widths(34, 10, 11, 11, 12, 11, 11)
+    rows = []
+    for c in ctx.checks:
+        title = f"{esc(c.title)}<br/>{_quiet(f'{c.name} · {c.source}')}"
+        if c.note:
+            title += f"<br/><i>{esc(c.note)}</i>"
+        rows.append([layout.markup(title, s.cell), c.phase or "—", c.planned, c.actual, c.rule,
+                     marks.VerdictMark(c.verdict),
+                     _deviation(c.deviation, c.deviation_closed, c.verdict)])  # fmt: skip
+    summary = f"{len(ctx.checks)} checks: {_verdict_summary([c.verdict for c in ctx.checks])}."
+    heading = ("Check", "Phase", "Planned", "Actual", "Rule", "Verdict", "Deviation")
+    return [note(summary), layout.table(heading, rows, cols)]
+
+
+def excursions(ctx: Context) -> list[Any]:
+    if not ctx.excursions:
+        if ctx.header.skid_log is None:
+            return [note("No skid log imported: excursions could not be looked for.")]
+        return [note("The skid log shows no time outside the planned ranges.")]
+    rows = [[e.check, e.channel, e.phase or "—", e.start, e.duration, e.worst, e.limit]
+            for e in ctx.excursions]  # fmt: skip
+    heading = ("Check", "Channel", "Phase", "Start (into log)", "Duration", "Worst", "Limit")
+    return [layout.table(heading, rows, widths(16, 13, 15, 13, 11, 14, 18))]
+
+
+def qc(ctx: Context) -> list[Any]:
+    if not ctx.qc:
+        return [note("The template names no QC attributes.")]
+    s = styles()
+    rows = []
+    for q in ctx.qc:
+        entered = "not entered" if q.entered_by is None else f"{q.entered_by}, {when(q.entered_at)}"
+        attribute = f"{esc(q.title)}<br/>{_quiet(q.attribute)}"
+        rows.append([layout.markup(attribute, s.cell), q.specification, q.result,
+                     q.method or "—", entered, marks.VerdictMark(q.verdict)])  # fmt: skip
+    heading = ("Attribute", "Specification", "Result", "Method", "Entered", "Verdict")
+    return [layout.table(heading, rows, widths(24, 15, 13, 12, 24, 12))]
+
+
+def deviations(ctx: Context) -> list[Any]:
+    if not ctx.deviations:
+        return [note("No deviations recorded for this run.")]
+    s = styles()
+    rows = []
+    for d in ctx.deviations:
+        text = esc(d.description) + (f"<br/><i>Impact:</i> {esc(d.impact)}" if d.impact else "")
+        if d.closed_by is None:
+            closure = layout.markup("<b>OPEN</b>", s.cell)
+        else:
+            closure = layout.markup(f"closed by {esc(d.closed_by)}, {esc(when(d.closed_at))}"
+                                    f"<br/>{esc(d.closure or '')}", s.cell)  # fmt: skip
+        rows.append([str(d.number), d.check or "—", layout.markup(text, s.cell),
+                     f"{d.recorded_by}, {when(d.recorded_at)}", closure])  # fmt: skip
+    heading = ("No.", "Check", "Description", "Recorded", "Closure")
+    return [layout.table(heading, rows, widths(5, 13, 36, 18, 28))]
+
+
+def procedure(ctx: Context) -> list[Any]:
+    if not ctx.steps:
+        return [note("The template lists no steps.")]
+    s = styles()
+    cols = widths(4, 15, 41, 13, 27)
+    rows = []
+    for i, st in enumerate(ctx.steps, start=1):
+        body = layout.markup(f"<b>{esc(st.title)}</b><br/>{esc(st.text)}", s.cell)
+        beside: object = caution_panel(CAUSTIC_CAUTION, cols[4] - 2 * layout.PAD, small=True) \
+            if st.cleaning else ""  # fmt: skip
+        rows.append([str(i), f"{st.operation} · {st.phase}", body,
+                     ", ".join(st.signatures) or "—", beside])  # fmt: skip
+    heading = ("No.", "Operation · phase", "Step", "Signed as", "Caution")
+    return [layout.table(heading, rows, cols)]
+
+
+def _phase_list(series: Series) -> str:
+    return " · ".join(f"{name} {ch.hmm(a)}–{ch.hmm(b)}" for name, a, b in series.phases)
+
+
+def charts(ctx: Context, draw: bool) -> list[Any]:
+    if not draw:
+        return [note("Charts omitted from this print (plain-table record).")]
+    if not ctx.charts:
+        return [note("No skid log imported: nothing to chart.")]
+    s = styles()
+    out: list[Any] = []
+    for series in ctx.charts:
+        buckets = len(ch.envelope(series)[0])
+        caption = (f"Min/max envelope of {buckets:,} time buckets ({ch.points_drawn(series):,} "
+                   f"points drawn) from {series.raw_points:,} samples.")  # fmt: skip
+        if series.bands:
+            caption += " Planned ranges dashed."
+        if series.phases:
+            caption += f" Phases: {_phase_list(series)}."
+        out.append(KeepTogether([
+            layout.markup(f"<b>{esc(series.title)}</b> ({esc(series.unit)})", s.body),
+            ch.series_chart(series), para(caption, s.small), Spacer(1, 6)]))  # fmt: skip
+    return out
+
+
+def history(ctx: Context, draw: bool) -> list[Any]:
+    h = ctx.history
+    s = styles()
+    summary = (f"Cycles completed: {h.cycles_done} of a reuse limit of {h.reuse_limit}. NWP "
+               f"recovery limits: minimum {h.recovery_min * 100:.4g} %, alert below "
+               f"{h.recovery_alert * 100:.4g} %.")  # fmt: skip
+    out: list[Any] = [para(summary, s.body)]
+    out.append(sub("Recent cycles"))
+    if h.recent_cycles:
+        cols = widths(8, 15, 18, 24, 24, 11)
+        rows = []
+        for c in h.recent_cycles:
+            values = (str(c.cycle), c.product, c.lot, when(c.started_at),
+                      when(c.ended_at, "not ended"), "this run" if c.this_run else "")  # fmt: skip
+            # The run this record is about stands out in bold, measured in bold so it fits.
+            rows.append([layout.cell(v, w, s.cell_bold if c.this_run else None)
+                         for v, w in zip(values, cols, strict=True)])  # fmt: skip
+        out.append(layout.table(("Cycle", "Product", "Lot", "Started", "Ended", ""), rows, cols))
+    else:
+        out.append(note("No earlier cycles."))
+    out += [Spacer(1, 5), sub("NWP recovery after cleaning")]
+    if draw:
+        out.append(ch.recovery_chart(h))
+    if h.recovery:
+        rows = [[str(p.cycle), when(p.at), p.nwp, f"{p.recovery * 100:.1f} %",
+                 marks.VerdictMark(p.verdict)] for p in h.recovery]  # fmt: skip
+        out.append(layout.table(("Cycles done", "Tested at", "NWP", "Recovery", "Verdict"), rows,
+                                widths(12, 26, 32, 14, 16)))  # fmt: skip
+    else:
+        out.append(note("No NWP recovery results yet."))
+    out += [Spacer(1, 5), sub("Last integrity test")]
+    t = h.last_integrity
+    if t is None:
+        out.append(note("No integrity test recorded."))
+    else:
+        word = "passed" if t.passed else "failed"
+        out.append(layout.table(("Tested at", "Test", "Result", "Limit", "Verdict"),
+                                [[when(t.at), t.kind, t.result, t.limit,
+                                  marks.VerdictMark(word)]],
+                                widths(26, 22, 18, 18, 16)))  # fmt: skip
+    out += [Spacer(1, 5), sub("Recent cleanings"), caution_panel(CAUSTIC_CAUTION), Spacer(1, 3)]
+    if h.cleanings:
+        rows = [[when(c.at), c.agent, c.concentration, c.temperature, c.contact_time, c.conforms]
+                for c in h.cleanings]  # fmt: skip
+        heading = ("At", "Agent", "Concentration", "Temperature", "Contact time",
+                   "Conforms to procedure")  # fmt: skip
+        out.append(layout.table(heading, rows, widths(24, 12, 15, 13, 13, 23)))
+    else:
+        out.append(note("No cleanings recorded before this run."))
+    return out
+
+
+def audit(ctx: Context) -> list[Any]:
+    if not ctx.audit:
+        return [note("No audit events in the excerpt.")]
+    rows = [[str(a.seq), when(a.at), a.actor, a.action, f"{a.entity} {a.entity_id}",
+             a.field or "—", a.old or "—", a.new or "—", a.reason or "—"]
+            for a in ctx.audit]  # fmt: skip
+    heading = ("Seq", "At", "Actor", "Action", "Record", "Field", "Old", "New", "Reason")
+    return [note(f"{len(ctx.audit)} audit events, in the order of the audit trail."),
+            layout.table(heading, rows, widths(5, 22, 11, 8, 9, 10, 11, 11, 13))]  # fmt: skip
+
+
+def assumptions(ctx: Context) -> list[Any]:
+    if not ctx.assumptions:
+        return [note("None stated.")]
+    return [para(f"• {a}", styles().body) for a in ctx.assumptions]

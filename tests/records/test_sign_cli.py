@@ -1,0 +1,175 @@
+"""Electronic signatures through the CLI (DESIGN §7; 21 CFR 11.50, 11.70, 11.200; Annex 11 §14):
+password at every signature, the template's order and roles, different people, no
+administrator, approval blocked by open problems, lock after approval, corrections as new
+revisions. Every refusal exits 3 and writes nothing."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from tests.records.flow import add_second_qa, approve, sign, to_review
+from tests.world import World
+
+
+@pytest.fixture
+def review(world: World, tmp_path: Path) -> World:
+    add_second_qa(world)
+    to_review(world, tmp_path)
+    return world
+
+
+def _show(w: World, run: int = 1) -> dict:  # type: ignore[type-arg]
+    return w.ok(w.cli("record", "show", str(run), "--json")).json()
+
+
+def test_four_people_sign_in_order_and_approval_locks(review: World) -> None:
+    out = review.ok(
+        review.as_user("op.kim", "record", "sign", "1", "--meaning", "performed", "--json")
+    ).json()
+    assert out["revision"] == 1 and out["name"] == "Kim Varga" and out["role"] == "operator"
+    assert out["signed_at"].endswith("+00:00") and len(out["revision_sha256"]) == 64
+    for meaning, user in (("verified", "eng.ray"), ("reviewed", "qa.lin")):
+        review.ok(sign(review, 1, meaning, user))
+    assert _show(review)["record"]["run_status"] == "in_review"
+    last = review.ok(sign(review, 1, "approved", "qa.nova"))
+    assert "approved and locked" in last.stdout
+    shown = _show(review)
+    assert shown["record"]["run_status"] == "approved"
+    sigs = shown["signatures"]
+    assert [s["meaning"] for s in sigs] == ["performed", "verified", "reviewed", "approved"]
+    assert {s["revision_sha256"] for s in sigs} == {shown["revisions"][0]["sha256"]}
+    # Locked: no data entry, no further signature.
+    before = review.snapshot()
+    qc = review.as_user(
+        "op.kim", "run", "qc", "1", "--result", "ph=7.5", "--correction-reason", "typo"
+    )
+    assert qc.code == 3 and "approved and locked" in qc.stderr
+    again = sign(review, 1, "approved", "qa.lin")
+    assert again.code == 3  # type: ignore[attr-defined]
+    assert review.snapshot() == before
+    review.ok(review.cli("audit", "verify"))
+
+
+@pytest.mark.parametrize(
+    ("meaning", "user", "needle"),
+    [
+        ("approved", "qa.nova", "sign in order: performed, verified, reviewed first"),
+        ("performed", "sysadm", "administrators cannot sign"),
+        ("reviewed", "op.kim", "needs the role engineer or qa"),
+    ],
+)
+def test_refused_signatures_write_nothing(
+    review: World, meaning: str, user: str, needle: str
+) -> None:
+    before = review.snapshot()
+    refused = sign(review, 1, meaning, user)
+    assert refused.code == 3, refused  # type: ignore[attr-defined]
+    assert needle in refused.stderr  # type: ignore[attr-defined]
+    assert review.snapshot() == before
+
+
+def test_one_person_cannot_sign_two_meanings(review: World) -> None:
+    review.ok(sign(review, 1, "performed", "eng.ray"))
+    refused = sign(review, 1, "verified", "eng.ray")
+    assert refused.code == 3 and "different person" in refused.stderr  # type: ignore[attr-defined]
+
+
+def test_password_is_asked_every_time_and_a_wrong_one_signs_nothing(review: World) -> None:
+    before = review.snapshot()["signature"]
+    wrong = review.cli(
+        "record",
+        "sign",
+        "1",
+        "--meaning",
+        "performed",
+        "--user",
+        "op.kim",
+        "--password-stdin",
+        input="not-her-password\n",
+    )
+    assert wrong.code == 3 and "wrong password" in wrong.stderr
+    assert review.snapshot()["signature"] == before
+    # Without --user the user ID is asked for too (here from stdin, as a script would).
+    from tests.world import PASSWORDS
+
+    asked = review.cli(
+        "record",
+        "sign",
+        "1",
+        "--meaning",
+        "performed",
+        "--password-stdin",
+        input=f"op.kim\n{PASSWORDS['op.kim']}\n",
+    )
+    review.ok(asked)
+    assert "performed by Kim Varga (op.kim, operator)" in asked.stdout
+
+
+def test_an_unknown_meaning_is_bad_input(review: World) -> None:
+    bad = review.as_user("qa.lin", "record", "sign", "1", "--meaning", "released")
+    assert bad.code == 2 and "--meaning 'released'" in bad.stderr and "performed" in bad.stderr
+
+
+def test_approval_is_refused_while_a_check_is_missing(world: World, tmp_path: Path) -> None:
+    add_second_qa(world)
+    to_review(world, tmp_path, qc=["particle_size=78 nm", "ph=7.4"])
+    for meaning, user in (("performed", "op.kim"), ("verified", "eng.ray"), ("reviewed", "qa.lin")):
+        world.ok(sign(world, 1, meaning, user))
+    refused = sign(world, 1, "approved", "qa.nova")
+    assert refused.code == 3  # type: ignore[attr-defined]
+    assert "check pdi is MISSING" in refused.stderr  # type: ignore[attr-defined]
+    assert "check encapsulation is MISSING" in refused.stderr  # type: ignore[attr-defined]
+    assert _show(world)["record"]["run_status"] == "in_review"
+
+
+def test_signing_needs_the_run_in_review(world: World, tmp_path: Path) -> None:
+    from tests.cli.test_runs import plan, ready_for_a_run
+
+    ready_for_a_run(world)
+    world.ok(plan(world))
+    refused = sign(world, 1, "performed", "op.kim")
+    assert refused.code == 3 and "it is planned" in refused.stderr  # type: ignore[attr-defined]
+
+
+def test_a_correction_makes_a_new_revision_and_keeps_the_old_signatures(review: World) -> None:
+    approve(review)
+    first = _show(review)["revisions"][0]
+    assert review.as_user("op.kim", "record", "correct", "1", "--reason", "x").code == 3
+    review.ok(
+        review.as_user(
+            "eng.ray", "record", "correct", "1", "--reason", "pH result was transcribed wrongly"
+        )
+    )
+    review.ok(
+        review.as_user(
+            "op.kim",
+            "run",
+            "qc",
+            "1",
+            "--result",
+            "ph=7.3",
+            "--correction-reason",
+            "transcription error",
+        )
+    )
+    review.ok(review.as_user("op.kim", "run", "submit", "1"))
+    review.ok(sign(review, 1, "performed", "op.kim"))
+    shown = _show(review)
+    revs = shown["revisions"]
+    assert [r["number"] for r in revs] == [1, 2]
+    assert revs[0]["sha256"] == first["sha256"] and revs[0]["superseded"]
+    assert revs[1]["reason"] == "pH result was transcribed wrongly"
+    assert revs[1]["sha256"] != revs[0]["sha256"]
+    sigs = shown["signatures"]
+    assert [(s["revision"], s["meaning"]) for s in sigs] == [
+        (1, "performed"),
+        (1, "verified"),
+        (1, "reviewed"),
+        (1, "approved"),
+        (2, "performed"),
+    ]
+    assert all(s["revision_sha256"] == revs[s["revision"] - 1]["sha256"] for s in sigs)
+    assert shown["record"]["current_revision"] == 2
+    review.ok(review.cli("audit", "verify"))

@@ -1,0 +1,177 @@
+"""`record print` and `record verify`: a good file verifies; each kind of tampering is named
+(exit 1): a flipped byte in the PDF, a database value edited after signing, a signature row
+copied onto another run, a sealed PDF changed after sealing."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from sqlalchemy import text
+
+from tests.records.flow import add_second_qa, approve, sign, to_review
+from tests.world import World
+
+
+@pytest.fixture
+def approved(world: World, tmp_path: Path) -> World:
+    add_second_qa(world)
+    to_review(world, tmp_path)
+    approve(world)
+    return world
+
+
+def _print(w: World, out: Path, run: int = 1) -> Path:
+    w.ok(w.cli("record", "print", str(run), "--out", str(out)))
+    return out / f"BR-{run:06d}-rev1.pdf"
+
+
+def _verify(w: World, path: Path) -> tuple[int, str]:
+    r = w.cli("record", "verify", str(path), "--json")
+    assert r.exception is None, r.exception  # no traceback, whatever the file holds
+    return r.code, r.stdout
+
+
+def test_a_printed_record_verifies_and_prints_identically_twice(
+    approved: World, tmp_path: Path
+) -> None:
+    first = _print(approved, tmp_path)
+    data = first.read_bytes()
+    again = _print(approved, tmp_path)
+    assert again.read_bytes() == data  # same database content -> identical bytes
+    assert not list(tmp_path.glob("*.tmp*"))  # the temporary file was renamed
+    code, out = _verify(approved, first)
+    assert code == 0, out
+    assert "byte for byte" in out and "bound to their revision" in out
+
+
+def test_one_flipped_byte_in_the_pdf_is_found(approved: World, tmp_path: Path) -> None:
+    path = _print(approved, tmp_path)
+    data = bytearray(path.read_bytes())
+    at = len(data) // 2
+    data[at] ^= 0x01
+    path.write_bytes(bytes(data))
+    code, out = _verify(approved, path)
+    assert code == 1
+    assert "differs from the record rendered from the database" in out
+
+
+def test_a_database_value_edited_after_signing_is_found(approved: World, tmp_path: Path) -> None:
+    path = _print(approved, tmp_path)
+    engine = approved.engine()
+    with engine.begin() as conn:
+        conn.execute(text("UPDATE qc_result SET text = '7.9', value = 7.9 WHERE attribute = 'ph'"))
+    code, out = _verify(approved, path)
+    assert code == 1
+    assert "the database no longer gives the content that was signed" in out
+    assert "'7.4' when issued, '7.9' now" in out
+    assert "audit trail: qc_result" in out
+
+
+def test_a_signature_copied_onto_another_run_is_found(approved: World, tmp_path: Path) -> None:
+    # A second run on the same module, in review with one signature of its own.
+    approved.ok(approved.water("QMB-0142", "post-use", "90 mL/min"))
+    approved.ok(approved.clean("QMB-0142"))
+    approved.ok(approved.water("QMB-0142", "post-clean", "165 mL/min"))
+    approved.ok(approved.integrity("QMB-0142"))
+    to_review(approved, tmp_path, run=2, lot="QB117-26-021", ready=False)
+    approved.ok(sign(approved, 2, "performed", "op.kim"))
+    engine = approved.engine()
+    with engine.begin() as conn:
+        cols = (
+            "record_hash, created_at, created_by, revision_id, revision, revision_sha256, "
+            "meaning, login, full_name, role, signed_at"
+        )
+        conn.execute(
+            text(
+                f"INSERT INTO signature (run_id, {cols}) SELECT 2, {cols} "
+                "FROM signature WHERE run_id = 1 AND meaning = 'approved'"
+            )
+        )
+    r = approved.cli("record", "show", "2", "--json")
+    assert [s["meaning"] for s in r.json()["signatures"]] == ["performed", "approved"]
+    path = _print(approved, tmp_path, run=2)
+    code, out = _verify(approved, path)
+    assert code == 1
+    assert (
+        "(approved by qa.nova) on BR-000002 claims revision 1 but points at revision 1 of "
+        "BR-000001: it was copied or moved" in out
+    )
+    assert "audit trail: signature" in out
+
+
+def test_a_file_that_is_not_a_record_is_refused(approved: World, tmp_path: Path) -> None:
+    other = tmp_path / "notes.pdf"
+    other.write_bytes(b"%PDF-1.4\n%%EOF\n")
+    code, out = _verify(approved, other)
+    assert code == 1 and "no fluxledger record stamp" in out
+    missing = approved.cli("record", "verify", str(tmp_path / "absent.pdf"))
+    assert missing.code == 2 and "absent.pdf" in missing.stderr
+
+
+def test_a_sealed_record_verifies_and_an_edit_after_sealing_is_found(
+    approved: World, tmp_path: Path
+) -> None:
+    from ledger.records.identity import make_identity
+
+    ident = make_identity(
+        tmp_path / "seal",
+        common_name="Test seal",
+        organization="Quellmoor Biotherapeutics (invented)",
+        passphrase=b"seal-pass-1",
+    )
+    sealed = approved.cli(
+        "record",
+        "seal",
+        "1",
+        "--key",
+        str(ident.p12),
+        "--key-password-stdin",
+        "--out",
+        str(tmp_path),
+        input="seal-pass-1\n",
+    )
+    approved.ok(sealed)
+    path = tmp_path / "BR-000001-rev1-sealed.pdf"
+    r = approved.cli("record", "verify", str(path), "--trust", str(ident.cert), "--json")
+    assert r.code == 0, r.stdout
+    assert "digital seal intact" in r.stdout
+    data = path.read_bytes()
+    edited = tmp_path / "edited.pdf"
+    # An edit after sealing: a plain incremental update appended to the file.
+    edited.write_bytes(data + _incremental_update(data))
+    code, out = _verify(approved, edited)
+    assert code == 1 and "after sealing" in out, out
+
+
+def _incremental_update(data: bytes) -> bytes:
+    """Append a new Info entry as an incremental update, as a PDF editor would."""
+    import io
+
+    from pyhanko.pdf_utils.generic import NameObject, TextStringObject
+    from pyhanko.pdf_utils.incremental_writer import IncrementalPdfFileWriter
+
+    buf = io.BytesIO(data)
+    w = IncrementalPdfFileWriter(buf)
+    info = w.trailer["/Info"]
+    info[NameObject("/Subject")] = TextStringObject("edited after sealing")
+    w.update_container(info)
+    out = io.BytesIO()
+    w.write(out)
+    return out.getvalue()[len(data) :]
+
+
+def test_sealing_needs_an_approved_revision(world: World, tmp_path: Path) -> None:
+    add_second_qa(world)
+    to_review(world, tmp_path)
+    world.ok(sign(world, 1, "performed", "op.kim"))
+    r = world.cli(
+        "record",
+        "seal",
+        "1",
+        "--key",
+        str(tmp_path / "none.p12"),
+        "--key-password-stdin",
+        input="x\n",
+    )
+    assert r.code == 3 and "not approved" in r.stderr
