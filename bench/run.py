@@ -65,6 +65,9 @@ def main() -> int:
     parser.add_argument(
         "--skip-skidlog", action="store_true", help="skip the skid-log import benchmark"
     )
+    parser.add_argument(
+        "--skip-records", action="store_true", help="skip the batch-record PDF benchmark"
+    )
     args = parser.parse_args()
     exe = sys.executable
     script = shutil.which("fluxledger", path=str(Path(exe).parent)) or shutil.which("fluxledger")
@@ -88,6 +91,11 @@ def main() -> int:
         import skidlog  # bench/skidlog.py
 
         ok = skidlog.run() and ok
+    if not args.skip_records:
+        print()
+        import records  # bench/records.py
+
+        ok = records.main([]) == 0 and ok
     if not args.skip_fitness:
         print()
         import fitness  # bench/fitness.py; imported here so --skip-fitness loads no database code

@@ -89,27 +89,14 @@ def test_demo_plans_and_imports_its_run(cli: Run, tmp_path: Path) -> None:
     assert "was already imported" in session
 
 
-def test_readme_commands_on_the_demo_output_run(cli: Run, tmp_path: Path) -> None:
-    """The README's `console` examples work on what `make demo` wrote (its paths swapped)."""
+def test_demo_writes_signed_and_sealed_records_the_readme_can_verify(
+    cli: Run, tmp_path: Path
+) -> None:
+    """The demo's signed and sealed records, and the README's `console` examples on them
+    (their demo-output/ paths swapped for this test's folder)."""
     import re
     import shlex
 
-    readme = (Path(__file__).resolve().parents[2] / "README.md").read_text(encoding="utf-8")
-    lines = [
-        line.strip()
-        for block in re.findall(r"```console\n(.*?)```", readme, flags=re.S)
-        for line in block.splitlines()
-        if line.strip().startswith("fluxledger ")
-    ]
-    assert any(" record verify " in line for line in lines)
-    assert cli("demo", "--out", str(tmp_path), "--json").code == 0
-    for line in lines:
-        args = shlex.split(line.replace("demo-output/", f"{tmp_path}/"))[1:]
-        result = cli(*args)
-        assert result.code == 0, (line, result.stdout, result.stderr)
-
-
-def test_demo_writes_signed_and_sealed_records(cli: Run, tmp_path: Path) -> None:
     from ledger.records.pdf import stamp_of
     from ledger.records.seal import examine
 
@@ -122,3 +109,15 @@ def test_demo_writes_signed_and_sealed_records(cli: Run, tmp_path: Path) -> None
     report = examine(sealed, trust=[tmp_path / "demo-seal" / "seal-cert.pem"])
     assert report.sealed and report.intact and report.whole_file and report.trusted
     assert sealed[: report.signed_length] == signed
+    readme = (Path(__file__).resolve().parents[2] / "README.md").read_text(encoding="utf-8")
+    lines = [
+        line.strip()
+        for block in re.findall(r"```console\n(.*?)```", readme, flags=re.S)
+        for line in block.splitlines()
+        if line.strip().startswith("fluxledger ")
+    ]
+    assert any(" record verify " in line for line in lines)
+    for line in lines:
+        args = shlex.split(line.replace("demo-output/", f"{tmp_path}/"))[1:]
+        result = cli(*args)
+        assert result.code == 0, (line, result.stdout, result.stderr)

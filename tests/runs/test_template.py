@@ -110,3 +110,35 @@ def test_bad_toml_names_the_file(tmp_path: Path) -> None:
 def test_unknown_template_reference_lists_the_shipped_ones() -> None:
     with pytest.raises(InputError, match=r"QB-MR-LNP-101"):
         template.find("NO-SUCH-TEMPLATE")
+
+
+SIGNERS = 'signatures = ["performed", "approved"]'
+
+
+def test_signers_default_to_common_practice_and_can_be_set() -> None:
+    t = template.parse(MINIMAL.encode(), "t.toml")
+    assert t.signers == {"performed": ("operator", "engineer"), "approved": ("qa",)}
+    text = MINIMAL.replace(SIGNERS, SIGNERS + '\nsigners = { performed = ["operator"], '
+                           'approved = ["qa", "engineer"] }')  # fmt: skip
+    t = template.parse(text.encode(), "t.toml")
+    assert t.signers == {"performed": ("operator",), "approved": ("qa", "engineer")}
+
+
+@pytest.mark.parametrize(
+    ("signers", "key", "why"),
+    [
+        ('{ performed = ["admin"], approved = ["qa"] }', "template.signers.performed",
+         "role 'admin' may not sign records"),
+        ('{ performed = ["operator"] }', "template.signers.approved", "no roles given"),
+        ('{ performed = ["operator"], approved = ["qa"], reviewed = ["qa"] }',
+         "template.signers.reviewed", "is not one of this template's signatures"),
+        ('{ performed = [], approved = ["qa"] }', "template.signers.performed",
+         "expected a list of roles"),
+    ],
+)  # fmt: skip
+def test_bad_signers_name_the_key(signers: str, key: str, why: str) -> None:
+    text = MINIMAL.replace(SIGNERS, f"{SIGNERS}\nsigners = {signers}")
+    with pytest.raises(InputError) as err:
+        template.parse(text.encode(), "bad.toml")
+    assert str(err.value).startswith(f"bad.toml: {key}"), str(err.value)
+    assert why in str(err.value)
