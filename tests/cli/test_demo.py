@@ -13,18 +13,34 @@ from tests.cli.conftest import Outcome
 Run = Callable[..., Outcome]
 
 
-def test_demo_writes_every_step(cli: Run, tmp_path: Path) -> None:
-    out = cli("demo", "--out", str(tmp_path / "demo"), "--json")
-    assert out.exception is None and out.code == 0, out.stderr
-    summary = out.json()
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, dict]:  # type: ignore[type-arg]
+    """One demo run shared by the tests that only read what it wrote (folder, --json output)."""
+    from argon2 import PasswordHasher
+    from typer.testing import CliRunner
+
+    import ledger.logbook.auth as auth
+    from ledger.cli.main import app
+
+    folder = tmp_path_factory.mktemp("demo")
+    cheap = PasswordHasher(time_cost=1, memory_cost=64, parallelism=1)
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setattr(auth, "_hasher", lambda: cheap)
+        result = CliRunner().invoke(app, ["demo", "--out", str(folder), "--json"])
+    assert result.exit_code == 0, result.stderr
+    return folder, json.loads(result.stdout)
+
+
+def test_demo_writes_every_step(demo: tuple[Path, dict]) -> None:  # type: ignore[type-arg]
+    tmp_path, summary = demo
     assert len(summary["steps"]) == 10
     assert all(s["exit_code"] == 0 for s in summary["steps"])
-    data = json.loads((tmp_path / "demo" / "bench_calculations.json").read_text())
+    data = json.loads((tmp_path / "bench_calculations.json").read_text())
     # Baseline points of QMB-0142 (invented) lie on about 900 LMH/bar.
     nwp = data["baseline_nwp"]["report"]["results"]["nwp"]
     assert nwp["unit"] == "L/(m^2*h*bar)" and nwp["value"] == pytest.approx(902, abs=5)
     assert data["integrity_decay"]["report"]["verdict"] == "PASS"
-    text = (tmp_path / "demo" / "bench_session.txt").read_text()
+    text = (tmp_path / "bench_session.txt").read_text()
     assert "invented" in text and "validated procedures" in text
 
 
@@ -40,10 +56,12 @@ def test_demo_refuses_a_folder_without_the_scenario(cli: Run, tmp_path: Path) ->
     assert not (tmp_path / "o").exists()
 
 
-def test_demo_builds_the_logbook_and_its_verdicts(cli: Run, tmp_path: Path) -> None:
-    out = cli("demo", "--out", str(tmp_path), "--json")
-    assert out.code == 0, out.stderr
-    written = out.json()["written"]
+def test_demo_builds_the_logbook_and_its_verdicts(
+    cli: Run,
+    demo: tuple[Path, dict],  # type: ignore[type-arg]
+) -> None:
+    tmp_path, summary = demo
+    written = summary["written"]
     assert str(tmp_path / "fluxledger.db") in written
     fit = json.loads((tmp_path / "fitness_qmb0142.json").read_text())
     assert fit["verdict"] == "FIT"
@@ -73,8 +91,8 @@ def test_demo_runs_twice_into_the_same_folder(cli: Run, tmp_path: Path) -> None:
     assert again.code == 0, again.stderr
 
 
-def test_demo_plans_and_imports_its_run(cli: Run, tmp_path: Path) -> None:
-    assert cli("demo", "--out", str(tmp_path), "--json").code == 0
+def test_demo_plans_and_imports_its_run(demo: tuple[Path, dict]) -> None:  # type: ignore[type-arg]
+    tmp_path, _ = demo
     checks = json.loads((tmp_path / "run1_checks.json").read_text())["acceptance_checks"]
     verdicts = {c["name"]: c["verdict"] for c in checks}
     # The invented export has one 24 s TMP spike; everything else follows the plan.
@@ -90,7 +108,8 @@ def test_demo_plans_and_imports_its_run(cli: Run, tmp_path: Path) -> None:
 
 
 def test_demo_writes_signed_and_sealed_records_the_readme_can_verify(
-    cli: Run, tmp_path: Path
+    cli: Run,
+    demo: tuple[Path, dict],  # type: ignore[type-arg]
 ) -> None:
     """The demo's signed and sealed records, and the README's `console` examples on them
     (their demo-output/ paths swapped for this test's folder)."""
@@ -100,7 +119,7 @@ def test_demo_writes_signed_and_sealed_records_the_readme_can_verify(
     from ledger.records.pdf import stamp_of
     from ledger.records.seal import examine
 
-    assert cli("demo", "--out", str(tmp_path), "--json").code == 0
+    tmp_path, _ = demo
     signed = (tmp_path / "BR-000001-rev1.pdf").read_bytes()
     sealed = (tmp_path / "BR-000001-rev1-sealed.pdf").read_bytes()
     stamp = stamp_of(signed)

@@ -19,10 +19,10 @@ PSI = 6894.757293168  # Pa per psi (NIST SP 811, B.8: 1 psi = 6.894 757 E+03 Pa)
 
 
 @pytest.fixture
-def review(world: World, tmp_path: Path) -> World:
-    add_second_qa(world)
-    to_review(world, tmp_path)
-    return world
+def review(sqlite_world: World, tmp_path: Path) -> World:
+    add_second_qa(sqlite_world)
+    to_review(sqlite_world, tmp_path)
+    return sqlite_world
 
 
 def _context(w: World, **kw: object) -> c.Context:

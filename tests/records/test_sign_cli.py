@@ -20,6 +20,13 @@ def review(world: World, tmp_path: Path) -> World:
     return world
 
 
+@pytest.fixture
+def review_sqlite(sqlite_world: World, tmp_path: Path) -> World:
+    add_second_qa(sqlite_world)
+    to_review(sqlite_world, tmp_path)
+    return sqlite_world
+
+
 def _show(w: World, run: int = 1) -> dict:  # type: ignore[type-arg]
     return w.ok(w.cli("record", "show", str(run), "--json")).json()
 
@@ -61,24 +68,24 @@ def test_four_people_sign_in_order_and_approval_locks(review: World) -> None:
     ],
 )
 def test_refused_signatures_write_nothing(
-    review: World, meaning: str, user: str, needle: str
+    review_sqlite: World, meaning: str, user: str, needle: str
 ) -> None:
-    before = review.snapshot()
-    refused = sign(review, 1, meaning, user)
+    before = review_sqlite.snapshot()
+    refused = sign(review_sqlite, 1, meaning, user)
     assert refused.code == 3, refused  # type: ignore[attr-defined]
     assert needle in refused.stderr  # type: ignore[attr-defined]
-    assert review.snapshot() == before
+    assert review_sqlite.snapshot() == before
 
 
-def test_one_person_cannot_sign_two_meanings(review: World) -> None:
-    review.ok(sign(review, 1, "performed", "eng.ray"))
-    refused = sign(review, 1, "verified", "eng.ray")
+def test_one_person_cannot_sign_two_meanings(review_sqlite: World) -> None:
+    review_sqlite.ok(sign(review_sqlite, 1, "performed", "eng.ray"))
+    refused = sign(review_sqlite, 1, "verified", "eng.ray")
     assert refused.code == 3 and "different person" in refused.stderr  # type: ignore[attr-defined]
 
 
-def test_password_is_asked_every_time_and_a_wrong_one_signs_nothing(review: World) -> None:
-    before = review.snapshot()["signature"]
-    wrong = review.cli(
+def test_password_is_asked_every_time_and_a_wrong_one_signs_nothing(review_sqlite: World) -> None:
+    before = review_sqlite.snapshot()["signature"]
+    wrong = review_sqlite.cli(
         "record",
         "sign",
         "1",
@@ -90,11 +97,11 @@ def test_password_is_asked_every_time_and_a_wrong_one_signs_nothing(review: Worl
         input="not-her-password\n",
     )
     assert wrong.code == 3 and "wrong password" in wrong.stderr
-    assert review.snapshot()["signature"] == before
+    assert review_sqlite.snapshot()["signature"] == before
     # Without --user the user ID is asked for too (here from stdin, as a script would).
     from tests.world import PASSWORDS
 
-    asked = review.cli(
+    asked = review_sqlite.cli(
         "record",
         "sign",
         "1",
@@ -103,33 +110,33 @@ def test_password_is_asked_every_time_and_a_wrong_one_signs_nothing(review: Worl
         "--password-stdin",
         input=f"op.kim\n{PASSWORDS['op.kim']}\n",
     )
-    review.ok(asked)
+    review_sqlite.ok(asked)
     assert "performed by Kim Varga (op.kim, operator)" in asked.stdout
 
 
-def test_an_unknown_meaning_is_bad_input(review: World) -> None:
-    bad = review.as_user("qa.lin", "record", "sign", "1", "--meaning", "released")
+def test_an_unknown_meaning_is_bad_input(review_sqlite: World) -> None:
+    bad = review_sqlite.as_user("qa.lin", "record", "sign", "1", "--meaning", "released")
     assert bad.code == 2 and "--meaning 'released'" in bad.stderr and "performed" in bad.stderr
 
 
-def test_approval_is_refused_while_a_check_is_missing(world: World, tmp_path: Path) -> None:
-    add_second_qa(world)
-    to_review(world, tmp_path, qc=["particle_size=78 nm", "ph=7.4"])
+def test_approval_is_refused_while_a_check_is_missing(sqlite_world: World, tmp_path: Path) -> None:
+    add_second_qa(sqlite_world)
+    to_review(sqlite_world, tmp_path, qc=["particle_size=78 nm", "ph=7.4"])
     for meaning, user in (("performed", "op.kim"), ("verified", "eng.ray"), ("reviewed", "qa.lin")):
-        world.ok(sign(world, 1, meaning, user))
-    refused = sign(world, 1, "approved", "qa.nova")
+        sqlite_world.ok(sign(sqlite_world, 1, meaning, user))
+    refused = sign(sqlite_world, 1, "approved", "qa.nova")
     assert refused.code == 3  # type: ignore[attr-defined]
     assert "check pdi is MISSING" in refused.stderr  # type: ignore[attr-defined]
     assert "check encapsulation is MISSING" in refused.stderr  # type: ignore[attr-defined]
-    assert _show(world)["record"]["run_status"] == "in_review"
+    assert _show(sqlite_world)["record"]["run_status"] == "in_review"
 
 
-def test_signing_needs_the_run_in_review(world: World, tmp_path: Path) -> None:
+def test_signing_needs_the_run_in_review(sqlite_world: World, tmp_path: Path) -> None:
     from tests.cli.test_runs import plan, ready_for_a_run
 
-    ready_for_a_run(world)
-    world.ok(plan(world))
-    refused = sign(world, 1, "performed", "op.kim")
+    ready_for_a_run(sqlite_world)
+    sqlite_world.ok(plan(sqlite_world))
+    refused = sign(sqlite_world, 1, "performed", "op.kim")
     assert refused.code == 3 and "it is planned" in refused.stderr  # type: ignore[attr-defined]
 
 

@@ -21,6 +21,14 @@ def approved(world: World, tmp_path: Path) -> World:
     return world
 
 
+@pytest.fixture
+def approved_sqlite(sqlite_world: World, tmp_path: Path) -> World:
+    add_second_qa(sqlite_world)
+    to_review(sqlite_world, tmp_path)
+    approve(sqlite_world)
+    return sqlite_world
+
+
 def _print(w: World, out: Path, run: int = 1) -> Path:
     w.ok(w.cli("record", "print", str(run), "--out", str(out)))
     return out / f"BR-{run:06d}-rev1.pdf"
@@ -45,13 +53,13 @@ def test_a_printed_record_verifies_and_prints_identically_twice(
     assert "byte for byte" in out and "bound to their revision" in out
 
 
-def test_one_flipped_byte_in_the_pdf_is_found(approved: World, tmp_path: Path) -> None:
-    path = _print(approved, tmp_path)
+def test_one_flipped_byte_in_the_pdf_is_found(approved_sqlite: World, tmp_path: Path) -> None:
+    path = _print(approved_sqlite, tmp_path)
     data = bytearray(path.read_bytes())
     at = len(data) // 2
     data[at] ^= 0x01
     path.write_bytes(bytes(data))
-    code, out = _verify(approved, path)
+    code, out = _verify(approved_sqlite, path)
     assert code == 1
     assert "differs from the record rendered from the database" in out
 
@@ -100,17 +108,17 @@ def test_a_signature_copied_onto_another_run_is_found(approved: World, tmp_path:
     assert "audit trail: signature" in out
 
 
-def test_a_file_that_is_not_a_record_is_refused(approved: World, tmp_path: Path) -> None:
+def test_a_file_that_is_not_a_record_is_refused(approved_sqlite: World, tmp_path: Path) -> None:
     other = tmp_path / "notes.pdf"
     other.write_bytes(b"%PDF-1.4\n%%EOF\n")
-    code, out = _verify(approved, other)
+    code, out = _verify(approved_sqlite, other)
     assert code == 1 and "no fluxledger record stamp" in out
-    missing = approved.cli("record", "verify", str(tmp_path / "absent.pdf"))
+    missing = approved_sqlite.cli("record", "verify", str(tmp_path / "absent.pdf"))
     assert missing.code == 2 and "absent.pdf" in missing.stderr
 
 
 def test_a_sealed_record_verifies_and_an_edit_after_sealing_is_found(
-    approved: World, tmp_path: Path
+    approved_sqlite: World, tmp_path: Path
 ) -> None:
     from ledger.records.identity import make_identity
 
@@ -120,7 +128,7 @@ def test_a_sealed_record_verifies_and_an_edit_after_sealing_is_found(
         organization="Quellmoor Biotherapeutics (invented)",
         passphrase=b"seal-pass-1",
     )
-    sealed = approved.cli(
+    sealed = approved_sqlite.cli(
         "record",
         "seal",
         "1",
@@ -131,16 +139,16 @@ def test_a_sealed_record_verifies_and_an_edit_after_sealing_is_found(
         str(tmp_path),
         input="seal-pass-1\n",
     )
-    approved.ok(sealed)
+    approved_sqlite.ok(sealed)
     path = tmp_path / "BR-000001-rev1-sealed.pdf"
-    r = approved.cli("record", "verify", str(path), "--trust", str(ident.cert), "--json")
+    r = approved_sqlite.cli("record", "verify", str(path), "--trust", str(ident.cert), "--json")
     assert r.code == 0, r.stdout
     assert "digital seal intact" in r.stdout
     data = path.read_bytes()
     edited = tmp_path / "edited.pdf"
     # An edit after sealing: a plain incremental update appended to the file.
     edited.write_bytes(data + _incremental_update(data))
-    code, out = _verify(approved, edited)
+    code, out = _verify(approved_sqlite, edited)
     assert code == 1 and "after sealing" in out, out
 
 
@@ -161,11 +169,11 @@ def _incremental_update(data: bytes) -> bytes:
     return out.getvalue()[len(data) :]
 
 
-def test_sealing_needs_an_approved_revision(world: World, tmp_path: Path) -> None:
-    add_second_qa(world)
-    to_review(world, tmp_path)
-    world.ok(sign(world, 1, "performed", "op.kim"))
-    r = world.cli(
+def test_sealing_needs_an_approved_revision(sqlite_world: World, tmp_path: Path) -> None:
+    add_second_qa(sqlite_world)
+    to_review(sqlite_world, tmp_path)
+    sqlite_world.ok(sign(sqlite_world, 1, "performed", "op.kim"))
+    r = sqlite_world.cli(
         "record",
         "seal",
         "1",
