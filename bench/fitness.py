@@ -1,4 +1,4 @@
-"""Fitness-verdict speed with 1,000,000 water-flux tests in the database (DESIGN §9).
+"""Fitness-verdict speed with 1,000,000 water-flux tests in the database (DEVELOPERS.md).
 
 What is measured, and how:
 

@@ -1,5 +1,5 @@
 """Batch-record PDF speed and size: the 24 h record with charts against the same record as
-plain tables (DESIGN §9).
+plain tables (DEVELOPERS.md).
 
 What is measured, and how:
 
@@ -22,32 +22,15 @@ Run alone with ``.venv/bin/python bench/records.py``.
 from __future__ import annotations
 
 import argparse
-import statistics
 import sys
-import time
-from collections.abc import Callable
 from pathlib import Path
+
+from timing import alternate  # bench/timing.py
 
 ROOT = Path(__file__).resolve().parent.parent
 TARGET_S = 0.5
 TARGET_BYTES = 400_000
 SOFTWARE = "bench"
-
-
-def _alternate(
-    fns: dict[str, Callable[[], object]], repeats: int
-) -> dict[str, tuple[float, float]]:
-    """(median, minimum) seconds of each function, called in turn ``repeats`` times after a
-    warm-up."""
-    for fn in fns.values():
-        fn()
-    times: dict[str, list[float]] = {name: [] for name in fns}
-    for _ in range(repeats):
-        for name, fn in fns.items():
-            start = time.perf_counter()
-            fn()
-            times[name].append(time.perf_counter() - start)
-    return {name: (statistics.median(ts), min(ts)) for name, ts in times.items()}
 
 
 def run(repeats: int = 10, seconds: int = 86_400) -> bool:
@@ -70,7 +53,7 @@ def run(repeats: int = 10, seconds: int = 86_400) -> bool:
 
     full = render(ctx, software_version=SOFTWARE)
     plain = render(ctx, software_version=SOFTWARE, charts=False)
-    figures = _alternate(
+    figures = alternate(
         {
             "full": lambda: render(ctx, software_version=SOFTWARE),
             "plain": lambda: render(ctx, software_version=SOFTWARE, charts=False),
@@ -158,7 +141,7 @@ def end_to_end(repeats: int, seconds: int) -> bool:
         return render(ctx, software_version=SOFTWARE)
 
     data = whole()
-    figures = _alternate({"e2e": whole,
+    figures = alternate({"e2e": whole,
                           "plain": lambda: render(replace(base, charts=()),
                                                   software_version=SOFTWARE, charts=False)},
                          repeats)  # fmt: skip

@@ -1,4 +1,4 @@
-"""Skid-log import speed against pandas.read_csv(engine="pyarrow") of the same file (DESIGN §9).
+"""Skid-log import speed against pandas.read_csv(engine="pyarrow") of the same file (DEVELOPERS.md).
 
 What is measured, and how:
 
@@ -26,13 +26,12 @@ Run alone with ``.venv/bin/python bench/skidlog.py`` or through ``bench/run.py``
 from __future__ import annotations
 
 import argparse
-import statistics
 import subprocess
 import sys
 import tempfile
-import time
-from collections.abc import Callable
 from pathlib import Path
+
+from timing import alternate  # bench/timing.py
 
 ROOT = Path(__file__).resolve().parent.parent
 TARGET = 2.0
@@ -40,7 +39,7 @@ TARGET = 2.0
 
 def _case_objects(rows: int) -> tuple[object, list[object]]:
     """The geometry and the SI ranges of the simulator's long case."""
-    from ledger.runs.actuals import Geometry, Range
+    from ledger.runs.actuals import ChannelLimit, Geometry
 
     sys.path.insert(0, str(ROOT))
     from tests.reference import skidsim
@@ -48,7 +47,9 @@ def _case_objects(rows: int) -> tuple[object, list[object]]:
     case = skidsim.long_case(rows)
     p = case.process
     geometry = Geometry(p.area_m2, p.fibers, p.lumen_diameter_m)
-    ranges = [Range(lim.name, lim.channel, lim.low, lim.high, lim.phase) for lim in case.limits]
+    ranges = [
+        ChannelLimit(lim.name, lim.channel, lim.low, lim.high, lim.phase) for lim in case.limits
+    ]
     return geometry, ranges
 
 
@@ -57,22 +58,6 @@ def _write(rows: int, folder: Path) -> tuple[Path, Path]:
     from tests.reference import skidsim
 
     return skidsim.write_long_log(rows, folder)
-
-
-def _alternate(
-    fns: dict[str, Callable[[], object]], repeats: int
-) -> dict[str, tuple[float, float]]:
-    """(median, minimum) seconds of each function, called in turn ``repeats`` times after a
-    warm-up."""
-    for fn in fns.values():
-        fn()
-    times: dict[str, list[float]] = {name: [] for name in fns}
-    for _ in range(repeats):
-        for name, fn in fns.items():
-            start = time.perf_counter()
-            fn()
-            times[name].append(time.perf_counter() - start)
-    return {name: (statistics.median(ts), min(ts)) for name, ts in times.items()}
 
 
 # ru_maxrss of a child started by fork + exec can report the parent's peak (Linux keeps the
@@ -90,13 +75,13 @@ _RSS = {
     "summarize": """
 import resource, sys
 sys.path.insert(0, {root!r})
-from ledger.runs.actuals import Geometry, Range, summarize
+from ledger.runs.actuals import Geometry, ChannelLimit, summarize
 from ledger.runs.mapping import load_mapping
 from ledger.runs.skidlog import read_log
 from tests.reference import skidsim
 case = skidsim.long_case({rows})
 p = case.process
-ranges = [Range(x.name, x.channel, x.low, x.high, x.phase) for x in case.limits]
+ranges = [ChannelLimit(x.name, x.channel, x.low, x.high, x.phase) for x in case.limits]
 s = summarize(read_log({csv!r}, load_mapping({mapping!r})),
               Geometry(p.area_m2, p.fibers, p.lumen_diameter_m), ranges)
 assert s.rows == {rows}, s.rows
@@ -140,7 +125,7 @@ def run(repeats: int = 15, rows: int = 86_400, memory_rows: int = 1_000_000) -> 
         size = csv.stat().st_size
         log = read_log(csv, mapping)
         found = summarize(log, geometry, ranges)  # type: ignore[arg-type]
-        medians = _alternate(
+        medians = alternate(
             {
                 "read_csv": lambda: pd.read_csv(csv, engine="pyarrow"),
                 "import": lambda: summarize(read_log(csv, mapping), geometry, ranges),  # type: ignore[arg-type]

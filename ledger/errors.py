@@ -9,7 +9,7 @@ from __future__ import annotations
 
 
 class LedgerError(Exception):
-    """Base of all user-facing errors. ``exit_code`` follows DESIGN §10."""
+    """Base of all user-facing errors. ``exit_code`` follows DEVELOPERS.md."""
 
     exit_code = 2
 

@@ -30,7 +30,7 @@ class Kind:
     example: str
 
 
-# Display units are spelled so that a stock pint UnitRegistry parses them (DESIGN §10).
+# Display units are spelled so that a stock pint UnitRegistry parses them (DEVELOPERS.md).
 KINDS: dict[str, Kind] = {
     "pressure": Kind("[pressure]", "Pa", "bar", "20 psi, 1.4 bar, 138 kPa"),
     "flow": Kind("[volume] / [time]", "m**3/s", "mL/min", "250 mL/min, 15 L/h"),
@@ -240,6 +240,6 @@ def from_si(value: float, kind: str, unit: str | None = None) -> float:
 
 
 def quantity(value: float, kind: str, unit: str | None = None) -> dict[str, Any]:
-    """A JSON-ready quantity ``{"value": ..., "unit": ...}`` in the display unit (DESIGN §10)."""
+    """A JSON-ready quantity ``{"value": ..., "unit": ...}`` in the display unit (DEVELOPERS.md)."""
     target = unit or KINDS[kind].display
     return {"value": from_si(value, kind, target), "unit": target}

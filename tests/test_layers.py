@@ -1,4 +1,4 @@
-"""DESIGN §2: imports point one way; science/ and rules/ stay pure; the CLI starts light."""
+"""DEVELOPERS.md: imports point one way; science/ and rules/ stay pure; the CLI starts light."""
 
 from __future__ import annotations
 
@@ -57,12 +57,12 @@ def test_science_loads_without_pandas_or_pint() -> None:
 
 
 def test_cli_start_up_path_has_no_heavy_imports() -> None:
-    # `fluxledger --help` must stay close to bare typer (DESIGN §9): no numpy, pint, pandas.
+    # `fluxledger --help` must stay close to bare typer (DEVELOPERS.md): no numpy, pint, pandas.
     mods = _loaded_after("import ledger.cli.main")
     assert not {"numpy", "pint", "pandas", "scipy", "sqlalchemy", "reportlab"} & mods
 
 
-# Each layer may use the ones below it only (DESIGN §2).
+# Each layer may use the ones below it only (DEVELOPERS.md).
 ABOVE = {
     "ledger/store": {"ledger.logbook", "ledger.runs", "ledger.records", "ledger.cli",
                      "ledger.rules"},

@@ -118,7 +118,7 @@ def test_header_split(header: str, name: str, unit: str | None) -> None:
 
 @pytest.mark.parametrize("kind", sorted(units.KINDS))
 def test_every_display_unit_parses_in_a_stock_pint_registry(kind: str) -> None:
-    # DESIGN §10: the JSON unit string must be one that pint parses, without our definitions.
+    # DEVELOPERS.md: the JSON unit string must be one that pint parses, without our definitions.
     k = units.KINDS[kind]
     stock = pint.UnitRegistry()
     shown = stock.Quantity(1.0, k.display)

@@ -16,7 +16,7 @@ SITE_NOTE = (
 )
 
 
-# Column-name suffixes (DESIGN: SI names end in their unit) and the kind they hold.
+# Column-name suffixes (SI names end in their unit) and the kind they hold.
 _SUFFIX_KINDS = (
     ("_m_s_pa", "permeability"),
     ("_pa_s", "pressure_rate"),

@@ -129,16 +129,16 @@ def _print(s: Any, *, with_limits: bool) -> None:
     skip = {"permeate_flow"} if "flux" in s.run.stats else set()
     shown = [(k, label) for k, label in MEANS if k in s.run.stats and k not in skip]
     if shown:
-        from ledger.runs.actuals import KINDS
+        from ledger.runs.actuals import CHANNEL_KINDS
 
         means = Table("Time-weighted means", [("phase", "phase"), *shown])
         for a in scopes:
             means.rows.append(
-                [a.phase or "whole run"] + [Q(a.stats[k].mean, KINDS[k]) for k, _ in shown]
+                [a.phase or "whole run"] + [Q(a.stats[k].mean, CHANNEL_KINDS[k]) for k, _ in shown]
             )
         report.tables.append(means)
     if s.excursions:
-        from ledger.runs.actuals import KINDS
+        from ledger.runs.actuals import CHANNEL_KINDS
 
         exc = Table(
             "Excursions",
@@ -164,8 +164,8 @@ def _print(s: Any, *, with_limits: bool) -> None:
                     e.start.strftime(clock),
                     Q(e.duration_s, "time", "s"),
                     e.samples,
-                    Q(e.worst, KINDS[e.channel]),
-                    Q(e.limit, KINDS[e.channel]),
+                    Q(e.worst, CHANNEL_KINDS[e.channel]),
+                    Q(e.limit, CHANNEL_KINDS[e.channel]),
                 ]
             )
         report.tables.append(exc)

@@ -40,15 +40,15 @@ def root(
 
 
 def _register() -> None:
-    from ledger.cli import audit, calc, demo, fitness, modules, records, setup, users
+    from ledger.cli import audit, calc, demo, fitness, logbook, modules, setup, users
 
     app.command("init")(setup.init)
     app.add_typer(modules.types_app, name="module-type")
     app.add_typer(modules.app, name="module")
-    app.add_typer(records.test_app, name="test")
-    app.add_typer(records.care_app, name="care")
-    app.add_typer(records.use_app, name="use")
-    app.command("void")(records.void)
+    app.add_typer(logbook.test_app, name="test")
+    app.add_typer(logbook.care_app, name="care")
+    app.add_typer(logbook.use_app, name="use")
+    app.command("void")(logbook.void)
     app.command("fitness")(fitness.fitness)
     app.add_typer(audit.app, name="audit")
     app.add_typer(users.app, name="user")
@@ -59,9 +59,9 @@ def _register() -> None:
     from ledger.cli import logs
 
     app.add_typer(logs.app, name="log")
-    from ledger.cli import batch
+    from ledger.cli import batch_record
 
-    app.add_typer(batch.app, name="record")
+    app.add_typer(batch_record.app, name="record")
     app.command("demo")(guarded(demo.demo))
 
 

@@ -1,6 +1,6 @@
 """Reports printed by commands: a readable table on the terminal, or one JSON object.
 
-JSON follows DESIGN §10: every physical quantity is ``{"value": <number>, "unit": "<pint
+JSON follows DEVELOPERS.md: every physical quantity is ``{"value": <number>, "unit": "<pint
 unit>"}``, verdicts are strings, timestamps ISO 8601 with offset.
 """
 

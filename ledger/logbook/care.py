@@ -8,9 +8,9 @@ from datetime import datetime
 from sqlmodel import Session
 
 from ledger.errors import InputError
-from ledger.logbook.checks import positive, required
 from ledger.logbook.context import apply, begin
 from ledger.logbook.procedures import as_rule, get_procedure
+from ledger.logbook.required import positive, required
 from ledger.rules.cleaning import Done, deviations
 from ledger.rules.sequence import after_cleaning
 from ledger.science.water import T_MAX, T_MIN

@@ -11,8 +11,8 @@ from sqlmodel import Session
 from ledger import __version__
 from ledger.errors import InputError, RefusedError
 from ledger.logbook import latest
-from ledger.logbook.checks import positive
 from ledger.logbook.context import Work, apply, begin, phase_start
+from ledger.logbook.required import positive
 from ledger.rules.sequence import after_integrity_test
 from ledger.science import integrity as sci
 from ledger.science import water

@@ -10,7 +10,7 @@ from sqlmodel import Session, select
 
 from ledger.errors import InputError, RefusedError
 from ledger.logbook.auth import DECIDERS, RECORDERS, require_role
-from ledger.logbook.checks import positive, required
+from ledger.logbook.required import positive, required
 from ledger.rules.sequence import refusal
 from ledger.store.audit import Journal
 from ledger.store.tables import Hold, Module, ModuleType, UserAccount

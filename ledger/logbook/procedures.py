@@ -8,7 +8,7 @@ from sqlmodel import Session, select
 
 from ledger.errors import InputError
 from ledger.logbook.auth import DECIDERS, require_role
-from ledger.logbook.checks import positive, required
+from ledger.logbook.required import positive, required
 from ledger.rules.cleaning import Procedure
 from ledger.science.water import T_MAX, T_MIN
 from ledger.store.audit import Journal

@@ -14,7 +14,7 @@ from ledger.logbook.auth import (
     hash_password,
     require_role,
 )
-from ledger.logbook.checks import required
+from ledger.logbook.required import required
 from ledger.store.audit import Journal
 from ledger.store.tables import ROLES, Setting, UserAccount
 

@@ -9,9 +9,9 @@ from sqlmodel import Session
 from ledger.errors import InputError, RefusedError
 from ledger.logbook import latest
 from ledger.logbook.auth import DECIDERS, require_role
-from ledger.logbook.checks import required
 from ledger.logbook.context import begin, set_status
 from ledger.logbook.fitness import facts
+from ledger.logbook.required import required
 from ledger.rules.fitness import verdict
 from ledger.store.tables import ModuleUse, UserAccount
 

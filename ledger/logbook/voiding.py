@@ -8,8 +8,8 @@ from sqlmodel import Session
 
 from ledger.errors import InputError, RefusedError
 from ledger.logbook.auth import DECIDERS, require_role
-from ledger.logbook.checks import required
 from ledger.logbook.modules import get_module
+from ledger.logbook.required import required
 from ledger.rules.sequence import refusal
 from ledger.store.audit import Journal
 from ledger.store.tables import (

@@ -8,8 +8,8 @@ from datetime import datetime
 from ledger import __version__
 from ledger.errors import InputError, RefusedError
 from ledger.logbook import latest
-from ledger.logbook.checks import positive
 from ledger.logbook.context import Work, apply, begin, integrity_passed_since
+from ledger.logbook.required import positive
 from ledger.rules.sequence import after_water_test
 from ledger.science import permeability as perm
 from ledger.science import water

@@ -21,6 +21,7 @@ from sqlmodel import Session, col, select
 from ledger.records import context as c
 from ledger.runs import service as runs
 from ledger.runs.plan import Plan, show
+from ledger.runs.template import Template
 from ledger.store.tables import (
     AuditEvent,
     Cleaning,
@@ -123,7 +124,8 @@ def assemble(
         skid_log=(f"{log.file_name} ({log.rows:,} rows, SHA-256 {log.sha256})" if log else None),
         override_reason=run.override_reason,
     )
-    checks = _checks(session, run, devs, as_of)
+    qc_rows = _qc_rows(session, run_id, as_of)
+    checks = _checks(plan, template, log, qc_rows, devs, as_of)
     steps = tuple(
         c.Step(
             s["operation"],
@@ -146,7 +148,7 @@ def assemble(
         steps=steps,
         checks=checks,
         excursions=_excursions(summary, plan),
-        qc=_qc(session, run, checks, as_of),
+        qc=_qc(template, qc_rows, checks),
         deviations=tuple(
             c.DeviationRow(
                 d.number,
@@ -209,13 +211,17 @@ def _qc_rows(session: Session, run_id: int, as_of: datetime | None) -> dict[str,
 
 
 def _checks(
-    session: Session, run: Run, devs: Sequence[Deviation], as_of: datetime | None
+    plan: Plan,
+    template: Template,
+    log: SkidLogFile | None,
+    qc: dict[str, QcResult],
+    devs: Sequence[Deviation],
+    as_of: datetime | None,
 ) -> tuple[c.CheckRow, ...]:
-    from ledger.runs.checks import run_checks
+    from ledger.runs.checklist import run_checks
 
-    log = _skid_log(session, run.id, as_of)  # type: ignore[arg-type]
-    qc = {k: v.value for k, v in _qc_rows(session, run.id, as_of).items()}  # type: ignore[arg-type]
-    found = run_checks(runs.run_plan(run), runs.run_template(run), log.actuals if log else None, qc)
+    values = {k: v.value for k, v in qc.items()}
+    found = run_checks(plan, template, log.actuals if log else None, values)
     out = []
     for k in found:
         dev = next((d for d in devs if d.check_name == k.name), None)
@@ -238,22 +244,21 @@ def _checks(
 
 
 def _qc(
-    session: Session, run: Run, checks: Sequence[c.CheckRow], as_of: datetime | None
+    template: Template, rows: dict[str, QcResult], checks: Sequence[c.CheckRow]
 ) -> tuple[c.QcRow, ...]:
-    rows = _qc_rows(session, run.id, as_of)  # type: ignore[arg-type]
+    methods = {a.name: a.method for a in template.qc}
     out = []
     for k in checks:
         if k.source != "qc":
             continue
         r = rows.get(k.name)
-        attr = next(a for a in runs.run_template(run).qc if a.name == k.name)
         out.append(
             c.QcRow(
                 k.name,
                 k.title,
                 k.rule,
                 r.text if r else "—",
-                attr.method,
+                methods[k.name],
                 r.created_by if r else None,
                 iso(r.created_at) if r else None,
                 k.verdict,

@@ -1,4 +1,4 @@
-"""Downsampling for charts (DESIGN §5): the min and max of each time bucket.
+"""Downsampling for charts (DEVELOPERS.md): the min and max of each time bucket.
 
 A 24 h, 1 Hz log has 86,400 samples per channel; drawing them all costs seconds and
 megabytes, and a printed chart a few centimetres wide cannot show them. Keeping each

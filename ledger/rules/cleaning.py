@@ -1,4 +1,4 @@
-"""Does a cleaning follow its validated procedure? (DESIGN §6: agent, concentration,
+"""Does a cleaning follow its validated procedure? (DEVELOPERS.md: agent, concentration,
 temperature and contact time within the procedure's ranges; the final rinse at its endpoint.)
 
 Pure: SI values in (K, s, S/m; a concentration in the procedure's own SI unit), the list of

@@ -2,7 +2,7 @@
 
 Pure: no database, no clock (``now`` is a fact). Ratios are fractions (0.85 = 85 %), times
 are timezone-aware datetimes, durations seconds. The default limits in ledger are common
-practice (DESIGN §6); the site's validated procedures and its quality unit set the real ones.
+practice (DEVELOPERS.md); the site's validated procedures and its quality unit set the real ones.
 """
 
 from __future__ import annotations

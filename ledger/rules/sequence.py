@@ -1,4 +1,4 @@
-"""Module status and the order of work (DESIGN §6; issue: the module logbook).
+"""Module status and the order of work (DEVELOPERS.md; issue: the module logbook).
 
 available -> in use -> awaiting cleaning -> cleaned -> (post-clean tests) -> available.
 A failed integrity test or a recovery below the limit puts the module on hold until a signed

@@ -1,4 +1,4 @@
-"""Who may sign a batch-record revision, with which meaning, and when (DESIGN §7).
+"""Who may sign a batch-record revision, with which meaning, and when (DEVELOPERS.md).
 
 From 21 CFR Part 11 (§11.50 manifestation, §11.70 binding, §11.200 components) and EU GMP
 Annex 11 §14, as a site would configure them; the meanings and roles per meaning come from the

@@ -43,7 +43,7 @@ END_WINDOW = 30  # samples for the retentate-volume end estimates
 FLUX_WINDOW = 60  # samples for the flux end estimates
 
 # Every channel a summary may hold (the mapped ones and the derived ones) and its kind.
-KINDS: dict[str, str] = {
+CHANNEL_KINDS: dict[str, str] = {
     "feed_pressure": "pressure",
     "retentate_pressure": "pressure",
     "permeate_pressure": "pressure",
@@ -79,7 +79,7 @@ class Geometry:
 
 
 @dataclass(frozen=True)
-class Range:
+class ChannelLimit:
     """Limits (SI) on a channel, optionally only within the samples of one phase."""
 
     name: str
@@ -459,7 +459,7 @@ def _run_extremes(
 def _excursions(
     log: SkidLog,
     ch: dict[str, NDArray[np.float64]],
-    ranges: Sequence[Range],
+    ranges: Sequence[ChannelLimit],
     spans: list[tuple[str, int, int]],
 ) -> list[Excursion]:
     t, n = log.time_s, log.rows
@@ -514,7 +514,7 @@ def _excursions(
 def summarize(
     log: SkidLog,
     geometry: Geometry = Geometry(),
-    ranges: Sequence[Range] = (),
+    ranges: Sequence[ChannelLimit] = (),
     windows: Sequence[PhaseWindow] | None = None,
 ) -> Summary:
     """The run's and each phase's actuals, every excursion outside ``ranges``, and what could
@@ -555,7 +555,7 @@ def summarize(
 
 
 def summary_json(s: Summary) -> dict[str, Any]:
-    """The summary as DESIGN §10 JSON: quantities as {"value", "unit"}, ISO 8601 times."""
+    """The summary as DEVELOPERS.md JSON: quantities as {"value", "unit"}, ISO 8601 times."""
     from ledger.units import quantity
 
     def q(v: float | None, kind: str) -> Any:
@@ -579,9 +579,9 @@ def summary_json(s: Summary) -> dict[str, Any]:
             "flux_decline": a.flux_decline,
             "channels": {
                 k: {
-                    "mean": q(v.mean, KINDS[k]),
-                    "min": q(v.min, KINDS[k]),
-                    "max": q(v.max, KINDS[k]),
+                    "mean": q(v.mean, CHANNEL_KINDS[k]),
+                    "min": q(v.min, CHANNEL_KINDS[k]),
+                    "max": q(v.max, CHANNEL_KINDS[k]),
                 }
                 for k, v in a.stats.items()
             },
@@ -601,11 +601,11 @@ def summary_json(s: Summary) -> dict[str, Any]:
                 "channel": e.channel,
                 "phase": e.phase,
                 "side": e.side,
-                "limit": q(e.limit, KINDS[e.channel]),
+                "limit": q(e.limit, CHANNEL_KINDS[e.channel]),
                 "start": e.start.isoformat(),
                 "end": e.end.isoformat(),
                 "duration": q(e.duration_s, "time"),
-                "worst": q(e.worst, KINDS[e.channel]),
+                "worst": q(e.worst, CHANNEL_KINDS[e.channel]),
                 "samples": e.samples,
             }
             for e in s.excursions

@@ -17,13 +17,13 @@ from pathlib import Path
 
 from ledger import units
 from ledger.errors import InputError
-from ledger.runs.actuals import KINDS, Range
+from ledger.runs.actuals import CHANNEL_KINDS, ChannelLimit
 from ledger.runs.mapping import parse_toml, read_text
 
 KEYS = ("channel", "low", "high", "phase", "name")
 
 
-def load_limits(path: str | Path) -> list[Range]:
+def load_limits(path: str | Path) -> list[ChannelLimit]:
     """Read the limits file at ``path`` into ranges (SI)."""
     return parse_limits(read_text(path, "limits", "a readable TOML file"), str(path))
 
@@ -36,7 +36,7 @@ def _fail(
     )
 
 
-def parse_limits(text: str, source: str) -> list[Range]:
+def parse_limits(text: str, source: str) -> list[ChannelLimit]:
     """Validate a limits file's TOML text; ``source`` is named in every error."""
     data = parse_toml(text, source, "limits", "[[range]] tables")
     for key in data:
@@ -48,20 +48,20 @@ def parse_limits(text: str, source: str) -> list[Range]:
     return [_range(source, f"range[{i}]", spec) for i, spec in enumerate(raw, start=1)]
 
 
-def _range(source: str, key: str, spec: object) -> Range:
+def _range(source: str, key: str, spec: object) -> ChannelLimit:
     if not isinstance(spec, dict):
         raise _fail(source, key, "expected a [[range]] table", spec)
     for k in spec:
         if k not in KEYS:
             raise _fail(source, f"{key}.{k}", "unknown key", k, ", ".join(KEYS))
     channel = spec.get("channel")
-    if channel not in KINDS:
+    if channel not in CHANNEL_KINDS:
         raise _fail(
             source,
             f"{key}.channel",
             f"unknown channel {channel!r}",
             channel,
-            "one of " + ", ".join(KINDS),
+            "one of " + ", ".join(CHANNEL_KINDS),
         )
     assert isinstance(channel, str)
     if "low" not in spec and "high" not in spec:
@@ -70,12 +70,12 @@ def _range(source: str, key: str, spec: object) -> Range:
             f"{key}.low",
             "a range needs low, high or both",
             None,
-            f'e.g. low = "{units.KINDS[KINDS[channel]].example.split(",")[0]}"',
+            f'e.g. low = "{units.KINDS[CHANNEL_KINDS[channel]].example.split(",")[0]}"',
         )
     bounds: dict[str, float] = {}
     for end in ("low", "high"):
         if end in spec:
-            bounds[end] = _limit(source, f"{key}.{end}", spec[end], KINDS[channel])
+            bounds[end] = _limit(source, f"{key}.{end}", spec[end], CHANNEL_KINDS[channel])
     if "low" in bounds and "high" in bounds and bounds["low"] > bounds["high"]:
         raise _fail(
             source,
@@ -90,7 +90,7 @@ def _range(source: str, key: str, spec: object) -> Range:
         if value is not None and (not isinstance(value, str) or not value.strip()):
             raise _fail(source, f"{key}.{k}", f"expected text, got {value!r}", value)
         texts[k] = value
-    return Range(
+    return ChannelLimit(
         texts["name"] or channel, channel, bounds.get("low"), bounds.get("high"), texts["phase"]
     )
 

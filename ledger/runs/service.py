@@ -12,16 +12,16 @@ from sqlmodel import Session, select
 from ledger.errors import InputError, RefusedError
 from ledger.logbook import latest
 from ledger.logbook.auth import DECIDERS, RECORDERS, require_role
-from ledger.logbook.checks import required
 from ledger.logbook.fitness import facts
 from ledger.logbook.modules import get_module
+from ledger.logbook.required import required
 from ledger.logbook.times import activity_time
 from ledger.logbook.uses import end_use, start_use
 from ledger.rules import runs as sequence
 from ledger.rules.acceptance import Check, unexplained_failures
 from ledger.rules.fitness import EDGE_TOLERANCE, verdict
 from ledger.runs import template as templates
-from ledger.runs.checks import run_checks
+from ledger.runs.checklist import run_checks
 from ledger.runs.plan import ModuleFacts, Plan, make_plan
 from ledger.store.audit import Journal
 from ledger.store.tables import (
@@ -217,7 +217,7 @@ def import_log(
     (returns it with False); a different file needs the first one voided."""
     import hashlib
 
-    from ledger.runs.actuals import Geometry, PhaseWindow, Range, summarize
+    from ledger.runs.actuals import ChannelLimit, Geometry, PhaseWindow, summarize
     from ledger.runs.mapping import load_mapping
     from ledger.runs.skidlog import read_log
 
@@ -258,7 +258,7 @@ def import_log(
     assert mtype is not None
     plan = run_plan(run)
     ranges = [
-        Range(v.name, v.actual, v.low, v.high, v.phase)
+        ChannelLimit(v.name, v.actual, v.low, v.high, v.phase)
         for v in plan.values
         if v.actual and "." not in v.actual and v.actual in templates.CHANNELS
     ]

@@ -20,10 +20,10 @@ from typing import Any
 
 from ledger import units
 from ledger.errors import InputError
-from ledger.runs.actuals import KINDS
+from ledger.rules.signing import MEANINGS
+from ledger.runs.actuals import CHANNEL_KINDS
 from ledger.runs.expr import Expr, ExpressionError, compile_expr
 
-MEANINGS = ("performed", "verified", "reviewed", "approved")
 # Who may sign each meaning when a template does not say (common practice, no single source):
 # an administrator signs nothing (21 CFR 11 / Annex 11 separation of duties).
 SIGNER_ROLES = ("operator", "engineer", "qa")
@@ -55,7 +55,7 @@ SCALAR_METRICS: dict[str, str | None] = {
 }
 # Skid-log channels a parameter can follow sample by sample, and their kinds: those a summary
 # holds, except the cumulative permeate volume, which is checked as the scalar metric.
-CHANNELS: dict[str, str] = {k: v for k, v in KINDS.items() if k not in SCALAR_METRICS}
+CHANNELS: dict[str, str] = {k: v for k, v in CHANNEL_KINDS.items() if k not in SCALAR_METRICS}
 STATISTICS = ("mean", "min", "max")
 
 # When a unit fits several kinds (L/m² is a length), the first kind listed wins.
@@ -86,7 +86,7 @@ class Bound:
 
 
 @dataclass(frozen=True)
-class Range:
+class AcceptanceRange:
     relative: float | None = None  # ± fraction of the planned value
     low: Bound | None = None
     high: Bound | None = None
@@ -101,7 +101,7 @@ class Parameter:
     kind: str | None
     phase: str | None = None
     actual: str | None = None  # the skid-log metric that measures it
-    range: Range | None = None
+    range: AcceptanceRange | None = None
 
 
 @dataclass(frozen=True)
@@ -511,7 +511,7 @@ class _Reader:
                 metric,
             )
 
-    def range(self, key: str, raw: Any, unit: str, kind: str | None) -> Range:
+    def range(self, key: str, raw: Any, unit: str, kind: str | None) -> AcceptanceRange:
         spec = self.table(key, raw, {"relative", "low", "high"}, set())
         if "relative" in spec:
             if set(spec) != {"relative"}:
@@ -524,10 +524,10 @@ class _Reader:
                     spec["relative"],
                     "a fraction between 0 and 100 %",
                 )
-            return Range(relative=rel)
+            return AcceptanceRange(relative=rel)
         if not spec:
             raise self.fail(key, "an empty range", None, "relative, low or high")
-        return Range(
+        return AcceptanceRange(
             low=self.bound(f"{key}.low", spec["low"], unit, kind) if "low" in spec else None,
             high=self.bound(f"{key}.high", spec["high"], unit, kind) if "high" in spec else None,
         )

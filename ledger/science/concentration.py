@@ -19,7 +19,7 @@ import math
 from dataclasses import dataclass
 
 from ledger.errors import DomainError
-from ledger.science._checks import non_negative, positive, whole, within
+from ledger.science.guards import non_negative, positive, whole, within
 
 
 def _fraction(name: str, value: float) -> float:

@@ -15,7 +15,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ledger.errors import DomainError
-from ledger.science._checks import paired
+from ledger.science.guards import paired
 
 
 @dataclass(frozen=True)

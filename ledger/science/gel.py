@@ -25,8 +25,8 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ledger.errors import DomainError, out_of_range
-from ledger.science._checks import paired, positive
 from ledger.science.fit import fit_line
+from ledger.science.guards import paired, positive
 
 
 @dataclass(frozen=True)

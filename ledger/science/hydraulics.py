@@ -19,7 +19,7 @@ from dataclasses import dataclass
 
 from ledger.errors import DomainError
 from ledger.science import water
-from ledger.science._checks import positive, whole
+from ledger.science.guards import positive, whole
 
 LAMINAR_LIMIT = 2100.0
 

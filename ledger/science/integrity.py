@@ -24,8 +24,8 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ledger.errors import DomainError, out_of_range
-from ledger.science._checks import finite, non_negative, paired, positive, within
 from ledger.science.fit import fit_line
+from ledger.science.guards import finite, non_negative, paired, positive, within
 
 STANDARD_ATMOSPHERE_PA = 101325.0
 
@@ -81,7 +81,7 @@ def decay_rate(
     Times in s, strictly increasing (no duplicates); pressures in Pa, gauge or absolute (the
     rate does not depend on the reference). At least two readings. The rate is the negated
     slope of the ordinary least-squares line, so every reading counts, not only the first and
-    last (DESIGN §4; pressure-decay test per EPA 815-R-06-009, 2005, ch. 4).
+    last (DEVELOPERS.md; pressure-decay test per EPA 815-R-06-009, 2005, ch. 4).
     """
     t, p = paired("times_s", times_s, "pressures_pa", pressures_pa, 2)
     steps = np.diff(t)

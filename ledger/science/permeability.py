@@ -23,8 +23,8 @@ from numpy.typing import NDArray
 
 from ledger.errors import DomainError
 from ledger.science import water
-from ledger.science._checks import finite, positive, series
 from ledger.science.fit import fit_line
+from ledger.science.guards import finite, positive, series
 
 Correction = Literal["viscosity", "exponential"]
 DEFAULT_REFERENCE_K = 293.15

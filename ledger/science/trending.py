@@ -24,8 +24,8 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ledger.errors import DomainError, out_of_range
-from ledger.science._checks import finite, non_negative, series
 from ledger.science.fit import LineFit, fit_line
+from ledger.science.guards import finite, non_negative, series
 
 # Control-chart constants for moving ranges of two consecutive points (Montgomery, appendix).
 D2 = 1.128

@@ -18,7 +18,7 @@ from __future__ import annotations
 import math
 
 from ledger.errors import DomainError
-from ledger.science._checks import finite
+from ledger.science.guards import finite
 
 T_MIN = 273.15
 T_MAX = 373.15

@@ -1,4 +1,4 @@
-"""The logbook's tables (DESIGN §3). SI units in every numeric column; times are UTC.
+"""The logbook's tables (DEVELOPERS.md). SI units in every numeric column; times are UTC.
 
 Every record table carries ``record_hash`` (SHA-256 of its content, see audit.py) and who
 created it and when. Records that can be wrong carry void fields: nothing is deleted.
@@ -188,7 +188,7 @@ class IntegrityTest(Activity, table=True):
 
 
 class CleaningProcedure(Recorded, table=True):
-    """A validated cleaning procedure: the ranges a cleaning must keep (DESIGN §6)."""
+    """A validated cleaning procedure: the ranges a cleaning must keep (DEVELOPERS.md)."""
 
     __tablename__ = "cleaning_procedure"
     __table_args__ = {"sqlite_autoincrement": True}

@@ -36,5 +36,5 @@ class UTCDateTime(TypeDecorator[datetime]):
 
 
 def utc_now() -> datetime:
-    """The system clock in UTC (record times are never typed, DESIGN §3)."""
+    """The system clock in UTC (record times are never typed, DEVELOPERS.md)."""
     return datetime.now(UTC)

@@ -37,7 +37,7 @@ def ok_json(cli: Run, *args: str) -> dict[str, Any]:
     assert out.code == 0, out.stderr
     data = out.json()
     for q in quantities(data):
-        STOCK.Quantity(1.0, q["unit"])  # DESIGN §10: a unit string that pint parses
+        STOCK.Quantity(1.0, q["unit"])  # DEVELOPERS.md: a unit string that pint parses
         assert isinstance(q["value"], float | int)
     return data
 
@@ -48,7 +48,7 @@ def in_unit(q: dict[str, Any], unit: str) -> float:
 
 def test_viscosity(cli: Run) -> None:
     data = ok_json(cli, "calc", "viscosity", "--temperature", "25 degC")
-    # DESIGN §4 handbook value: 0.8900 mPa·s at 25 °C.
+    # DEVELOPERS.md handbook value: 0.8900 mPa·s at 25 °C.
     assert in_unit(data["results"]["viscosity"], "mPa*s") == pytest.approx(0.8900, rel=1e-3)
     assert in_unit(data["inputs"]["temperature"], "K") == pytest.approx(298.15)
 

@@ -1,4 +1,4 @@
-"""Electronic signatures through the CLI (DESIGN §7; 21 CFR 11.50, 11.70, 11.200; Annex 11 §14):
+"""Electronic signatures through the CLI (DEVELOPERS.md; 21 CFR 11.50, 11.70, 11.200; Annex 11 §14):
 password at every signature, the template's order and roles, different people, no
 administrator, approval blocked by open problems, lock after approval, corrections as new
 revisions. Every refusal exits 3 and writes nothing."""

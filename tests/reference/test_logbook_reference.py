@@ -1,6 +1,6 @@
 """A recorded water-flux test stores the NWP that an independent computation gives.
 
-Reference: NWP(T_ref) = Qp/(A·TMP) · µ(T)/µ(T_ref) (DESIGN §4), with the viscosities from the
+Reference: NWP(T_ref) = Qp/(A·TMP) · µ(T)/µ(T_ref) (DEVELOPERS.md), with the viscosities from the
 PyPI package `iapws` (IAPWS-95 at 0.101325 MPa), not from ledger.science.
 """
 
@@ -49,5 +49,5 @@ def test_recorded_nwp_matches_iapws(world: World, t_c: float) -> None:
     assert rec["nwp"]["unit"] == "L/(m^2*h*bar)"
     assert rec["nwp"]["value"] == pytest.approx(expected * 3.6e11, rel=3e-4)
     assert rec["tmp"]["value"] == pytest.approx(tmp / 1e5, rel=1e-12)
-    # Membrane resistance Rm = TMP/(µ·J) at the test temperature (DESIGN §4).
+    # Membrane resistance Rm = TMP/(µ·J) at the test temperature (DEVELOPERS.md).
     assert rec["resistance"]["value"] == pytest.approx(tmp / (_mu(t_c) * q / AREA), rel=3e-4)

@@ -29,7 +29,7 @@ def lnp() -> plan.Plan:
 
 
 def test_hydraulics(lnp: plan.Plan) -> None:
-    # DESIGN §4 (laminar flow per fiber): γ = 4·Q_fiber/(π r³) -> Q_feed = N·γ·π·r³/4.
+    # DEVELOPERS.md (laminar flow per fiber): γ = 4·Q_fiber/(π r³) -> Q_feed = N·γ·π·r³/4.
     r = 0.25e-3
     q = 120 * 4000.0 * math.pi * r**3 / 4
     assert lnp.value("feed_flow").value == pytest.approx(q, rel=1e-12)
@@ -45,7 +45,7 @@ def test_volumes_diavolumes_and_times(lnp: plan.Plan) -> None:
     v0, c0, cdf, cf = 1.2e-3, 0.5, 2.0, 6.0
     mass = v0 * c0
     vdf, vf = mass / cdf, mass / cf
-    # Constant-volume wash-out C/C0 = exp(−N·S) (DESIGN §4): N = ln(1/(1−0.995)) at S = 1.
+    # Constant-volume wash-out C/C0 = exp(−N·S) (DEVELOPERS.md): N = ln(1/(1−0.995)) at S = 1.
     n = math.log(1 / (1 - 0.995))
     assert lnp.value("df_volume").value == pytest.approx(vdf)
     assert lnp.value("first_factor").value == pytest.approx(v0 / vdf)
@@ -114,6 +114,6 @@ def test_plan_record_round_trip(lnp: plan.Plan) -> None:
 def test_protein_template_plans() -> None:
     tm = template.find("QB-MR-UFDF-201")
     p = plan.make_plan(tm, MODULE, {"initial_volume": "2 L", "initial_concentration": "5 g/L"})
-    # N = ln(1/(1 − 0.999))/S at S = 1 (DESIGN §4).
+    # N = ln(1/(1 − 0.999))/S at S = 1 (DEVELOPERS.md).
     assert p.value("diavolumes").value == pytest.approx(math.log(1000))
     assert p.value("overall_factor").value == pytest.approx(12.0)

@@ -8,7 +8,7 @@ import pytest
 from ledger.science import water
 
 # IAPWS R12-08, Table 4 (verification values for µ, with µ2 = 1), µPa·s.
-# The first row is quoted in DESIGN §4; the other rows are recalled from memory of the
+# The first row is quoted in DEVELOPERS.md; the other rows are recalled from memory of the
 # release and agree with the `iapws` package's implementation (checked below as well).
 R12_08_TABLE_4 = [
     (298.15, 998.0, 889.735100),
@@ -43,7 +43,7 @@ def test_iapws_2008_matches_the_iapws_package(
     )
 
 
-# Handbook viscosity of water at 0.101325 MPa, mPa·s. DESIGN §4 quotes 20 °C and 25 °C;
+# Handbook viscosity of water at 0.101325 MPa, mPa·s. DEVELOPERS.md quotes 20 °C and 25 °C;
 # the other values are recalled from memory of the CRC Handbook of Chemistry and Physics
 # table "Viscosity of liquid water" (which is itself generated from IAPWS 2008). A recalled
 # 90 °C entry (0.3145) disagreed by 0.1 % with both this code and the `iapws` package, so

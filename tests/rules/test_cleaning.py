@@ -1,4 +1,4 @@
-"""A cleaning against its validated procedure (DESIGN §6): each departure is named.
+"""A cleaning against its validated procedure (DEVELOPERS.md): each departure is named.
 
 The procedure's ranges below are invented for the test; real ones come from the site's
 validated cleaning SOP.

@@ -1,7 +1,7 @@
-"""Behaviour of ledger.rules.fitness against the acceptance rules of DESIGN §6.
+"""Behaviour of ledger.rules.fitness against the acceptance rules of DEVELOPERS.md.
 
 All data are invented (module QMB-0142, products QB-117 / QB-204). The limits are the common
-practice defaults of DESIGN §6, not any site's validated values.
+practice defaults of DEVELOPERS.md, not any site's validated values.
 """
 
 from __future__ import annotations
@@ -42,7 +42,7 @@ CHECK_ORDER = [
     "product",
 ]
 
-# common practice (DESIGN §6): recovery ≥ 80 % of baseline, alert below 90 %, damage suspected
+# common practice (DEVELOPERS.md): recovery ≥ 80 % of baseline, alert below 90 %, damage suspected
 # above 120 %, pre-use within ±10 % of the last post-clean NWP. Cycle and storage limits invented.
 LIMITS = Limits(
     recovery_min=0.80,
@@ -195,7 +195,7 @@ def test_cycles_below_the_validated_limit(cycles: int, outcome: str) -> None:
     ("ratio", "outcome"),
     [
         (0.5, "fail"),
-        (0.799, "fail"),  # just below the 80 % minimum, common practice (DESIGN §6)
+        (0.799, "fail"),  # just below the 80 % minimum, common practice (DEVELOPERS.md)
         (0.80, "alert"),  # exactly at the minimum passes, with an alert
         (0.85, "alert"),
         (0.899, "alert"),  # just below the 90 % alert level
@@ -253,7 +253,7 @@ def test_post_clean_without_ratio_fails() -> None:
 
 
 def test_damage_exactly_at_the_limit_is_ok() -> None:
-    # 120 %: damage is suspected only *above* it, common practice (DESIGN §6).
+    # 120 %: damage is suspected only *above* it, common practice (DEVELOPERS.md).
     latest = water("post_clean", NOW - 5 * DAY, 1.20)
     r = reason(verdict(fit_facts(latest_water=latest)), "damage")
     assert r.outcome == "ok"
@@ -292,7 +292,7 @@ def test_damage_without_a_water_test_is_info() -> None:
 
 
 def test_a_high_post_clean_recovery_is_stopped_by_the_damage_check() -> None:
-    # Recovery 130 % passes the recovery check but suggests damage (DESIGN §6).
+    # Recovery 130 % passes the recovery check but suggests damage (DEVELOPERS.md).
     pc = water("post_clean", NOW - 5 * DAY, 1.30)
     early_pass = integrity(NOW - 5 * DAY - timedelta(hours=1))
     v = verdict(fit_facts(post_clean=pc, latest_water=pc, pre_use=None, integrity=early_pass))
@@ -378,7 +378,7 @@ def pre_use_of(pre_nwp: float, pc_nwp: float = BASE_NWP) -> Facts:
     ],
 )
 def test_pre_use_band_of_the_last_post_clean(fraction: float, outcome: str) -> None:
-    # ±10 % band, common practice (DESIGN §6).
+    # ±10 % band, common practice (DEVELOPERS.md).
     v = verdict(pre_use_of(fraction * BASE_NWP))
     assert reason(v, "pre-use").outcome == outcome
     assert v.fit is (outcome == "ok")
@@ -542,7 +542,7 @@ def test_every_check_is_listed_in_order_and_fit_means_no_fail(f: Facts) -> None:
 
 @given(facts_st())
 def test_a_fit_verdict_meets_the_hard_rules(f: Facts) -> None:
-    # Independent of the reason list: what DESIGN §6 says a reusable module must be.
+    # Independent of the reason list: what DEVELOPERS.md says a reusable module must be.
     v = verdict(f)
     if v.fit:
         assert f.status == "available"

@@ -1,7 +1,7 @@
 """Behaviour of ledger.rules.sequence: which records each status allows, and status changes.
 
 Invented module serial QMB-0142. Recovery minimum 80 % and damage ratio 120 % are the common
-practice defaults (DESIGN §6), not a site's validated limits.
+practice defaults (DEVELOPERS.md), not a site's validated limits.
 """
 
 from __future__ import annotations
@@ -23,7 +23,7 @@ from ledger.rules.sequence import (
 from ledger.store.tables import STATUSES
 
 SERIAL = "QMB-0142"
-# common practice (DESIGN §6): recovery ≥ 80 % of baseline; damage suspected above 120 %.
+# common practice (DEVELOPERS.md): recovery ≥ 80 % of baseline; damage suspected above 120 %.
 RECOVERY_MIN = 0.80
 DAMAGE_RATIO = 1.20
 

@@ -14,7 +14,14 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.integrate import trapezoid
 
-from ledger.runs.actuals import Geometry, PhaseWindow, Range, Summary, summarize, summary_json
+from ledger.runs.actuals import (
+    ChannelLimit,
+    Geometry,
+    PhaseWindow,
+    Summary,
+    summarize,
+    summary_json,
+)
 from ledger.runs.mapping import parse_mapping
 from ledger.runs.skidlog import SkidLog, read_log
 
@@ -222,7 +229,7 @@ def test_an_excursion_of_k_samples() -> None:
     x = spiky(100, 40, 7, 1.5e5)
     x[43] = 1.8e5
     s = summarize(
-        make(range(100), feed_pressure=x), ranges=[Range("PF", "feed_pressure", None, 1.2e5)]
+        make(range(100), feed_pressure=x), ranges=[ChannelLimit("PF", "feed_pressure", None, 1.2e5)]
     )
     [e] = s.excursions
     assert (e.name, e.side, e.samples, e.limit, e.worst) == ("PF", "high", 7, 1.2e5, 1.8e5)
@@ -236,7 +243,7 @@ def test_an_excursion_at_the_end_of_the_log_lasts_its_samples() -> None:
     x = spiky(50, 45, 5, 0.5e5)
     s = summarize(
         make(np.arange(50) * 2.0, feed_pressure=x),
-        ranges=[Range("PF", "feed_pressure", 0.8e5, None)],
+        ranges=[ChannelLimit("PF", "feed_pressure", 0.8e5, None)],
     )
     [e] = s.excursions
     assert (e.side, e.samples, e.duration_s, e.worst) == ("low", 5, 10.0, 0.5e5)
@@ -248,7 +255,7 @@ def test_a_range_of_one_phase_sees_only_its_samples() -> None:
     x[2:4] = 2e5  # in phase a: ignored by a range for b
     x[17:20] = 3e5  # in phase b, to the end of the log
     x[8:13] = 2.5e5  # across the a -> b boundary: only samples 10..12 count for b
-    r = Range("PF-b", "feed_pressure", None, 1.5e5, phase="b")
+    r = ChannelLimit("PF-b", "feed_pressure", None, 1.5e5, phase="b")
     s = summarize(make(range(20), labels, feed_pressure=x), ranges=[r])
     assert [(e.phase, e.samples, e.duration_s) for e in s.excursions] == [
         ("b", 3, 3.0),
@@ -256,7 +263,8 @@ def test_a_range_of_one_phase_sees_only_its_samples() -> None:
     ]
     # unscoped: three runs, each named with the phase it starts in
     s = summarize(
-        make(range(20), labels, feed_pressure=x), ranges=[Range("PF", "feed_pressure", None, 1.5e5)]
+        make(range(20), labels, feed_pressure=x),
+        ranges=[ChannelLimit("PF", "feed_pressure", None, 1.5e5)],
     )
     assert [(e.phase, e.samples) for e in s.excursions] == [("a", 2), ("a", 5), ("b", 3)]
 
@@ -264,7 +272,11 @@ def test_a_range_of_one_phase_sees_only_its_samples() -> None:
 def test_ranges_that_cannot_apply_are_reported() -> None:
     log = make(range(5), ["a"] * 5, feed_pressure=np.ones(5))
     s = summarize(
-        log, ranges=[Range("TMP", "tmp", None, 1.0), Range("PF", "feed_pressure", None, 2.0, "zz")]
+        log,
+        ranges=[
+            ChannelLimit("TMP", "tmp", None, 1.0),
+            ChannelLimit("PF", "feed_pressure", None, 2.0, "zz"),
+        ],
     )
     why = {n.what: n.why for n in s.not_computed}
     assert why["range TMP"].startswith("tmp: needs feed, retentate and permeate pressure")
@@ -299,7 +311,7 @@ def demo_summary() -> Summary:
         temperature=np.full(t.size, 293.15),
     )
     log.assumptions.append("permeate density 1.0 g/mL assumed (the mapping gives none)")
-    ranges = [Range("TMP", "tmp", None, 1.2e5, "concentrate")]
+    ranges = [ChannelLimit("TMP", "tmp", None, 1.2e5, "concentrate")]
     return summarize(log, Geometry(0.1, 50, 5e-4), ranges)
 
 
@@ -476,7 +488,9 @@ def test_unit_invariance(tmp_path_factory: pytest.TempPathFactory, seed: int, sy
     for name in ("metric", system):
         path = write_in(folder / f"{name}.csv", name, si, t)
         log = read_log(path, parse_mapping(path.with_suffix(".toml").read_text(), "m"))
-        summaries.append(summarize(log, Geometry(0.2, 40, 6e-4), [Range("T", "tmp", None, 1e5)]))
+        summaries.append(
+            summarize(log, Geometry(0.2, 40, 6e-4), [ChannelLimit("T", "tmp", None, 1e5)])
+        )
     a, b = summaries
     for x, y in ((a.run, b.run),):
         for key, stats in x.stats.items():

@@ -29,7 +29,7 @@ def test_powers_functions_and_names() -> None:
 
 
 def test_feed_flow_for_shear_matches_the_laminar_formula() -> None:
-    # DESIGN §4: γ = 4·Q_fiber/(π r³), so Q_feed = N·γ·π·r³/4 (r = D/2).
+    # DEVELOPERS.md: γ = 4·Q_fiber/(π r³), so Q_feed = N·γ·π·r³/4 (r = D/2).
     e = compile_expr("feed_flow_for_shear(g, n, d)", where="t")
     got = e.evaluate({"g": 4000.0, "n": 120.0, "d": 0.5e-3})
     assert got == pytest.approx(120 * 4000.0 * math.pi * (0.25e-3) ** 3 / 4, rel=1e-12)

@@ -9,6 +9,7 @@ from typing import Any
 import typer
 
 from ledger.cli.common import JSON_OPTION, guarded
+from ledger.cli.describe import SITE_NOTE
 from ledger.cli.session import DB_OPTION, PASSWORD_STDIN, read, read_secret
 from ledger.errors import InputError
 
@@ -20,10 +21,6 @@ app = typer.Typer(
 RUN = typer.Argument(..., help="The run's number (see `fluxledger run list`).")
 REVISION = typer.Option(
     None, "--revision", help="Which revision (default: the current one, else a draft)."
-)
-SITE = (
-    "Acceptance limits and signature roles come from the site's validated procedures and its "
-    "quality unit."
 )
 
 
@@ -108,7 +105,7 @@ def _written(path: Path, ctx: Any, data: bytes, as_json: bool, sealed: bool = Fa
         f"{path}: {h.record_id} {what}, {len(data):,} bytes; signatures: {signed}"
         + ("; digitally sealed" if sealed else "")
     )
-    typer.echo(SITE)
+    typer.echo(SITE_NOTE)
 
 
 @app.command("sign")
