@@ -23,10 +23,11 @@ typecheck: $(STAMP)
 	$(BIN)/mypy ledger
 
 test: lint typecheck
-	$(BIN)/python -m pytest -q
+	$(BIN)/python -m pytest -q -n auto
 
+# `make bench BENCH_ARGS=--quick` for a scaled-down run; bench/run.py --help lists the options.
 bench: $(STAMP)
-	$(BIN)/python bench/run.py
+	$(BIN)/python bench/run.py $(BENCH_ARGS)
 
 clean:
 	rm -rf $(VENV) demo-output .pytest_cache .mypy_cache .ruff_cache .hypothesis

@@ -1,4 +1,4 @@
-"""Whole-process time of logbook commands against `python -c "import sqlmodel, typer"` (§9).
+"""Whole-process time of logbook commands against `python -c "import sqlmodel, typer"`.
 
 A read (`module list`, `fitness`) and a write (`care store`, which also checks the user's
 argon2 password hash) run on a small fresh SQLite logbook made here with the CLI itself.
@@ -9,14 +9,22 @@ from __future__ import annotations
 
 import subprocess
 import tempfile
+from collections.abc import Callable
 from pathlib import Path
 
+from table import Row, error_row  # bench/table.py
+
 PASSWORD = "bench-pass-2026"  # an invented account of a throwaway database
+TARGET = 1.5
 
 
 def _cli(script: str, db: str, *args: str, stdin: str = "") -> None:
-    subprocess.run([script, *args, "--db", db], input=stdin, text=True, check=True,
-                   stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)  # fmt: skip
+    done = subprocess.run([script, *args, "--db", db], input=stdin, text=True,
+                          stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)  # fmt: skip
+    if done.returncode != 0:
+        last = (done.stderr.strip().splitlines() or ["(no message)"])[-1]
+        raise RuntimeError(f"setting up: `fluxledger {' '.join(args[:2])}` exited "
+                           f"{done.returncode}: {last}")  # fmt: skip
 
 
 def prepare(script: str, folder: Path) -> str:
@@ -42,22 +50,26 @@ def prepare(script: str, folder: Path) -> str:
     return db
 
 
-def run(exe: str, script: str, repeats: int, compare: object) -> bool:
+def run(exe: str, script: str, repeats: int, compare: Callable[..., Row]) -> list[Row]:
     """Time the three commands; ``compare`` is run.compare (kept there, shared)."""
-    ok = True
     baseline = [exe, "-c", "import sqlmodel, typer"]
+    rows = []
     with tempfile.TemporaryDirectory(prefix="fluxledger-bench-") as tmp:
         db = prepare(script, Path(tmp))
+        base = '/ `python -c "import sqlmodel, typer"`'
         cases = [
-            ("Read command: `fluxledger module list`", [script, "module", "list", "--db", db],
-             None),
-            ("Read command: `fluxledger fitness BM-0001`",
+            (f"`fluxledger module list` {base}",
+             [script, "module", "list", "--db", db], None),
+            (f"`fluxledger fitness BM-0001` {base}",
              [script, "fitness", "BM-0001", "--db", db], None),
-            ("Write command: `fluxledger care store` (argon2 password check included)",
+            (f"`fluxledger care store` (a write, argon2 check) {base}",
              [script, "care", "store", "BM-0001", "--solution", "20 % ethanol", "--user",
               "bench.op", "--password-stdin", "--db", db], f"{PASSWORD}\n"),
         ]  # fmt: skip
         for name, cmd, stdin in cases:
             print()
-            ok = compare(name, baseline, cmd, repeats, 1.5, subject_input=stdin) and ok  # type: ignore[operator]
-    return ok
+            try:
+                rows.append(compare(name, baseline, cmd, repeats, TARGET, subject_input=stdin))
+            except RuntimeError as exc:
+                rows.append(error_row(name, exc))
+    return rows

@@ -10,7 +10,8 @@ not the ones the test suite uses (1, 2, 3).
 
 Errors are relative, except diavolumes of phases without a real wash (truth < 0.5 DV), which
 are absolute in diavolumes (column "DV abs"). Tolerance: 0.5 % / 0.005 DV; excursions within
-one sample. Exit 0 when every check holds, 1 otherwise, 2 for a bad --out.
+one sample. Exit 0 when every check holds, 1 otherwise, 2 for a bad --out. bench/run.py runs
+it in a temporary folder (two seeds; one with --quick) and puts the worst figures in its table.
 """
 
 from __future__ import annotations
@@ -23,9 +24,12 @@ import subprocess
 import sys
 import time
 from pathlib import Path
+from typing import Any
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
+
+from table import Row  # noqa: E402  (bench/table.py)
 
 from tests.reference import skidsim  # noqa: E402  (the repository root is on the path now)
 
@@ -50,22 +54,8 @@ def _fmt(err: float, measure: str) -> str:
     return f"{err:.4f}" if measure == "abs DV" else f"{err * 100:.4f}%"
 
 
-def main(argv: list[str] | None = None) -> int:
-    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
-    parser.add_argument("--out", type=Path, required=True, help="folder outside the repository")
-    parser.add_argument("--seeds", type=int, default=3, help="noise seeds per case")
-    parser.add_argument("--first-seed", type=int, default=101, help="first seed")
-    parser.add_argument("--detail", action="store_true", help="also print every failed check")
-    args = parser.parse_args(argv)
-    out = args.out.resolve()
-    if out == ROOT or ROOT in out.parents:
-        print(f"--out {out} is inside the repository; give a folder outside it", file=sys.stderr)
-        return 2
-    script = _script()
-    if script is None:
-        print("fluxledger is not installed in this environment", file=sys.stderr)
-        return 2
-    seeds = range(args.first_seed, args.first_seed + args.seeds)
+def check(out: Path, seeds: range, script: str, detail: bool = False) -> dict[str, Any]:
+    """Run every case for every seed into ``out``, print the table, return the worst errors."""
     header = ["case", "seed", "rows", *(c[2] for c in COLUMNS), "exc", "d start", "d dur", "s"]
     widths = [24, 4, 6, 9, 9, 9, 7, 9, 9, 6, 7, 6, 5]
     print(f"fluxledger log summarize ({script}) against tests/reference/skidsim.py truth; "
@@ -121,11 +111,60 @@ def main(argv: list[str] | None = None) -> int:
                     enumerate(zip(row, widths, strict=True))))  # fmt: skip
     print(f"{totals['logs']} logs in {out}; excursion errors (d start, d dur) in samples; "
           f"{len(failures)} failed checks")  # fmt: skip
-    if failures and args.detail:
+    if failures and detail:
         print("\n".join(failures))
     elif failures:
         print("\n".join(failures[:20]))
-    return 1 if failures else 0
+    return {"worst": worst, "start": worst_start, "duration": worst_dur, "totals": totals,
+            "failures": failures}  # fmt: skip
+
+
+def rows(seeds: int = 2, first_seed: int = 101) -> list[Row]:
+    """The held-out check in a temporary folder, as rows of the bench table."""
+    import tempfile
+
+    script = _script()
+    if script is None:
+        raise RuntimeError("fluxledger is not installed in this environment")
+    with tempfile.TemporaryDirectory(prefix="fluxledger-bench-heldout-") as tmp:
+        found = check(Path(tmp), range(first_seed, first_seed + seeds), script)
+    worst, totals, failed = found["worst"], found["totals"], len(found["failures"])
+    rel = max(worst[label] for _, measure, label in COLUMNS if measure == "rel")
+    note = (f"{totals['logs']} simulated logs ({len(skidsim.CASES)} formats x {seeds} seeds, "
+            f"seeds from {first_seed}) against the simulator's truth; {failed} failed checks"
+            + (f"; first: {found['failures'][0]}" if failed else ""))  # fmt: skip
+    return [
+        Row("`log summarize` held-out accuracy: worst relative error", rel * 100, "%", None,
+            f"<= {skidsim.TOLERANCE * 100:g} %", rel <= skidsim.TOLERANCE,
+            note=note),
+        Row("  worst absolute diavolume error (phases < 0.5 DV)", worst["DV abs"], "DV",
+            None, f"<= {skidsim.TOLERANCE} DV", worst["DV abs"] <= skidsim.TOLERANCE),
+        Row(f"  excursions found / planted ({totals['spurious']} spurious)",
+            float(totals["found"]), "", float(totals["excursions"]), "all, none spurious",
+            totals["found"] == totals["excursions"] and totals["spurious"] == 0),
+        Row("  worst excursion start / duration error", max(found["start"],
+            found["duration"]), "samples", None, "<= 1 sample",
+            max(found["start"], found["duration"]) <= 1.0),
+    ]  # fmt: skip
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    parser.add_argument("--out", type=Path, required=True, help="folder outside the repository")
+    parser.add_argument("--seeds", type=int, default=3, help="noise seeds per case")
+    parser.add_argument("--first-seed", type=int, default=101, help="first seed")
+    parser.add_argument("--detail", action="store_true", help="also print every failed check")
+    args = parser.parse_args(argv)
+    out = args.out.resolve()
+    if out == ROOT or ROOT in out.parents:
+        print(f"--out {out} is inside the repository; give a folder outside it", file=sys.stderr)
+        return 2
+    script = _script()
+    if script is None:
+        print("fluxledger is not installed in this environment", file=sys.stderr)
+        return 2
+    found = check(out, range(args.first_seed, args.first_seed + args.seeds), script, args.detail)
+    return 1 if found["failures"] else 0
 
 
 if __name__ == "__main__":

@@ -4,15 +4,25 @@
 of the wrong dimension, a non-number, NaN or infinity raises :class:`InputError` naming the
 field, the value and the expected dimension. Pressures are gauge unless a caller says
 otherwise. pint is imported on first use only, so commands that never parse stay fast.
+
+What is accepted: at most :data:`MAX_TEXT` characters; a number written with the ASCII digits
+0-9, an optional sign, decimal point and exponent; then a unit made of unit names, integer
+powers, ``*``, ``/`` and parentheses. Control and invisible characters are refused, and so is
+an SI value that is not finite or whose magnitude is outside :data:`SI_MIN`..:data:`SI_MAX`
+(other than zero), so that no later computation overflows or underflows on it.
+
+Each (unit, kind) conversion is worked out once with pint as SI = a·x + b and then applied
+by arithmetic, so reading thousands of values or printing them costs no pint call per value.
 """
 
 from __future__ import annotations
 
 import math
 import re
+import unicodedata
 from dataclasses import dataclass
-from functools import cache
-from typing import TYPE_CHECKING, Any
+from functools import cache, lru_cache
+from typing import TYPE_CHECKING, Any, NamedTuple
 
 from ledger.errors import InputError
 
@@ -65,9 +75,29 @@ KINDS: dict[str, Kind] = {
     "molarity": Kind("[substance] / [volume]", "mol/m**3", "mol/L", "0.5 mol/L, 500 mM"),
 }
 
-_NUMBER = re.compile(r"^\s*([-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
-_HEADER = re.compile(r"^\s*(?P<name>[^\[\]]*?)\s*\[(?P<unit>[^\[\]]*)\]\s*$")
-_ALIASES = (("%", " percent "), ("°C", "degC"), ("°F", "degF"), ("µ", "u"), ("μ", "u"), ("²", "^2"))
+MAX_TEXT = 200  # characters in a typed quantity
+MAX_UNIT = 100  # characters in a unit
+SI_MAX = 1e300  # largest SI magnitude accepted: products of two such values stay finite...
+SI_MIN = 1e-300  # ...and the smallest non-zero one: far from the subnormal floats (< 2.2e-308)
+MAX_POWER_DIGITS = 2  # a unit's exponent is a small integer ("m^2", "s**-1")
+
+# ASCII digits only: Python's \d and float() would also take Arabic-Indic or full-width ones.
+_NUMBER = re.compile(r"([-+]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][-+]?[0-9]+)?)(.*)", re.S)
+_ALIASES = (
+    ("%", " percent "),
+    ("°C", "degC"),
+    ("°F", "degF"),
+    ("µ", "u"),
+    ("μ", "u"),
+    ("²", "^2"),
+    ("³", "^3"),
+    ("·", "*"),
+    ("⋅", "*"),
+)
+_UNIT_TOKEN = re.compile(r"\*\*|[A-Za-z_][A-Za-z0-9_]*|[0-9]+(?:\.[0-9]+)?|[-+*/^() ]")
+# Unicode categories never part of a quantity: control, format (zero-width, direction marks,
+# BOM), surrogates, private use, unassigned, line and paragraph separators.
+_INVISIBLE = frozenset({"Cc", "Cf", "Cs", "Co", "Cn", "Zl", "Zp"})
 
 
 @cache
@@ -107,39 +137,182 @@ def _expected(kind: str) -> str:
     return f"a {_dimension_word(kind)} with a unit, e.g. {k.example}"
 
 
-def to_si(value: float, unit: str, kind: str, *, field: str, raw: object = None) -> float:
-    """Convert ``value`` in ``unit`` to the SI unit of ``kind``; raise InputError if unfit."""
+class Linear(NamedTuple):
+    """SI = a·x + b for one (unit, kind); ``problem`` instead when the unit is unusable."""
+
+    a: float = 1.0
+    b: float = 0.0
+    affine: bool = True  # False: a logarithmic unit (dB...), converted by pint each time
+    problem: str | None = None  # "unknown" or the kind of quantity the unit is
+    detail: str = ""
+
+
+def check_unit_text(unit: str, *, field: str, shown: object, expected: str) -> str:
+    """The unit text cleaned of our aliases ("°C" -> "degC"); InputError if it is not made of
+    unit names, small integer powers, ``*``, ``/``, parentheses and numbers.
+
+    pint evaluates the numbers of a unit expression exactly, so "10**10**10" would never
+    finish; only this grammar reaches it.
+    """
+
+    def refuse(why: str) -> InputError:
+        return InputError(
+            f"{field}: unknown unit {unit!r} in {shown!r} ({why}); expected {expected}",
+            field=field,
+            value=shown,
+            expected=expected,
+        )
+
+    cleaned = _clean_unit(unit)
+    if len(cleaned) > MAX_UNIT:
+        raise refuse(f"{len(cleaned)} characters; at most {MAX_UNIT}")
+    tokens: list[str] = []
+    pos = 0
+    while pos < len(cleaned):
+        m = _UNIT_TOKEN.match(cleaned, pos)
+        if m is None:
+            raise refuse(f"the character {_char_name(cleaned[pos])} has no place in a unit")
+        if m.group() != " ":
+            tokens.append(m.group())
+        pos = m.end()
+    depth = 0
+    i = 0
+    while i < len(tokens):
+        tok = tokens[i]
+        if tok == "(":
+            depth += 1
+            if depth > 4:
+                raise refuse("parentheses nested more than 4 deep")
+        elif tok == ")":
+            depth -= 1
+        elif tok in ("+", "-"):
+            raise refuse("a sign outside an exponent")
+        elif tok[0].isdigit() and (tok != "1" or tokens[i + 1 : i + 2] != ["/"]):
+            raise refuse('a number in a unit other than the 1 of "1/s"')
+        elif tok in ("**", "^"):
+            j = i + 1
+            opened = j < len(tokens) and tokens[j] == "("
+            j += opened
+            j += j < len(tokens) and tokens[j] in ("+", "-")
+            power = tokens[j] if j < len(tokens) else ""
+            if not power.isdigit() or len(power) > MAX_POWER_DIGITS:
+                raise refuse(f"a power must be an integer of at most {MAX_POWER_DIGITS} digits")
+            j += 1
+            if opened:
+                if j >= len(tokens) or tokens[j] != ")":
+                    raise refuse("an unclosed parenthesis")
+                j += 1
+            if j < len(tokens) and tokens[j] in ("**", "^"):
+                raise refuse("a power of a power")
+            i = j
+            continue
+        i += 1
+    return cleaned
+
+
+def _char_name(char: str) -> str:
+    name = unicodedata.name(char, "")
+    return f"U+{ord(char):04X}" + (f" ({name})" if name else "")
+
+
+@lru_cache(maxsize=512)
+def _linear(cleaned: str, kind: str) -> Linear:
+    """Work out SI = a·x + b for ``cleaned`` (a checked unit) with pint, or why it cannot."""
     k = KINDS[kind]
-    shown = raw if raw is not None else f"{value} {unit}"
     ureg = registry()
     try:
-        q = ureg.Quantity(value, _clean_unit(unit))
+        q = ureg.Quantity(1.0, cleaned)
     # pint's parser raises many types for malformed text (its own errors, tokenize errors,
-    # SyntaxError, KeyError...); any failure here means the user's unit text is unusable.
+    # SyntaxError, KeyError, ZeroDivisionError...): any failure means the unit is unusable.
     except Exception as exc:
-        raise InputError(
-            f"{field}: unknown unit {unit!r} in {shown!r}; expected {_expected(kind)}",
-            field=field,
-            value=shown,
-            expected=_expected(kind),
-        ) from exc
+        return Linear(problem="unknown", detail=type(exc).__name__)
     target = ureg.Quantity(1.0, k.si) if k.si else ureg.Quantity(1.0)
     if q.dimensionality != target.dimensionality:
+        return Linear(problem=_what_it_is(q, ureg))
+
+    def pint_si(x: float) -> float:
+        v = ureg.Quantity(x, cleaned)
+        return float(v.to(k.si).magnitude if k.si else v.to("dimensionless").magnitude)
+
+    try:
+        b = pint_si(0.0)
+        a = pint_si(1.0) - b
+        affine = all(
+            math.isclose(pint_si(x), a * x + b, rel_tol=1e-12, abs_tol=1e-12 * abs(b))
+            for x in (1000.0, -7.25)
+        )
+    except (ArithmeticError, ValueError):  # a logarithmic unit at zero or below
+        a, b, affine = 1.0, 0.0, False
+    return Linear(a, b, affine)
+
+
+def _pint_to_si(value: float, cleaned: str, kind: str) -> float:
+    k = KINDS[kind]
+    ureg = registry()
+    try:
+        v = ureg.Quantity(value, cleaned)
+        return float(v.to(k.si).magnitude if k.si else v.to("dimensionless").magnitude)
+    except (ArithmeticError, ValueError):  # a logarithmic unit of a value it cannot take
+        return math.nan
+
+
+def check_si(value: float, kind: str, *, field: str, shown: object) -> float:
+    """``value`` (SI) if it is finite with magnitude 0 or within SI_MIN..SI_MAX, else an
+    InputError naming the field, the value as given and the range."""
+    si = KINDS[kind].si if kind in KINDS else ""
+    unit = f" {si}" if si else ""
+    if not math.isfinite(value):
+        expected = f"a magnitude of at most {SI_MAX:g}{unit}"
         raise InputError(
-            f"{field}: {shown!r} is {_what_it_is(q, ureg)}; expected {_expected(kind)}",
+            f"{field}: {shown!r} is not a finite number in SI{unit}; expected {expected}",
             field=field,
             value=shown,
-            expected=_expected(kind),
+            expected=expected,
         )
-    si = float(q.to(k.si).magnitude) if k.si else float(q.to("dimensionless").magnitude)
-    if not math.isfinite(si):
+    if value != 0.0 and not SI_MIN <= abs(value) <= SI_MAX:
         raise InputError(
-            f"{field}: {shown!r} is not a finite number",
+            f"{field}: {shown!r} is {value:.3g}{unit} in SI, outside the accepted range; "
+            f"expected 0 or a magnitude from {SI_MIN:g} to {SI_MAX:g}{unit}",
             field=field,
             value=shown,
-            expected=_expected(kind),
+            expected=f"0 or a magnitude from {SI_MIN:g} to {SI_MAX:g}{unit}",
         )
-    return si
+    return value
+
+
+def to_si(value: float, unit: str, kind: str, *, field: str, raw: object = None) -> float:
+    """Convert ``value`` in ``unit`` to the SI unit of ``kind``; raise InputError if unfit
+    (an unknown unit, a wrong dimension, or an SI value that is not finite or out of range)."""
+    shown = raw if raw is not None else f"{value} {unit}"
+    conversion = linear(unit, kind, field=field, shown=shown)
+    if conversion.affine:
+        si = conversion.a * value + conversion.b
+    else:
+        si = _pint_to_si(value, _clean_unit(unit), kind)
+    return check_si(si, kind, field=field, shown=shown)
+
+
+def linear(unit: str, kind: str, *, field: str, shown: object) -> Linear:
+    """The conversion of ``unit`` to the SI unit of ``kind`` (SI = a·x + b when ``affine``);
+    an InputError naming ``field`` and ``shown`` if the unit is unknown or of another kind."""
+    expected = _expected(kind)
+    cleaned = check_unit_text(str(unit), field=field, shown=shown, expected=expected)
+    conversion = _linear(cleaned, kind)
+    if conversion.problem == "unknown":
+        raise InputError(
+            f"{field}: unknown unit {unit!r} in {shown!r}; expected {expected}",
+            field=field,
+            value=shown,
+            expected=expected,
+        )
+    if conversion.problem is not None:
+        raise InputError(
+            f"{field}: {shown!r} is {conversion.problem}; expected {expected}",
+            field=field,
+            value=shown,
+            expected=expected,
+        )
+    return conversion
 
 
 def _what_it_is(q: Any, ureg: Any) -> str:
@@ -151,18 +324,47 @@ def _what_it_is(q: Any, ureg: Any) -> str:
     return f"of dimension {q.dimensionality or 'dimensionless'}"
 
 
+def _plain_text(text: str, *, field: str, expected: str) -> str:
+    """``text`` with every kind of space made a plain one, stripped; InputError if it is too
+    long or holds a control or invisible character."""
+    if len(text) > MAX_TEXT:
+        raise InputError(
+            f"{field}: the text is {len(text)} characters long; at most {MAX_TEXT} "
+            f"(expected {expected})",
+            field=field,
+            value=text[:40] + "...",
+            expected=expected,
+        )
+    chars = []
+    for ch in text:
+        category = unicodedata.category(ch)
+        if category in _INVISIBLE:
+            raise InputError(
+                f"{field}: {text!r} contains the control or invisible character "
+                f"{_char_name(ch)}; expected {expected}",
+                field=field,
+                value=text,
+                expected=expected,
+            )
+        chars.append(" " if category == "Zs" else ch)
+    return "".join(chars).strip()
+
+
 def split_number(text: str, *, field: str, expected: str) -> tuple[float, str]:
-    """Split "12.5 psi" into (12.5, "psi"); refuse non-numbers, NaN and infinity."""
+    """Split "12.5 psi" into (12.5, "psi"); refuse non-numbers, NaN, infinity, digits other
+    than ASCII 0-9, control or invisible characters and text over MAX_TEXT characters."""
     if not isinstance(text, str):
         text = str(text)
-    m = _NUMBER.match(text)
+    clean = _plain_text(text, field=field, expected=expected)
+    m = _NUMBER.match(clean)
     if m is None:
-        low = text.strip().lower()
-        why = (
-            "is not a finite number"
-            if low.lstrip("+-").startswith(("nan", "inf"))
-            else "is not a number"
-        )
+        low = clean.lower()
+        if low.lstrip("+-").startswith(("nan", "inf")):
+            why = "is not a finite number"
+        elif any(ch.isdigit() or unicodedata.decimal(ch, None) is not None for ch in clean):
+            why = "is not a number (write its digits as 0-9)"
+        else:
+            why = "is not a number"
         raise InputError(
             f"{field}: {text!r} {why}; expected {expected}",
             field=field,
@@ -177,7 +379,7 @@ def split_number(text: str, *, field: str, expected: str) -> tuple[float, str]:
             value=text,
             expected=expected,
         )
-    return number, m.group(2)
+    return number, m.group(2).strip()
 
 
 def parse(
@@ -200,7 +402,7 @@ def parse(
     number, unit = split_number(text, field=field, expected=expected)
     if not unit:
         if kind == "fraction" and bare_ratio:
-            value = number
+            value = check_si(number, kind, field=field, shown=text)
         elif default_unit is None:
             raise InputError(
                 f"{field}: {text!r} has no unit; expected {expected}",
@@ -223,20 +425,37 @@ def parse(
 
 
 def split_header(header: str) -> tuple[str, str | None]:
-    """Split a column header "flux [LMH]" into ("flux", "LMH"); no brackets -> (name, None)."""
-    m = _HEADER.match(header)
-    if m is None:
-        return header.strip(), None
-    return m.group("name"), m.group("unit").strip()
+    """Split a column header "flux [LMH]" into ("flux", "LMH"); no brackets -> (name, None).
+
+    A header is one ``name [unit]`` at most; anything else (more brackets, text after the
+    closing one) is returned whole as a name, which matches no wanted column.
+    """
+    text = header.strip()
+    if text.endswith("]") and text.count("[") == 1 and text.count("]") == 1:
+        name, _, unit = text[:-1].partition("[")
+        return name.strip(), unit.strip()
+    return text, None
 
 
 def from_si(value: float, kind: str, unit: str | None = None) -> float:
     """Express an SI value of ``kind`` in ``unit`` (default: the kind's display unit)."""
+    a, b = _display(kind, unit or KINDS[kind].display)
+    return a * value + b
+
+
+@lru_cache(maxsize=256)
+def _display(kind: str, unit: str) -> tuple[float, float]:
+    """unit = a·SI + b, worked out once with pint (our display units are all affine)."""
     k = KINDS[kind]
-    target = unit or k.display
     ureg = registry()
-    q = ureg.Quantity(value, k.si) if k.si else ureg.Quantity(value)
-    return float(q.to(_clean_unit(target)).magnitude)
+    target = _clean_unit(unit)
+
+    def shown(x: float) -> float:
+        q = ureg.Quantity(x, k.si) if k.si else ureg.Quantity(x)
+        return float(q.to(target).magnitude)
+
+    b = shown(0.0)
+    return shown(1.0) - b, b
 
 
 def quantity(value: float, kind: str, unit: str | None = None) -> dict[str, Any]:

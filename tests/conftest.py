@@ -6,9 +6,13 @@ import os
 import uuid
 from collections.abc import Iterator
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import pytest
 from hypothesis import settings
+
+if TYPE_CHECKING:
+    from tests.world import World, Worlds
 
 settings.register_profile("ci", derandomize=True, deadline=None, print_blob=True)
 settings.register_profile("dev", deadline=None, print_blob=True)
@@ -59,21 +63,91 @@ def _postgres_schema_url(base: str) -> Iterator[str]:
         admin.dispose()
 
 
-@pytest.fixture(params=["sqlite", pytest.param("postgresql", marks=pytest.mark.postgres)])
+BACKENDS = ["sqlite", pytest.param("postgresql", marks=pytest.mark.postgres)]
+
+
+def _postgres_base() -> str:
+    base = os.environ.get(POSTGRES_ENV)
+    if not base:
+        pytest.skip(NO_POSTGRES)
+    return base
+
+
+@pytest.fixture(params=BACKENDS)
 def db_url(request: pytest.FixtureRequest, tmp_path: Path) -> Iterator[str]:
     """A URL of a fresh, empty database: an SQLite file, or a new PostgreSQL schema."""
     if request.param == "sqlite":
         yield f"sqlite:///{tmp_path}/ledger.db"
         return
-    base = os.environ.get(POSTGRES_ENV)
-    if not base:
-        pytest.skip(NO_POSTGRES)
-    yield from _postgres_schema_url(base)
+    yield from _postgres_schema_url(_postgres_base())
+
+
+@pytest.fixture(scope="session")
+def worlds(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Worlds]:
+    """This worker's built logbooks, each built once and handed out as copies."""
+    from tests.world import Worlds
+
+    cache = Worlds(tmp_path_factory, os.environ.get(POSTGRES_ENV))
+    try:
+        yield cache
+    finally:
+        cache.close()
+
+
+# Test files whose tests share a costly module- or session-level build (the demo run; the runs
+# in review and approved of the record tests) go to one xdist worker as a unit, so each worker
+# does not build them again; every other test is scheduled on its own. (xdist's loadgroup does
+# not group on this pytest, whose node ids it cannot rename.)
+SHARED_BUILDS = {
+    "tests/cli/test_demo.py": "demo",
+    "tests/records/test_context.py": "records",
+    "tests/records/test_sign_cli.py": "records",
+    "tests/records/test_verify.py": "records",
+}
+
+
+@pytest.hookimpl(optionalhook=True)
+def pytest_xdist_make_scheduler(config: pytest.Config, log: object) -> object:
+    """The default (load) schedule, with the files of SHARED_BUILDS kept together."""
+    if config.getvalue("dist") != "load":
+        return None
+    from xdist.scheduler import LoadScopeScheduling  # type: ignore[import-untyped]
+
+    class SharedBuilds(LoadScopeScheduling):
+        def _split_scope(self, nodeid: str) -> str:
+            return SHARED_BUILDS.get(nodeid.split("::", 1)[0], nodeid)
+
+    return SharedBuilds(config, log)
+
+
+def pytest_generate_tests(metafunc: pytest.Metafunc) -> None:
+    """``backend`` is both databases, or SQLite alone for a test marked ``sqlite_only``."""
+    if "backend" in metafunc.fixturenames:
+        only = metafunc.definition.get_closest_marker("sqlite_only") is not None
+        metafunc.parametrize("backend", ["sqlite"] if only else BACKENDS, indirect=True)
 
 
 @pytest.fixture
-def world(db_url: str) -> object:
-    """A fresh logbook (SQLite, and PostgreSQL in CI) with users and a module type."""
-    from tests.world import build
+def backend(request: pytest.FixtureRequest) -> str:
+    """The database kind of a world test: "sqlite", or "postgresql" in CI."""
+    if request.param == "postgresql":
+        _postgres_base()
+    return str(request.param)
 
-    return build(db_url)
+
+@pytest.fixture
+def world(backend: str, worlds: Worlds, tmp_path: Path) -> Iterator[World]:
+    """A logbook of its own (SQLite, and PostgreSQL in CI) with users and a module type.
+
+    PostgreSQL is for tests whose subject is the database (storage, audit chain, concurrency,
+    migrations, signing and tampering); the others are marked ``sqlite_only``.
+    """
+    with worlds.copy(backend, tmp_path) as w:
+        yield w
+
+
+@pytest.fixture
+def sqlite_world(worlds: Worlds, tmp_path: Path) -> Iterator[World]:
+    """A logbook of its own on SQLite, with users and a module type."""
+    with worlds.copy("sqlite", tmp_path) as w:
+        yield w

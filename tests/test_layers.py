@@ -63,14 +63,18 @@ def test_cli_start_up_path_has_no_heavy_imports() -> None:
 
 
 # Each layer may use the ones below it only (DEVELOPERS.md).
+FRONT_ENDS = {"ledger.cli", "ledger.web"}
 ABOVE = {
-    "ledger/store": {"ledger.logbook", "ledger.runs", "ledger.records", "ledger.cli",
-                     "ledger.rules"},
-    "ledger/logbook": {"ledger.runs", "ledger.records", "ledger.cli"},
-    "ledger/runs": {"ledger.records", "ledger.cli"},
-    "ledger/records": {"ledger.cli"},
-    "migrations": {"ledger.logbook", "ledger.runs", "ledger.records", "ledger.cli",
-                   "ledger.rules", "ledger.science"},
+    "ledger/store": {"ledger.logbook", "ledger.runs", "ledger.records", "ledger.entries",
+                     "ledger.rules", *FRONT_ENDS},
+    "ledger/logbook": {"ledger.runs", "ledger.records", "ledger.entries", *FRONT_ENDS},
+    "ledger/runs": {"ledger.records", "ledger.entries", *FRONT_ENDS},
+    "ledger/records": {"ledger.entries", *FRONT_ENDS},
+    "ledger/entries": FRONT_ENDS,
+    # A front end holds no persistence: sessions, transactions and queries live in services.
+    "ledger/cli": {"ledger.store", "sqlmodel", "sqlalchemy"},
+    "migrations": {"ledger.logbook", "ledger.runs", "ledger.records", "ledger.entries",
+                   "ledger.rules", "ledger.science", *FRONT_ENDS},
 }  # fmt: skip
 
 
@@ -92,3 +96,27 @@ def test_logbook_commands_do_not_load_pandas_or_reportlab() -> None:
         "ledger.logbook.uses, ledger.logbook.fitness, ledger.store.audit"
     )
     assert not {"pandas", "reportlab", "scipy"} & mods
+
+
+# What only the entry layer does: turn typed text into SI values, read users' files.
+PARSERS = {"parse", "to_si", "split_number", "read_points", "parse_time", "read_log"}
+
+
+@pytest.mark.parametrize("path", sorted((ROOT / "ledger/cli").rglob("*.py")), ids=str)
+def test_front_ends_leave_parsing_to_the_entry_layer(path: Path) -> None:
+    tree = ast.parse(path.read_text(encoding="utf-8"))
+    calls = {
+        node.func.attr if isinstance(node.func, ast.Attribute) else getattr(node.func, "id", "")
+        for node in ast.walk(tree)
+        if isinstance(node, ast.Call)
+    }
+    imported = imported_modules(path)
+    assert not {"ledger.units", "ledger.pointsfile", "ledger.logbook.times"} & imported, path
+    assert not PARSERS & calls, f"{path.relative_to(ROOT)} calls {sorted(PARSERS & calls)}"
+
+
+def test_no_code_cites_documents_outside_the_repository() -> None:
+    for folder in ("ledger", "tests", "bench", "migrations"):
+        for path in (ROOT / folder).rglob("*.py"):
+            text = path.read_text(encoding="utf-8")
+            assert "DESIGN" + " §" not in text and "DESIGN" + ".md" not in text, path

@@ -3,15 +3,28 @@ driven through the CLI as its users would drive it. Names and values are invente
 
 from __future__ import annotations
 
+import gc
+import itertools
 import json
+import os
+import shutil
+import sqlite3
+import sys
+import uuid
+from collections.abc import Callable, Iterator, Mapping, Sequence
+from contextlib import contextmanager
 from dataclasses import dataclass
+from functools import cache
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from sqlalchemy import Engine, func, select
 from typer.testing import CliRunner
 
 from ledger.cli.main import app
+
+if TYPE_CHECKING:
+    from typer._click import Command
 
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_records"
 
@@ -52,14 +65,80 @@ class Result:
         return json.loads(self.stdout)
 
 
+@cache
+def command() -> Command:
+    """The click command of the app, built once: typer's runner rebuilds it on every call."""
+    import typer.main
+
+    return typer.main.get_command(app)
+
+
+def invoke(
+    args: Sequence[str], input: str | None = None, env: Mapping[str, str] | None = None
+) -> Result:
+    """Run the CLI in-process as typer's ``CliRunner.invoke`` does, on the cached command.
+
+    The root callback still runs on every call (it forgets buffered stdin lines). A
+    SystemExit is how the CLI reports its exit code; any other exception escaped as a
+    traceback and is returned in ``exception``.
+    """
+    runner = CliRunner()
+    cli = command()
+    exception: BaseException | None = None
+    code = 0
+    with runner.isolation(input=input, env=env) as streams:
+        try:
+            cli.main(args=list(args), prog_name=runner.get_default_prog_name(cli))
+        except SystemExit as exit_:
+            status = exit_.code
+            if status is None:
+                status = 0
+            if not isinstance(status, int):
+                sys.stdout.write(f"{status}\n")
+                status = 1
+            code = status
+        except Exception as exc:
+            exception = exc
+            code = 1
+        finally:
+            sys.stdout.flush()
+            sys.stderr.flush()
+            out, err = streams[0].getvalue(), streams[1].getvalue()
+    return Result(code, _text(out, runner.charset), _text(err, runner.charset), exception)
+
+
+@contextmanager
+def one_click_command() -> Iterator[None]:
+    """Make ``typer.main.get_command(app)`` return the cached command while inside.
+
+    For code under test that builds the command for each step it runs in-process (the demo
+    runs some eighty commands); other Typer apps are built as usual.
+    """
+    import typer.main
+
+    command()  # built (and cached) with the real function, before it is replaced
+    real = typer.main.get_command
+
+    def get_command(typer_instance: Any) -> Command:
+        return command() if typer_instance is app else real(typer_instance)
+
+    typer.main.get_command = get_command
+    try:
+        yield
+    finally:
+        typer.main.get_command = real
+
+
+def _text(data: bytes, charset: str) -> str:
+    return data.decode(charset, "replace").replace("\r\n", "\n")
+
+
 @dataclass
 class World:
     url: str
 
     def cli(self, *args: str, input: str | None = None) -> Result:
-        result = CliRunner().invoke(app, [*args, "--db", self.url], input=input)
-        exc = result.exception if not isinstance(result.exception, SystemExit) else None
-        return Result(result.exit_code, result.stdout, result.stderr, exc)
+        return invoke([*args, "--db", self.url], input=input)
 
     def as_user(self, user: str, *args: str, extra: list[str] | None = None) -> Result:
         """Run a write command as ``user``; ``extra`` are further stdin lines (new passwords)."""
@@ -169,3 +248,165 @@ def build(url: str) -> World:
         )
     w.ok(w.as_user("eng.ray", "module-type", "add", "HF-750", *TYPE_OPTIONS))
     return w
+
+
+# --- Built once, copied per test ------------------------------------------------------------
+
+Recipe = Callable[[World, Path], None]
+"""Steps that take a fresh world further; files they write go into the folder given."""
+
+DB_FILE = "ledger.db"
+
+
+@contextmanager
+def cheap_hashes() -> Iterator[None]:
+    """The tests' cheap argon2 setting (tests/conftest.py), for worlds built outside a test."""
+    from argon2 import PasswordHasher
+
+    import ledger.logbook.auth as auth
+
+    cheap = PasswordHasher(time_cost=1, memory_cost=64, parallelism=1)
+    saved = auth._hasher
+    auth._hasher = lambda: cheap
+    try:
+        yield
+    finally:
+        auth._hasher = saved
+
+
+def _settle_sqlite(path: Path) -> None:
+    """Close what the CLI left open and fold the WAL into the file, so one file is the copy."""
+    gc.collect()  # engines the commands made are closed when collected
+    con = sqlite3.connect(path)
+    try:
+        con.execute("PRAGMA wal_checkpoint(TRUNCATE)")
+        mode = con.execute("PRAGMA journal_mode = DELETE").fetchone()[0]
+    finally:
+        con.close()
+    assert mode == "delete", f"{path} is still open elsewhere (journal mode {mode})"
+
+
+class _Postgres:
+    """Whole databases of one server: build a template once, copy it per test."""
+
+    def __init__(self, base: str) -> None:
+        from sqlalchemy import create_engine, make_url
+        from sqlalchemy.pool import NullPool
+
+        from ledger.store.engine import resolve_url
+
+        self.base = make_url(base)
+        self.admin = create_engine(
+            resolve_url(base), isolation_level="AUTOCOMMIT", poolclass=NullPool
+        )
+        worker = os.environ.get("PYTEST_XDIST_WORKER", "main")
+        self.prefix = f"fl_{worker}_{uuid.uuid4().hex[:8]}"
+        self.count = itertools.count(1)
+        self.made: set[str] = set()  # dropped at the end, whatever happened to the tests
+
+    def url(self, name: str) -> str:
+        return self.base.set(database=name).render_as_string(hide_password=False)
+
+    def new_name(self) -> str:
+        return f"{self.prefix}_{next(self.count)}"
+
+    def execute(self, sql: str, **params: object) -> None:
+        from sqlalchemy import text
+
+        with self.admin.connect() as conn:
+            conn.execute(text(sql), params)
+
+    def create(self, name: str, template: str | None = None) -> None:
+        self.made.add(name)
+        self.execute(f'CREATE DATABASE "{name}"' + (f' TEMPLATE "{template}"' if template else ""))
+
+    def settle(self, name: str) -> None:
+        """A template may have no connection when it is copied: end those the CLI left."""
+        gc.collect()
+        self.execute(
+            "SELECT pg_terminate_backend(pid, 10000) FROM pg_stat_activity "
+            "WHERE datname = :name AND pid <> pg_backend_pid()",
+            name=name,
+        )
+
+    def drop(self, name: str) -> None:
+        self.execute(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)')
+        self.made.discard(name)
+
+
+class Worlds:
+    """One worker's worlds: each (backend, recipe) is built once, and every test gets a copy.
+
+    SQLite: the built file is copied into the test's tmp_path. PostgreSQL: a database is made
+    from the built one with CREATE DATABASE ... TEMPLATE and dropped after the test.
+    Files a recipe wrote (skid logs) are copied into the test's tmp_path too.
+    """
+
+    def __init__(self, tmp: Any, postgres_url: str | None) -> None:
+        self._tmp = tmp
+        self._postgres_url = postgres_url
+        self._pg: _Postgres | None = None
+        self._built: dict[tuple[str, str], tuple[Path, str | None]] = {}
+
+    def _postgres(self) -> _Postgres:
+        if self._pg is None:
+            assert self._postgres_url, "no PostgreSQL URL"
+            self._pg = _Postgres(self._postgres_url)
+        return self._pg
+
+    def _template(self, backend: str, recipe: Recipe | None) -> tuple[Path, str | None]:
+        key = (backend, "base" if recipe is None else f"{recipe.__module__}.{recipe.__qualname__}")
+        if key in self._built:
+            return self._built[key]
+        folder = Path(self._tmp.mktemp(f"world-{backend}"))
+        with cheap_hashes():
+            if backend == "sqlite":
+                db = folder / DB_FILE
+                if recipe is None:
+                    build(f"sqlite:///{db}")
+                else:
+                    base, _ = self._template(backend, None)
+                    shutil.copyfile(base / DB_FILE, db)
+                    recipe(World(f"sqlite:///{db}"), folder)
+                _settle_sqlite(db)
+                name = None
+            else:
+                pg = self._postgres()
+                name = pg.new_name()
+                if recipe is None:
+                    pg.create(name)
+                    build(pg.url(name))
+                else:
+                    base_folder, base_name = self._template(backend, None)
+                    assert base_name is not None
+                    pg.create(name, template=base_name)
+                    for f in base_folder.iterdir():
+                        shutil.copyfile(f, folder / f.name)
+                    recipe(World(pg.url(name)), folder)
+                pg.settle(name)
+        self._built[key] = (folder, name)
+        return folder, name
+
+    @contextmanager
+    def copy(self, backend: str, dest: Path, recipe: Recipe | None = None) -> Iterator[World]:
+        """A world of the test's own in ``dest`` (its tmp_path), as ``recipe`` left it."""
+        folder, template = self._template(backend, recipe)
+        for f in folder.iterdir():
+            shutil.copyfile(f, dest / f.name)
+        if template is None:
+            yield World(f"sqlite:///{dest / DB_FILE}")
+            return
+        pg = self._postgres()
+        name = pg.new_name()
+        pg.create(name, template=template)
+        try:
+            yield World(pg.url(name))
+        finally:
+            pg.drop(name)
+
+    def close(self) -> None:
+        if self._pg is None:
+            return
+        for name in sorted(self._pg.made):
+            self._pg.drop(name)
+        self._pg.admin.dispose()

@@ -5,7 +5,7 @@ from __future__ import annotations
 import typer
 
 from ledger.cli.common import JSON_OPTION, guarded
-from ledger.cli.session import DB_OPTION, read, when
+from ledger.cli.session import DB_OPTION, read
 
 app = typer.Typer(help="Check and review the audit trail.", no_args_is_help=True)
 
@@ -15,7 +15,7 @@ app = typer.Typer(help="Check and review the audit trail.", no_args_is_help=True
 def verify(db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> None:
     """Recompute every record hash and the event chain; exit 1 naming each bad row."""
     from ledger.cli.output import Report, Table
-    from ledger.store.audit import verify as run
+    from ledger.logbook.history import verify_audit as run
 
     result = read(db, run)
     report = Report("audit verify", verdict="intact" if result.ok else "PROBLEMS FOUND")
@@ -47,20 +47,11 @@ def show(
 ) -> None:
     """List audit events: who, when (UTC), what, old and new value, why."""
     from ledger.cli.output import Report, Table
+    from ledger.entries.uses import audit_filter
     from ledger.logbook.history import audit_events
 
-    events = read(
-        db,
-        lambda s: audit_events(
-            s,
-            entity=entity,
-            serial=module,
-            user=user,
-            since=when(since, "since"),
-            until=when(until, "until"),
-            limit=last,
-        ),
-    )
+    filters = audit_filter(locals())
+    events = read(db, lambda s: audit_events(s, **filters))  # type: ignore[arg-type]
     if as_json:
         report = Report("audit show")
         table = Table("Events", [(k, k) for k in EVENT_FIELDS])

@@ -12,9 +12,10 @@ from ledger.cli.common import JSON_OPTION, guarded
 from ledger.cli.describe import SITE_NOTE
 from ledger.cli.session import DB_OPTION, PASSWORD_STDIN, read, read_secret
 from ledger.errors import InputError
+from ledger.rules.signing import MEANINGS
 
 app = typer.Typer(
-    help="Batch records: print the PDF, sign it (performed, verified, reviewed, approved), "
+    help=f"Batch records: print the PDF, sign it ({', '.join(MEANINGS)}), "
     "correct it as a new revision, seal it digitally, verify a printed file.",
     no_args_is_help=True,
 )
@@ -22,6 +23,7 @@ RUN = typer.Argument(..., help="The run's number (see `fluxledger run list`).")
 REVISION = typer.Option(
     None, "--revision", help="Which revision (default: the current one, else a draft)."
 )
+FORCE = typer.Option(False, "--force", help="Overwrite the file if it exists.")
 
 
 def _user(user: str | None, password_stdin: bool) -> str:
@@ -32,7 +34,9 @@ def _user(user: str | None, password_stdin: bool) -> str:
     return str(typer.prompt("User ID"))
 
 
-def _out(out: Path | None, default: str) -> Path:
+def _out(out: Path | None, default: str, force: bool) -> Path:
+    """The file to write: ``out``, or ``default`` in the folder ``out`` (or ./); an existing
+    file is overwritten only with --force."""
     path = out or Path(default)
     if path.is_dir():
         path = path / default
@@ -42,6 +46,13 @@ def _out(out: Path | None, default: str) -> Path:
             field="out",
             value=str(path),
             expected="a file path in an existing folder",
+        )
+    if path.exists() and not force:
+        raise InputError(
+            f"--out {path}: the file exists; nothing was written",
+            field="out",
+            value=str(path),
+            expected="a file name not yet taken, or --force to overwrite it",
         )
     return path
 
@@ -65,16 +76,18 @@ def print_record(
     revision: int | None = REVISION,
     out: Path | None = typer.Option(None, "--out", help="PDF file or folder (default: ./)."),
     no_charts: bool = typer.Option(False, "--no-charts", help="Leave the charts out."),
+    force: bool = FORCE,
     db: str | None = DB_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
-    """Write the batch record as PDF: the current revision with its signatures, or a draft."""
+    """Write the batch record as PDF: the current revision with its signatures, or a draft.
+    An existing file is kept unless --force is given."""
     from ledger.records.pdf import render, write_atomic
     from ledger.records.service import record_of
 
     issued = read(db, lambda s: record_of(s, run, revision))
     ctx = issued.context
-    path = _out(out, _file_name(ctx))
+    path = _out(out, _file_name(ctx), force)
     data = render(ctx, software_version=_software(), charts=not no_charts)
     write_atomic(path, data)
     _written(path, ctx, data, as_json)
@@ -115,8 +128,8 @@ def sign(
     meaning: str = typer.Option(
         ...,
         "--meaning",
-        help="What your signature means: performed, verified, reviewed or "
-        "approved (in the master record's order).",
+        help=f"What your signature means: {', '.join(MEANINGS[:-1])} or {MEANINGS[-1]} "
+        "(in the master record's order).",
     ),
     user: str | None = typer.Option(
         None,
@@ -133,31 +146,14 @@ def sign(
     signature stores that hash. The last signature of the master record (approval) locks the
     record. Approval is refused while a check is FAIL without a closed deviation, or MISSING.
     """
-    from ledger.cli.session import acting_user, open_ledger
+    from ledger.cli.session import write
+    from ledger.records.queries import signature_receipt
     from ledger.records.service import sign as do_sign
-    from ledger.store.engine import transaction
 
     login = _user(user, password_stdin)
-    engine = open_ledger(db)
-    actor = acting_user(engine, login, password_stdin)
-    with transaction(engine) as session:
-        sig = do_sign(session, actor, run, meaning)
-        from ledger.records.assemble import iso, record_id
-        from ledger.store.tables import Run
-
-        status = session.get(Run, run).status  # type: ignore[union-attr]
-        info = {
-            "signature": sig.id,
-            "record": record_id(run),
-            "revision": sig.revision,
-            "meaning": sig.meaning,
-            "user": sig.login,
-            "name": sig.full_name,
-            "role": sig.role,
-            "signed_at": iso(sig.signed_at),
-            "revision_sha256": sig.revision_sha256,
-            "run_status": status,
-        }
+    info = write(
+        db, login, password_stdin, lambda s, a: signature_receipt(s, do_sign(s, a, run, meaning))
+    )
     if as_json:
         import json
 
@@ -168,7 +164,7 @@ def sign(
         f"{info['name']} ({info['user']}, {info['role']}) at {info['signed_at']}\n"
         f"revision SHA-256 {info['revision_sha256']}"
     )
-    if status == "approved":
+    if info["run_status"] == "approved":
         typer.echo("the record is approved and locked; a correction makes a new revision")
 
 
@@ -180,6 +176,7 @@ def correct(
     user: str = typer.Option(..., "--user", help="Your user ID; the password is asked for."),
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Open a record in review or approved for correction (engineer or QA).
 
@@ -188,9 +185,17 @@ def correct(
     revision whose reason is REASON.
     """
     from ledger.cli.session import write
+    from ledger.records.queries import correction_receipt
     from ledger.records.service import correct as do_correct
 
-    write(db, user, password_stdin, lambda s, a: do_correct(s, a, run, reason))
+    info = write(
+        db, user, password_stdin, lambda s, a: correction_receipt(do_correct(s, a, run, reason))
+    )
+    if as_json:
+        import json
+
+        typer.echo(json.dumps(info, ensure_ascii=False))
+        return
     typer.echo(
         f"run {run} is open for correction; correct its data, then `fluxledger run "
         "submit` and sign the new revision"
@@ -202,30 +207,16 @@ def correct(
 def show(run: int = RUN, db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> None:
     """List the record's revisions and signatures, and the signature that comes next."""
     from ledger.cli.output import Report, Table
-    from ledger.records.assemble import iso, record_id, signature_rows
-    from ledger.records.service import current_revision, revisions
-    from ledger.runs.service import get_run, run_template
+    from ledger.records.queries import overview
 
-    def gather(s: Any) -> tuple[Any, ...]:
-        r = get_run(s, run)
-        return (
-            r.status,
-            run_template(r),
-            revisions(s, run),
-            current_revision(s, run),
-            signature_rows(s, run),
-        )
-
-    status, template, revs, current, sigs = read(db, gather)
-    report = Report(f"record {record_id(run)}", verdict=status.replace("_", " "))
+    o = read(db, lambda s: overview(s, run))
+    report = Report(f"record {o.record}", verdict=o.run_status.replace("_", " "))
     sec = report.section("Record")
-    sec.add("run_status", status, "run status")
-    sec.add("current_revision", current.number if current else None, "current revision")
-    done = {x.meaning for x in sigs if current and x.revision == current.number}
-    following = next((m for m in template.signatures if m not in done), None)
-    if status in ("in_review",) and following:
-        roles = " or ".join(template.signers.get(following, ()))
-        sec.add("next_signature", f"{following} (by {roles})", "next signature")
+    sec.add("run_status", o.run_status, "run status")
+    sec.add("current_revision", o.current_revision, "current revision")
+    if o.next_signature:
+        roles = " or ".join(o.next_signers)
+        sec.add("next_signature", f"{o.next_signature} (by {roles})", "next signature")
     t = Table(
         "Revisions",
         [
@@ -236,14 +227,14 @@ def show(run: int = RUN, db: str | None = DB_OPTION, as_json: bool = JSON_OPTION
             ("superseded", "superseded"),
         ],
     )
-    for r in revs:
+    for r in o.revisions:
         t.rows.append(
             [
                 r.number,
                 r.reason,
-                iso(r.as_of),
+                r.issued_at,
                 r.sha256,
-                f"{iso(r.superseded_at)}: {r.superseded_reason}" if r.superseded_at else None,
+                f"{r.superseded_at}: {r.superseded_reason}" if r.superseded_at else None,
             ]
         )
     report.tables.append(t)
@@ -258,7 +249,7 @@ def show(run: int = RUN, db: str | None = DB_OPTION, as_json: bool = JSON_OPTION
             ("revision_sha256", "signed hash"),
         ],
     )
-    for x in sigs:
+    for x in o.signatures:
         t.rows.append([x.revision, x.meaning, x.login, x.full_name, x.signed_at, x.revision_sha256])
     report.tables.append(t)
     report.print(as_json)
@@ -283,25 +274,19 @@ def seal(
     ),
     revision: int | None = REVISION,
     out: Path | None = typer.Option(None, "--out", help="PDF file or folder (default: ./)."),
+    force: bool = FORCE,
     db: str | None = DB_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
-    """Print the approved record and seal the file digitally (PAdES, pyHanko)."""
-    from ledger.errors import RefusedError
+    """Print the approved record and seal the file digitally (PAdES, pyHanko). An existing
+    file is kept unless --force is given."""
     from ledger.records.pdf import render, write_atomic
     from ledger.records.seal import seal as do_seal
-    from ledger.records.service import record_of
+    from ledger.records.service import approved_record
 
-    issued = read(db, lambda s: record_of(s, run, revision))
+    issued = read(db, lambda s: approved_record(s, run, revision))
     ctx = issued.context
-    signed = {s.meaning for s in ctx.signatures if s.revision == ctx.header.revision}
-    if issued.revision is None or not set(ctx.required_signatures) <= signed:
-        raise RefusedError(
-            f"{ctx.header.record_id} revision {ctx.header.revision} is not approved: only a "
-            "fully signed revision is sealed",
-            field="run",
-            value=run,
-        )
+    path = _out(out, _file_name(ctx, "-sealed"), force)
     password = read_secret("Key password", from_stdin=key_password_stdin)
     data = render(ctx, software_version=_software())
     sealed = do_seal(
@@ -312,7 +297,6 @@ def seal(
         tsa_url=tsa or os.environ.get("FLUXLEDGER_TSA_URL") or None,
         reason=f"Batch record {ctx.header.record_id} revision {ctx.header.revision}, approved",
     )
-    path = _out(out, _file_name(ctx, "-sealed"))
     write_atomic(path, sealed)
     _written(path, ctx, sealed, as_json, sealed=True)
 

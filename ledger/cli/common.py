@@ -3,12 +3,14 @@
 from __future__ import annotations
 
 import functools
+import re
 from collections.abc import Callable
 from typing import Any, TypeVar
 
 import typer
 
 from ledger.errors import LedgerError
+from ledger.rules.names import shown
 
 JSON_OPTION = typer.Option(
     False, "--json", help="Print one JSON object (quantities as value and unit) instead of tables."
@@ -43,7 +45,10 @@ def explain(err: LedgerError, options: dict[str, Any]) -> str:
     for end in range(len(parts), 0, -1):
         name = "_".join(parts[:end])
         if name in options:
-            return f"--{name.replace('_', '-')} {options[name]!r}: {text}"
+            flag = f"--{name.replace('_', '-')}"
+            if re.search(re.escape(flag) + r"(?![\w-])", text):
+                return text  # the message names the option already
+            return f"{flag} {shown(options[name])}: {text}"
     return text
 
 

@@ -15,7 +15,7 @@ import os
 import shlex
 import sys
 import tomllib
-from datetime import datetime, timedelta
+from datetime import UTC, datetime, timedelta
 from pathlib import Path
 from typing import Any
 
@@ -25,6 +25,13 @@ from ledger.cli.common import JSON_OPTION
 from ledger.errors import InputError
 
 SAMPLES = Path(__file__).resolve().parents[2] / "sample_records"
+# The demo's own note in its output folder: the names it wrote there. A later run replaces
+# those and refuses a folder holding anything else (a real logbook, someone's files).
+MARKER = ".fluxledger-demo"
+FIXED_OUTPUTS = ("bench_calculations.json", "bench_session.txt", "fluxledger.db",
+                 "logbook_session.txt", "qb117-26-014_skid_export.csv", "demo-seal")  # fmt: skip
+# Files SQLite and our atomic writes keep beside a file for a while.
+COMPANIONS = ("-wal", "-shm", "-journal", ".tmp")
 
 
 def _run(args: list[str], stdin: str = "") -> tuple[int, str]:
@@ -66,6 +73,49 @@ def _write_atomically(target: Path, text: str) -> Path:
     return target
 
 
+def _own(name: str, known: set[str]) -> bool:
+    ours = known | {MARKER}
+    return name in ours or any(name.endswith(e) and name[: -len(e)] in ours for e in COMPANIONS)
+
+
+def _earlier_outputs(out: Path) -> set[str]:
+    """The names an earlier demo run wrote into OUT (none for a new or empty folder); an
+    InputError on --out when OUT is not a folder or holds anything the demo did not write."""
+    if not out.exists():
+        return set()
+    if not out.is_dir():
+        raise InputError(
+            f"--out: {str(out)!r} is a file, not a folder",
+            field="--out",
+            value=str(out),
+            expected="a new or empty folder, or the folder of an earlier demo run",
+        )
+    known: set[str] = set()
+    marker = out / MARKER
+    if marker.is_file():
+        with contextlib.suppress(ValueError, OSError):
+            listed = json.loads(marker.read_text(encoding="utf-8")).get("files", [])
+            known = {name for name in listed if isinstance(name, str)}
+    foreign = sorted(p.name for p in out.iterdir() if not _own(p.name, known))
+    if foreign:
+        more = f" and {len(foreign) - 5} more" if len(foreign) > 5 else ""
+        raise InputError(
+            f"--out: {str(out)!r} holds files the demo did not write "
+            f"({', '.join(repr(n) for n in foreign[:5])}{more}); the demo replaces only its own "
+            "outputs (its database among them), so it refuses this folder",
+            field="--out",
+            value=str(out),
+            expected="a new or empty folder, or the folder of an earlier demo run",
+        )
+    return known
+
+
+def _mark(out: Path, names: set[str]) -> None:
+    """Write the marker that lists the demo's outputs in OUT."""
+    note = {"written_by": "fluxledger demo", "files": sorted(names - {MARKER})}
+    _write_atomically(out / MARKER, json.dumps(note, indent=2) + "\n")
+
+
 def demo(
     out: Path = typer.Option(..., "--out", help="Folder to write the demo's outputs into."),
     samples: Path = typer.Option(
@@ -82,6 +132,7 @@ def demo(
             value=str(samples),
             expected="the sample_records/ folder of fluxledger",
         )
+    earlier = _earlier_outputs(out)
     scenario = tomllib.loads(scenario_file.read_text(encoding="utf-8"))
     site = scenario["site"]
     transcript = [f"Demo scenario: {site['company']} — {site['setting']}", site["disclaimer"]]
@@ -101,6 +152,8 @@ def demo(
         if not as_json:
             typer.echo("\n".join(chunk))
     out.mkdir(parents=True, exist_ok=True)
+    # Marked before anything is written, so a run that stops half-way is still recognized.
+    _mark(out, earlier | set(FIXED_OUTPUTS) | _saved_names(samples))
     written = [
         _write_atomically(out / name, text + "\n")
         for name, text in (
@@ -109,6 +162,7 @@ def demo(
         )
     ]
     written += _logbook(out, samples, as_json)
+    _mark(out, {p.name for p in out.iterdir()})
     if as_json:
         summary = {
             "command": "demo",
@@ -123,6 +177,15 @@ def demo(
     typer.echo("Wrote:")
     for path in written:
         typer.echo(f"  {path}")
+
+
+def _saved_names(samples: Path) -> set[str]:
+    """The report files the scenario's steps save into OUT."""
+    names: set[str] = set()
+    for name in ("logbook_history.toml", "run_history.toml"):
+        steps = tomllib.loads((samples / name).read_text(encoding="utf-8")).get("steps", [])
+        names |= {step["save"] for step in steps if "save" in step}
+    return names
 
 
 def _fresh_database(out: Path) -> Path:
@@ -150,8 +213,6 @@ def _expand(
 
 def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
     """Build the logbook part of the scenario in OUT/fluxledger.db; return the files written."""
-    from ledger.store.types import utc_now
-
     scenario = tomllib.loads((samples / "logbook_history.toml").read_text(encoding="utf-8"))
     users = scenario["users"]
     db = ["--db", str(_fresh_database(out))]
@@ -167,7 +228,7 @@ def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
                  "--password-stdin"],
                 f"{users[admin]['password']}\n{u['password']}\n",
             ))  # fmt: skip
-    now = utc_now()
+    now = datetime.now(UTC)
     steps: list[tuple[str | None, list[str], str, str | None, int]] = [
         ("Users of the logbook" if i == 0 else None, args, stdin, None, 0)
         for i, (args, stdin) in enumerate(setup)

@@ -157,11 +157,10 @@ def _summary(kind: str, rec: Any) -> tuple[str, Any, str]:
 def history_report(session: Any, serial: str) -> Report:
     from ledger.logbook import latest
     from ledger.logbook.history import module_history
-    from ledger.logbook.modules import row_id
-    from ledger.store.tables import ModuleType
+    from ledger.logbook.modules import list_types, row_id
 
     module, entries = module_history(session, serial)
-    mtype = session.get(ModuleType, module.type_id)
+    mtype = next(t for t in list_types(session) if t.id == module.type_id)
     report = Report("module show")
     s = report.section("Module")
     s.add("serial", module.serial)

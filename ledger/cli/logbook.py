@@ -8,8 +8,7 @@ import typer
 
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
 from ledger.cli.describe import CAUSTIC_NOTE, finish
-from ledger.cli.session import ACTIVITY_TIME, DB_OPTION, PASSWORD_STDIN, USER_OPTION, when, write
-from ledger.errors import InputError
+from ledger.cli.session import ACTIVITY_TIME, DB_OPTION, PASSWORD_STDIN, USER_OPTION, write
 
 test_app = typer.Typer(help="Record water-flux and integrity tests.", no_args_is_help=True)
 care_app = typer.Typer(
@@ -20,65 +19,6 @@ care_app = typer.Typer(
 use_app = typer.Typer(help="Start and end a use (one processing cycle).", no_args_is_help=True)
 
 NOTE = typer.Option(None, "--note", help="A free-text remark kept with the record.")
-
-
-def _water_points(points_file: str, temperature: str | None) -> tuple[list[Any], float, Any]:
-    from ledger import units
-    from ledger.logbook.waterflux import WaterPoint
-    from ledger.pointsfile import Column, read_points
-
-    pts = read_points(
-        points_file,
-        [
-            Column("permeate_flow", "flow", required=False),
-            Column("volume", "volume", required=False),
-            Column("time", "time", required=False),
-            Column("feed", "pressure"),
-            Column("retentate", "pressure"),
-            Column("permeate", "pressure", required=False),
-            Column("temperature", "temperature", required=False),
-        ],
-    )
-    c = pts.columns
-    if not (pts.has("permeate_flow") or (pts.has("volume") and pts.has("time"))):
-        raise InputError(
-            f"{points_file}: needs a permeate_flow column, or volume and time",
-            field="points_file",
-            value=points_file,
-            expected="columns permeate_flow [mL/min] or volume [mL] and time [s]",
-        )
-    n = len(pts)
-    points = [
-        WaterPoint(
-            feed_pa=c["feed"][i],
-            retentate_pa=c["retentate"][i],
-            permeate_pa=c["permeate"][i] if pts.has("permeate") else 0.0,
-            flow_m3_s=c["permeate_flow"][i] if pts.has("permeate_flow") else None,
-            volume_m3=c["volume"][i]
-            if pts.has("volume") and not pts.has("permeate_flow")
-            else None,
-            time_s=c["time"][i] if pts.has("time") and not pts.has("permeate_flow") else None,
-        )
-        for i in range(n)
-    ]
-    if temperature is not None:
-        return points, units.parse(temperature, "temperature", field="--temperature"), pts
-    if not pts.has("temperature"):
-        raise InputError(
-            "give --temperature, or a temperature column in the points file",
-            field="temperature",
-            value=None,
-            expected="e.g. --temperature '22 degC'",
-        )
-    temps = c["temperature"]
-    if max(temps) - min(temps) > 1.0:
-        raise InputError(
-            f"{points_file}: the water temperature varies by more than 1 K",
-            field="temperature",
-            value=max(temps) - min(temps),
-            expected="one water temperature for the test (within 1 K)",
-        )
-    return points, sum(temps) / n, pts
 
 
 @test_app.command("water")
@@ -110,54 +50,20 @@ def water(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Record a water-flux test; prints NWP at T_ref and the recovery against baseline."""
-    from ledger import units
     from ledger.cli.describe import water_line
-    from ledger.logbook.waterflux import WaterPoint, record_water_test
+    from ledger.entries.water import water_test
+    from ledger.logbook.waterflux import record_water_test
 
-    if points_file is not None:
-        if any(v is not None for v in (feed, retentate, flow, volume, time)):
-            raise InputError(
-                "give --points-file or single-point options, not both",
-                field="points_file",
-                value=points_file,
-                expected="one of the two",
-            )
-        points, t, pts = _water_points(points_file, temperature)
-    else:
-        if feed is None or retentate is None or temperature is None:
-            raise InputError(
-                "a single-point test needs --feed, --retentate and --temperature",
-                field="feed",
-                value=feed,
-                expected="all three (or --points-file)",
-            )
-        t = units.parse(temperature, "temperature", field="--temperature")
-
-        def opt(text: str | None, kind: str, flag: str) -> float | None:
-            return None if text is None else units.parse(text, kind, field=flag)
-
-        points = [
-            WaterPoint(
-                feed_pa=units.parse(feed, "pressure", field="--feed"),
-                retentate_pa=units.parse(retentate, "pressure", field="--retentate"),
-                permeate_pa=units.parse(permeate, "pressure", field="--permeate"),
-                flow_m3_s=opt(flow, "flow", "--flow"),
-                volume_m3=opt(volume, "volume", "--volume"),
-                time_s=opt(time, "time", "--time"),
-            )
-        ]
-    at = when(activity_time)
+    e = water_test(locals())
 
     def work(s: Any, a: Any) -> Any:
         test, status = record_water_test(
-            s, a, serial, stage, points, t, water_grade=water_grade, activity_at=at, note=note
-        )
+            s, a, e.serial, e.stage, e.points, e.temperature_k, water_grade=e.water_grade,
+            activity_at=e.activity_at, note=e.note,
+        )  # fmt: skip
         return test, water_line(test), status
 
-    if points_file is not None:
-        with pts.blame():
-            test, text, status = write(db, user, password_stdin, work)
-    else:
+    with e.blame():
         test, text, status = write(db, user, password_stdin, work)
     finish("test water", test, text, status, as_json)
 
@@ -190,84 +96,23 @@ def integrity(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Record an integrity test (pressure decay or bubble point); a failure holds the module."""
-    from ledger import units
     from ledger.cli.describe import integrity_line
-    from ledger.logbook.integrity import DecayInput, record_bubble_point, record_decay_test
+    from ledger.entries.integrity import integrity_test
+    from ledger.logbook.integrity import record_bubble_point, record_decay_test
 
-    def q(text: str | None, kind: str, flag: str) -> float | None:
-        return None if text is None else units.parse(text, kind, field=flag)
+    e = integrity_test(locals())
 
-    temp = q(temperature, "temperature", "--temperature")
-    at = when(activity_time)
-    if bubble_point is not None:
-        if any(v is not None for v in (readings, start, end, hold_time)):
-            raise InputError(
-                "a bubble-point test takes no decay readings",
-                field="bubble_point",
-                value=bubble_point,
-                expected="--bubble-point alone, or a decay",
-            )
-        bp = units.parse(bubble_point, "pressure", field="--bubble-point")
-        test, status = write(
-            db,
-            user,
-            password_stdin,
-            lambda s, a: record_bubble_point(
-                s, a, serial, bp, temperature_k=temp, activity_at=at, note=note
-            ),
-        )
-        finish("test integrity", test, integrity_line(test), status, as_json)
-        return
-    pairs = None
-    if readings is not None:
-        from ledger.pointsfile import Column, read_points
+    def work(s: Any, a: Any) -> Any:
+        if e.decay is None:
+            return record_bubble_point(
+                s, a, e.serial, e.bubble_point(), temperature_k=e.temperature_k,
+                activity_at=e.activity_at, note=e.note,
+            )  # fmt: skip
+        return record_decay_test(s, a, e.serial, e.decay, activity_at=e.activity_at, note=e.note)
 
-        pts = read_points(
-            readings, [Column("time", "time"), Column("pressure", "pressure")], minimum=2
-        )
-        pairs = list(zip(pts.columns["time"], pts.columns["pressure"], strict=True))
-    d = DecayInput(
-        test_pressure_pa=q(test_pressure, "pressure", "--test-pressure"),
-        readings=pairs,
-        start_pa=q(start, "pressure", "--start"),
-        end_pa=q(end, "pressure", "--end"),
-        hold_time_s=q(hold_time, "time", "--hold-time"),
-        upstream_volume_m3=q(upstream_volume, "volume", "--upstream-volume"),
-        temperature_k=temp,
-    )
-    if pairs is not None:
-        with pts.blame():
-            test, status = write(
-                db,
-                user,
-                password_stdin,
-                lambda s, a: record_decay_test(s, a, serial, d, activity_at=at, note=note),
-            )
-    else:
-        test, status = write(
-            db,
-            user,
-            password_stdin,
-            lambda s, a: record_decay_test(s, a, serial, d, activity_at=at, note=note),
-        )
+    with e.blame():
+        test, status = write(db, user, password_stdin, work)
     finish("test integrity", test, integrity_line(test), status, as_json)
-
-
-def _concentration(text: str, flag: str = "--concentration") -> tuple[float, str]:
-    from ledger import units
-
-    for kind, unit in (("molarity", "mol/m**3"), ("concentration", "kg/m**3"), ("fraction", "")):
-        try:
-            return units.parse(text, kind, field=flag, bare_ratio=False), unit
-        except InputError:
-            continue
-    raise InputError(
-        f"{flag}: {text!r} is not a concentration",
-        field=flag.lstrip("-").replace("-", "_"),
-        value=text,
-        expected="a molarity (0.5 mol/L, 500 mM), a mass concentration "
-        "(20 g/L) or a percentage (0.5 %)",
-    )
 
 
 @care_app.command("clean")
@@ -298,31 +143,19 @@ def clean(
 ) -> None:
     """Record a cleaning. CAUTION: sodium hydroxide and similar agents are caustic; wear eye
     and skin protection and follow the site's procedure."""
-    from ledger import units
-    from ledger.logbook.care import CleaningInput, record_cleaning
+    from ledger.entries.care import cleaning
+    from ledger.logbook.care import record_cleaning
 
-    value, unit = _concentration(concentration)
-    c = CleaningInput(
-        agent=agent,
-        concentration=value,
-        concentration_unit=unit,
-        temperature_k=units.parse(temperature, "temperature", field="--temperature"),
-        contact_time_s=units.parse(contact_time, "time", field="--contact-time"),
-        reagent_lot=reagent_lot,
-        rinse_ph=rinse_ph,
-        rinse_conductivity_s_m=None
-        if rinse_conductivity is None
-        else units.parse(rinse_conductivity, "conductivity", field="--rinse-conductivity"),
-    )
-    at = when(activity_time)
+    e = cleaning(locals())
     record, status = write(
         db,
         user,
         password_stdin,
         lambda s, a: record_cleaning(
-            s, a, serial, c, procedure=procedure, activity_at=at, note=note
+            s, a, e.serial, e.cleaning, procedure=e.procedure, activity_at=e.activity_at,
+            note=e.note,
         ),
-    )
+    )  # fmt: skip
     line = f"cleaning {record.id} recorded for {serial}" + (" (late entry)" if record.late else "")
     if record.deviations is not None:
         line += (
@@ -346,14 +179,17 @@ def store(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Record the start of a storage period (its length counts against the storage limit)."""
+    from ledger.entries.care import storage
     from ledger.logbook.care import record_storage
 
-    at = when(activity_time)
+    e = storage(locals())
     record = write(
         db,
         user,
         password_stdin,
-        lambda s, a: record_storage(s, a, serial, solution, activity_at=at, note=note),
+        lambda s, a: record_storage(
+            s, a, e.serial, e.solution, activity_at=e.activity_at, note=e.note
+        ),
     )
     line = f"storage {record.id} started for {serial} in {record.solution}"
     finish("care store", record, line, None, as_json)
@@ -378,17 +214,19 @@ def use_start(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Start a use. Refused unless the module is FIT for this product."""
+    from ledger.entries.uses import use_start
     from ledger.logbook.uses import start_use
 
-    at = when(activity_time)
+    e = use_start(locals())
     use = write(
         db,
         user,
         password_stdin,
         lambda s, a: start_use(
-            s, a, serial, product, lot, override_reason=override_reason, activity_at=at, note=note
+            s, a, e.serial, e.product, e.lot, override_reason=e.override_reason,
+            activity_at=e.activity_at, note=e.note,
         ),
-    )
+    )  # fmt: skip
     line = f"use {use.id} started: {serial} for {use.product} lot {use.lot}"
     finish("use start", use, line, None, as_json)
 
@@ -404,10 +242,13 @@ def use_end(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """End the current use; the module then awaits cleaning."""
+    from ledger.entries.uses import use_end
     from ledger.logbook.uses import end_use
 
-    at = when(activity_time)
-    use = write(db, user, password_stdin, lambda s, a: end_use(s, a, serial, activity_at=at))
+    e = use_end(locals())
+    use = write(
+        db, user, password_stdin, lambda s, a: end_use(s, a, e.serial, activity_at=e.activity_at)
+    )
     finish("use end", use, f"use {use.id} ended: {serial} is awaiting cleaning", None, as_json)
 
 
@@ -422,10 +263,12 @@ def void(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Void a wrong record (engineer or QA). It is kept, marked void, and no longer counts."""
+    from ledger.entries.uses import void as void_entry
     from ledger.logbook.voiding import void_record
 
+    e = void_entry(locals())
     record = write(
-        db, user, password_stdin, lambda s, a: void_record(s, a, kind, record_id, reason)
+        db, user, password_stdin, lambda s, a: void_record(s, a, e.kind, e.record_id, e.reason)
     )
     finish("void", record, f"{kind} {record_id} is void: {reason}", None, as_json)
 
@@ -459,32 +302,10 @@ def procedure_add(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Define a cleaning procedure (engineer or QA). Its ranges are the site's validated ones."""
-    from ledger import units
-    from ledger.logbook.procedures import ProcedureSpec, add_procedure
+    from ledger.entries.care import procedure
+    from ledger.logbook.procedures import add_procedure
 
-    low, unit = _concentration(concentration_min, "--concentration-min")
-    high, unit_high = _concentration(concentration_max, "--concentration-max")
-    if unit != unit_high:
-        raise InputError(
-            "--concentration-min and --concentration-max are different kinds of concentration",
-            field="concentration_max",
-            value=concentration_max,
-            expected=f"the same kind as {concentration_min!r}",
-        )
-
-    def q(text: str | None, kind: str, flag: str) -> float | None:
-        return None if text is None else units.parse(text, kind, field=flag)
-
-    spec = ProcedureSpec(
-        code=code, title=title, agent=agent, concentration_min=low, concentration_max=high,
-        concentration_unit=unit,
-        temperature_min_k=units.parse(temperature_min, "temperature", field="--temperature-min"),
-        temperature_max_k=units.parse(temperature_max, "temperature", field="--temperature-max"),
-        contact_time_min_s=units.parse(contact_time_min, "time", field="--contact-time-min"),
-        rinse_ph_min=rinse_ph_min, rinse_ph_max=rinse_ph_max,
-        rinse_conductivity_max_s_m=q(rinse_conductivity_max, "conductivity",
-                                     "--rinse-conductivity-max"),
-    )  # fmt: skip
+    spec = procedure(locals())
     created = write(db, user, password_stdin, lambda s, a: add_procedure(s, a, spec))
     finish("care procedure add", created, f"added cleaning procedure {created.code}", None,
            as_json)  # fmt: skip

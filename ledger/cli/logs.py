@@ -48,49 +48,22 @@ def summarize(
     and excursions, per phase and for the run. Excursions do not change the exit code."""
     import json
 
-    from ledger import units
-    from ledger.cli.runs import windows
-    from ledger.errors import InputError
+    from ledger.entries.runs import log_summary
     from ledger.runs.actuals import Geometry, summary_json
-    from ledger.runs.actuals import summarize as compute
-    from ledger.runs.limits import load_limits
-    from ledger.runs.mapping import load_mapping
-    from ledger.runs.skidlog import read_log
+    from ledger.runs.summary import summarize_file
 
-    if fibers is not None and fibers < 1:
-        raise InputError(
-            f"--fibers {fibers}: must be at least 1",
-            field="fibers",
-            value=fibers,
-            expected="a whole number of 1 or more",
-        )
-    geometry = Geometry(
-        units.parse(area, "area", field="--area", positive=True) if area else None,
-        fibers,
-        units.parse(lumen_diameter, "length", field="--lumen-diameter", positive=True)
-        if lumen_diameter
-        else None,
+    e = log_summary(locals())
+    s, with_limits = summarize_file(
+        e.file,
+        e.mapping,
+        limits=e.limits,
+        geometry=Geometry(e.area_m2, e.fibers, e.lumen_diameter_m),
+        phases=e.phases,
     )
-    spans = windows(phase)
-    try:
-        ranges = load_limits(limits) if limits else []
-        log = read_log(file, load_mapping(mapping))
-    except InputError as err:
-        raise _in_file(err) from None
-    s = compute(log, geometry, ranges, spans or None)
     if as_json:
         typer.echo(json.dumps(summary_json(s), indent=2, ensure_ascii=False))
         return
-    _print(s, with_limits=bool(ranges))
-
-
-def _in_file(err: Any) -> Any:
-    """The error without its field: it names its file (and line) already, and a column or
-    key that happens to share an option's name ("phase") must not be shown as that option."""
-    from ledger.errors import InputError
-
-    return InputError(err.message, value=err.value, expected=err.expected, source=err.source,
-                      line=err.line)  # fmt: skip
+    _print(s, with_limits=with_limits)
 
 
 def _when(t: Any) -> str:

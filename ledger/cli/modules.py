@@ -76,41 +76,10 @@ def type_add(
 ) -> None:
     """Define a module type. The limits are your site's validated ones; defaults are common
     practice only."""
-    from ledger import units
-    from ledger.logbook.modules import TypeSpec, add_type
+    from ledger.entries.modules import module_type
+    from ledger.logbook.modules import add_type
 
-    def q(text: str, kind: str, flag: str) -> float:
-        return units.parse(text, kind, field=flag, bare_ratio=False)
-
-    spec = TypeSpec(
-        code=code.strip(),
-        membrane=membrane,
-        pore_rating=pore_rating,
-        lumen_diameter_m=q(lumen_diameter, "length", "--lumen-diameter"),
-        fiber_count=fibers,
-        effective_length_m=q(length, "length", "--length"),
-        area_m2=q(area, "area", "--area"),
-        decay_limit_pa_s=q(decay_limit, "pressure_rate", "--decay-limit"),
-        integrity_test_pressure_pa=q(test_pressure, "pressure", "--test-pressure"),
-        reuse_limit_cycles=reuse_limit,
-        storage_limit_s=q(storage_limit, "time", "--storage-limit"),
-        bubble_point_min_pa=q(bubble_point_min, "pressure", "--bubble-point-min")
-        if bubble_point_min
-        else None,
-        supplier=supplier,
-        reference_temperature_k=q(reference_temperature, "temperature", "--reference-temperature"),
-        recovery_min=q(recovery_min, "fraction", "--recovery-min"),
-        recovery_alert=q(recovery_alert, "fraction", "--recovery-alert"),
-        damage_ratio=q(damage_ratio, "fraction", "--damage-ratio"),
-        preuse_band=q(preuse_band, "fraction", "--preuse-band"),
-        max_volume_loading_m=q(max_loading, "areal_volume", "--max-loading")
-        if max_loading
-        else None,
-        max_mass_loading_kg_m2=q(max_mass_loading, "areal_mass", "--max-mass-loading")
-        if max_mass_loading
-        else None,
-        clean_hold_s=q(clean_hold, "time", "--clean-hold") if clean_hold else None,
-    )
+    spec = module_type(locals())
     created = write(db, user, password_stdin, lambda s, a: add_type(s, a, spec))
     finish("module-type add", created, f"added module type {created.code}", None, as_json)
 
@@ -207,36 +176,19 @@ def module_add(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Register a module. It starts in commissioning: baseline water flux and integrity next."""
-    from datetime import date
-
-    from ledger.errors import InputError
+    from ledger.entries.modules import module
     from ledger.logbook.modules import add_module
 
-    received_on = None
-    if received:
-        try:
-            received_on = date.fromisoformat(received)
-        except ValueError:
-            raise InputError(
-                f"{received!r} is not a date",
-                field="received",
-                value=received,
-                expected="a date such as 2026-11-03",
-            ) from None
+    e = module(locals())
     created = write(
         db,
         user,
         password_stdin,
         lambda s, a: add_module(
-            s,
-            a,
-            serial,
-            type_code,
-            manufacturer_lot=manufacturer_lot,
-            received_on=received_on,
-            note=note,
+            s, a, e.serial, e.type_code, manufacturer_lot=e.manufacturer_lot,
+            received_on=e.received_on, note=e.note,
         ),
-    )
+    )  # fmt: skip
     line = (
         f"registered module {created.serial} ({type_code}): commissioning — record a "
         "baseline water-flux test and an integrity test next"

@@ -53,6 +53,14 @@ def _number(x: float, digits: int = 4) -> str:
     return f"{x:.{digits - 1}e}"
 
 
+def printable(text: str) -> str:
+    """``text`` with every control, format or other invisible character shown as an escape,
+    so nothing stored (however it got there) can move the cursor or reorder what is shown."""
+    if text.isprintable():
+        return text
+    return "".join(c if c.isprintable() or c == "\n" else f"\\u{ord(c):04x}" for c in text)
+
+
 def human(value: Any) -> str:
     """Format one report value for the terminal."""
     if isinstance(value, Q):
@@ -69,7 +77,7 @@ def human(value: Any) -> str:
         return ", ".join(human(v) for v in value)
     if value is None:
         return "—"
-    return str(value)
+    return printable(str(value))
 
 
 def plain(value: Any) -> Any:
@@ -147,15 +155,16 @@ class Report:
             sys.stdout.write(json.dumps(self.to_json(), indent=2, ensure_ascii=False) + "\n")
             return
         from rich.console import Console
+        from rich.markup import escape
         from rich.table import Table as RichTable
 
         console = Console(highlight=False)
         for s in self.sections:
             table = RichTable(title=s.title, title_justify="left", show_header=False, box=None)
-            table.add_column(style="bold")
-            table.add_column()
-            for _, label, value in s.rows:
-                table.add_row(label, human(value))
+            table.add_column(style="bold", overflow="fold")
+            table.add_column(overflow="fold")
+            for key, label, value in s.rows:
+                table.add_row(escape(label), escape(_word(key, human(value))))
             console.print(table)
             console.print()
         for t in self.tables:
@@ -168,15 +177,25 @@ class Report:
                     table.add_column(label, no_wrap=True, min_width=16)
                     continue
                 texty = isinstance(first, str | list)
-                table.add_column(label, justify="left" if texty else "right")
+                # fold, never cut: a long limit wraps onto a second line instead of "0.05–0.…"
+                table.add_column(label, justify="left" if texty else "right", overflow="fold")
             for row in t.rows:
-                table.add_row(*(human(row[i]) for i in shown))
+                table.add_row(*(escape(_word(t.columns[i][0], human(row[i]))) for i in shown))
             console.print(table)
             console.print()
         if self.verdict is not None:
-            console.print(f"[bold]Verdict:[/bold] {self.verdict}")
+            console.print(f"[bold]Verdict:[/bold] {escape(self.verdict)}")
         for note in self.notes:
-            console.print(f"note: {note}")
+            console.print(f"note: {escape(printable(note))}")
+
+
+# Columns whose values are stable identifiers in JSON ("on_hold") and words on a terminal.
+WORD_KEYS = frozenset({"status", "status_before", "status_after", "stage", "new_status"})
+
+
+def _word(key: str, text: str) -> str:
+    """A status identifier as people read it: ``on_hold`` -> ``on hold``."""
+    return text.replace("_", " ") if key in WORD_KEYS else text
 
 
 def _key(title: str) -> str:

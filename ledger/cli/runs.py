@@ -10,9 +10,8 @@ import typer
 
 from ledger.cli.common import JSON_OPTION, guarded
 from ledger.cli.describe import SITE_NOTE
-from ledger.cli.session import ACTIVITY_TIME, DB_OPTION, PASSWORD_STDIN, USER_OPTION, read, when
+from ledger.cli.session import ACTIVITY_TIME, DB_OPTION, PASSWORD_STDIN, USER_OPTION, read
 from ledger.cli.session import write as write_as
-from ledger.errors import InputError
 
 app = typer.Typer(
     help="Runs: plan from a master-record template, start, import the skid log, QC, "
@@ -20,56 +19,6 @@ app = typer.Typer(
     no_args_is_help=True,
 )
 RUN = typer.Argument(..., help="The run's number (see `fluxledger run list`).")
-
-
-def _pairs(items: list[str], flag: str) -> dict[str, str]:
-    out: dict[str, str] = {}
-    for item in items:
-        name, sep, value = item.partition("=")
-        if not sep or not name.strip() or not value.strip():
-            raise InputError(
-                f"{flag} {item!r} is not NAME=VALUE",
-                field=flag.lstrip("-"),
-                value=item,
-                expected="NAME=VALUE, e.g. initial_volume='1.2 L'",
-            )
-        if name.strip() in out:
-            raise InputError(
-                f"{flag} {name.strip()} is given twice",
-                field=flag.lstrip("-"),
-                value=item,
-                expected="each name once",
-            )
-        out[name.strip()] = value.strip()
-    return out
-
-
-def windows(items: list[str]) -> list[Any]:
-    """``--phase NAME=START/END`` (ISO 8601 with offset) as phase windows."""
-    from ledger.logbook.times import parse_time
-    from ledger.runs.actuals import PhaseWindow
-
-    out = []
-    for name, span in _pairs(items, "--phase").items():
-        start, sep, end = span.partition("/")
-        if not sep:
-            raise InputError(
-                f"--phase {name}={span!r} is not START/END",
-                field="phase",
-                value=span,
-                expected="NAME=START/END in ISO 8601 with offset",
-            )
-        t0 = parse_time(start, field="phase")
-        t1 = parse_time(end, field="phase")
-        if t1 <= t0:
-            raise InputError(
-                f"--phase {name}: the end is not after the start",
-                field="phase",
-                value=span,
-                expected="END after START",
-            )
-        out.append(PhaseWindow(name, t0, t1))
-    return out
 
 
 def _value(v: Any) -> Any:
@@ -125,24 +74,17 @@ def plan(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Compute every planned parameter of a template for a module, and record the run."""
+    from ledger.entries.runs import run_plan
     from ledger.runs.service import plan_run
 
-    given = _pairs(inputs, "--input")
-    points = None
-    if scouting is not None:
-        from ledger.pointsfile import Column, read_points
-
-        pts = read_points(
-            scouting, [Column("concentration", "concentration"), Column("flux", "flux")], minimum=2
-        )
-        points = list(zip(pts.columns["concentration"], pts.columns["flux"], strict=True))
+    e = run_plan(locals())
     run = write_as(
         db,
         user,
         password_stdin,
         lambda s, a: plan_run(
-            s, a, template, module, product, lot, given, scouting=points,
-            override_reason=override_reason,
+            s, a, e.template, e.module, e.product, e.lot, e.inputs, scouting=e.scouting,
+            override_reason=e.override_reason,
         ),
     )  # fmt: skip
     if not as_json:
@@ -152,19 +94,17 @@ def plan(
 
 def _report(session: Any, run_id: int) -> Any:
     from ledger.cli.output import Q, Report, Table
-    from ledger.runs import service
-    from ledger.store.tables import Module
+    from ledger.runs.queries import run_view
 
-    run = service.get_run(session, run_id)
-    plan = service.run_plan(run)
-    module = session.get(Module, run.module_id)
+    view = run_view(session, run_id)
+    run, plan = view.run, view.plan
     report = Report("run show")
     head = report.section(f"Run {run.id}")
     head.add("run", run.id)
     head.add("status", run.status)
     head.add("product", run.product)
     head.add("lot", run.lot)
-    head.add("module", module.serial if module else None)
+    head.add("module", view.module_serial)
     head.add("template", f"{run.template_id} v{run.template_version}")
     head.add("template_sha256", run.template_sha256, "template SHA-256")
     head.add("planned_by", run.created_by, "planned by")
@@ -287,23 +227,15 @@ def checks(run: int = RUN, db: str | None = DB_OPTION, as_json: bool = JSON_OPTI
 @guarded
 def list_runs(db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> None:
     """List the runs, newest first."""
-    from sqlmodel import select
-
     from ledger.cli.output import Report, Table
-    from ledger.store.tables import Module, Run
+    from ledger.runs.queries import runs_newest_first
 
     def build(session: Any) -> Any:
         report = Report("run list")
         table = Table("Runs", [("run", "run"), ("status", "status"), ("product", "product"),
                                ("lot", "lot"), ("module", "module"), ("template", "template"),
                                ("planned_at", "planned")])  # fmt: skip
-        rows = session.exec(
-            select(Run, Module.serial)
-            .join(Module)
-            .where(Run.voided_at.is_(None))  # type: ignore[union-attr]
-            .order_by(Run.id.desc())  # type: ignore[union-attr]
-        ).all()
-        for r, serial in rows:
+        for r, serial in runs_newest_first(session):
             table.rows.append([r.id, r.status, r.product, r.lot, serial,
                                f"{r.template_id} v{r.template_version}", r.created_at])  # fmt: skip
         report.tables.append(table)
@@ -320,13 +252,17 @@ def start(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Start the run: the module goes in use (its pre-use tests must be recent and passed)."""
+    from ledger.entries.runs import activity
     from ledger.runs.service import start_run
 
-    at = when(activity_time)
-    r = write_as(db, user, password_stdin, lambda s, a: start_run(s, a, run, activity_at=at))
-    typer.echo(f"run {r.id} started; module in use")
+    number, at = activity(locals())
+    r = write_as(db, user, password_stdin, lambda s, a: start_run(s, a, number, activity_at=at))
+    finish_line(
+        "run start", f"run {r.id} started; module in use", as_json, run=r.id, status=r.status
+    )
 
 
 @app.command("import")
@@ -341,20 +277,27 @@ def import_log(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Attach the skid log to the run and compute its actuals and excursions."""
+    from ledger.entries.runs import run_import
     from ledger.runs.service import import_log as do_import
 
-    spans = windows(phase)
+    e = run_import(locals())
     record, new = write_as(
-        db, user, password_stdin, lambda s, a: do_import(s, a, run, file, mapping, spans)
+        db,
+        user,
+        password_stdin,
+        lambda s, a: do_import(s, a, e.run, Path(e.file), Path(e.mapping), e.phases),
     )
     if new:
-        typer.echo(f"run {run}: imported {record.file_name} ({record.rows} rows, "
-                   f"sha256 {record.sha256[:12]})")  # fmt: skip
+        line = (f"run {run}: imported {record.file_name} ({record.rows} rows, "
+                f"sha256 {record.sha256[:12]})")  # fmt: skip
     else:
-        typer.echo(f"run {run}: {record.file_name} was already imported (sha256 "
-                   f"{record.sha256[:12]}); nothing written")  # fmt: skip
+        line = (f"run {run}: {record.file_name} was already imported (sha256 "
+                f"{record.sha256[:12]}); nothing written")  # fmt: skip
+    finish_line("run import", line, as_json, run=run, written=new, file_name=record.file_name,
+                rows=record.rows, sha256=record.sha256)  # fmt: skip
 
 
 @app.command("qc")
@@ -370,18 +313,21 @@ def qc(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Enter QC results against the template's specifications."""
+    from ledger.entries.runs import qc_results
     from ledger.runs.service import enter_qc
 
-    given = _pairs(results, "--result")
+    given = qc_results(locals())
     rows = write_as(
         db,
         user,
         password_stdin,
         lambda s, a: enter_qc(s, a, run, given, correction_reason=correction_reason),
     )
-    typer.echo(f"run {run}: recorded {len(rows)} QC result(s)")
+    finish_line("run qc", f"run {run}: recorded {len(rows)} QC result(s)", as_json, run=run,
+                records=rows)  # fmt: skip
 
 
 @app.command("deviation")
@@ -394,6 +340,7 @@ def deviation(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Record a deviation against the run."""
     from ledger.runs.service import add_deviation
@@ -404,7 +351,8 @@ def deviation(
         password_stdin,
         lambda s, a: add_deviation(s, a, run, description, check=check, impact=impact),
     )
-    typer.echo(f"run {run}: deviation {d.number} recorded")
+    finish_line("run deviation", f"run {run}: deviation {d.number} recorded", as_json, run=run,
+                records=[d])  # fmt: skip
 
 
 @app.command("close-deviation")
@@ -416,12 +364,14 @@ def close_deviation(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Close a deviation (engineer or QA)."""
     from ledger.runs.service import close_deviation as close
 
-    write_as(db, user, password_stdin, lambda s, a: close(s, a, run, number, closure))
-    typer.echo(f"run {run}: deviation {number} closed")
+    d = write_as(db, user, password_stdin, lambda s, a: close(s, a, run, number, closure))
+    finish_line("run close-deviation", f"run {run}: deviation {number} closed", as_json,
+                run=run, records=[d])  # fmt: skip
 
 
 @app.command("finish")
@@ -432,13 +382,16 @@ def finish(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Finish the run: the module awaits cleaning and its cycle count grows."""
+    from ledger.entries.runs import activity
     from ledger.runs.service import finish_run
 
-    at = when(activity_time)
-    write_as(db, user, password_stdin, lambda s, a: finish_run(s, a, run, activity_at=at))
-    typer.echo(f"run {run} finished; module awaits cleaning")
+    number, at = activity(locals())
+    r = write_as(db, user, password_stdin, lambda s, a: finish_run(s, a, number, activity_at=at))
+    finish_line("run finish", f"run {run} finished; module awaits cleaning", as_json, run=r.id,
+                status=r.status)  # fmt: skip
 
 
 @app.command("submit")
@@ -448,9 +401,27 @@ def submit(
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
 ) -> None:
     """Send the run to review: refused while a FAIL check has no recorded deviation."""
     from ledger.runs.service import submit_run
 
-    write_as(db, user, password_stdin, lambda s, a: submit_run(s, a, run))
-    typer.echo(f"run {run} submitted for review")
+    r = write_as(db, user, password_stdin, lambda s, a: submit_run(s, a, run))
+    finish_line("run submit", f"run {run} submitted for review", as_json, run=r.id,
+                status=r.status)  # fmt: skip
+
+
+def finish_line(command: str, line: str, as_json: bool, **body: Any) -> None:
+    """One line of what was written, or one JSON object (records with every column)."""
+    if not as_json:
+        typer.echo(line)
+        return
+    import json
+
+    from ledger.cli.describe import record_json
+    from ledger.cli.output import plain
+
+    if "records" in body:
+        body["records"] = [plain(record_json(r)) for r in body["records"]]
+    out = {"command": command, "message": line, **body}
+    typer.echo(json.dumps(out, indent=2, ensure_ascii=False))

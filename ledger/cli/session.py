@@ -5,17 +5,11 @@ from __future__ import annotations
 import sys
 from collections.abc import Callable
 from contextvars import ContextVar
-from typing import TYPE_CHECKING, Any, TypeVar
+from typing import Any, TypeVar
 
 import typer
 
 from ledger.errors import InputError
-
-if TYPE_CHECKING:
-    from sqlalchemy import Engine
-    from sqlmodel import Session
-
-    from ledger.store.tables import UserAccount
 
 T = TypeVar("T")
 
@@ -40,15 +34,11 @@ ACTIVITY_TIME = typer.Option(
 )
 
 
-def open_ledger(db: str | None, *, create: bool = False) -> Engine:
+def open_ledger(db: str | None, *, create: bool = False) -> Any:
     """The engine of an existing database at the current schema revision."""
-    from ledger.store.engine import connect, resolve_url
-    from ledger.store.schema import require_current
+    from ledger.logbook.workspace import open_ledger as open_db
 
-    engine = connect(resolve_url(db), create=create)
-    if not create:
-        require_current(engine)
-    return engine
+    return open_db(db, create=create)
 
 
 # Lines of stdin read for --password-stdin, per command invocation (reset by the root callback).
@@ -78,37 +68,27 @@ def reset_stdin() -> None:
     _stdin_lines.set(None)
 
 
-def acting_user(engine: Engine, login: str, password_stdin: bool) -> UserAccount:
-    from ledger.logbook.auth import authenticate
-
-    return authenticate(engine, login, read_secret("Password", from_stdin=password_stdin))
-
-
 def write(
     db: str | None,
     login: str,
     password_stdin: bool,
-    work: Callable[[Session, UserAccount], T],
+    work: Callable[[Any, Any], T],
 ) -> T:
-    """Authenticate, then run ``work`` as one transaction (all or nothing)."""
-    from ledger.store.engine import transaction
+    """Authenticate (password prompted, or read with --password-stdin), then run ``work`` as
+    one transaction (all or nothing)."""
+    from ledger.logbook.workspace import write as run
 
-    engine = open_ledger(db)
-    actor = acting_user(engine, login, password_stdin)
-    with transaction(engine) as session:
-        return work(session, actor)
+    return run(db, login, lambda: read_secret("Password", from_stdin=password_stdin), work)
 
 
-def read(db: str | None, work: Callable[[Session], T]) -> T:
-    from ledger.store.engine import transaction
+def acting_user(engine: Any, login: str, password_stdin: bool) -> Any:
+    """The authenticated user (password prompted, or read with --password-stdin)."""
+    from ledger.logbook.workspace import sign_in
 
-    with transaction(open_ledger(db)) as session:
-        return work(session)
+    return sign_in(engine, login, read_secret("Password", from_stdin=password_stdin))
 
 
-def when(text: str | None, field: str = "activity_time") -> Any:
-    if text is None:
-        return None
-    from ledger.logbook.times import parse_time
+def read(db: str | None, work: Callable[[Any], T]) -> T:
+    from ledger.logbook.workspace import read as run
 
-    return parse_time(text, field=field)
+    return run(db, work)

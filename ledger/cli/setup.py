@@ -26,7 +26,7 @@ def init(
     from ledger.cli.output import Report
     from ledger.cli.session import open_ledger
     from ledger.logbook.setup import has_users, initialize
-    from ledger.store.schema import stored_revision
+    from ledger.logbook.workspace import database_label, stored_revision
 
     engine = open_ledger(db, create=True)
     new = stored_revision(engine) is None or not has_users(engine)
@@ -36,7 +36,7 @@ def init(
     result = initialize(engine, admin, name, password)
     report = Report("init")
     s = report.section("Database")
-    s.add("database", engine.url.render_as_string(hide_password=True))
+    s.add("database", database_label(engine))
     s.add("revision_before", result.before or "(none: new database)", "revision before")
     s.add("revision", result.after)
     if result.admin:

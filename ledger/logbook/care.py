@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from datetime import datetime
 
 from sqlmodel import Session
@@ -10,7 +10,7 @@ from sqlmodel import Session
 from ledger.errors import InputError
 from ledger.logbook.context import apply, begin
 from ledger.logbook.procedures import as_rule, get_procedure
-from ledger.logbook.required import positive, required
+from ledger.logbook.required import optional, positive, required
 from ledger.rules.cleaning import Done, deviations
 from ledger.rules.sequence import after_cleaning
 from ledger.science.water import T_MAX, T_MIN
@@ -33,9 +33,14 @@ class CleaningInput:
     rinse_conductivity_s_m: float | None = None
 
 
-def _check(c: CleaningInput) -> None:
-    required("agent", c.agent, "the agent's name, e.g. sodium hydroxide")
-    required("reagent_lot", c.reagent_lot, "the lot number of the cleaning solution")
+def _check(c: CleaningInput) -> CleaningInput:
+    """``c`` with its texts cleaned by their rules; InputError on any value out of range."""
+    c = replace(
+        c,
+        agent=required("agent", c.agent, "the agent's name, e.g. sodium hydroxide"),
+        reagent_lot=required("reagent_lot", c.reagent_lot,
+                             "the lot number of the cleaning solution", kind="identifier"),
+    )  # fmt: skip
     if c.concentration_unit not in CONCENTRATION_UNITS:
         raise ValueError(f"unknown concentration unit {c.concentration_unit!r}")  # a bug
     positive("concentration", c.concentration, "e.g. 0.5 mol/L, 10 g/L or 0.1 %")
@@ -61,6 +66,7 @@ def _check(c: CleaningInput) -> None:
             value=c.rinse_conductivity_s_m,
             expected="zero or more, e.g. 1.5 uS/cm",
         )
+    return c
 
 
 def record_cleaning(
@@ -76,7 +82,8 @@ def record_cleaning(
     """Record a cleaning; with ``procedure`` (a code), check it against that procedure's ranges:
     a cleaning outside them holds the module until a signed disposition."""
     work = begin(session, actor, serial, "cleaning", activity_at)
-    _check(c)
+    c = _check(c)
+    note = optional("note", note, "a note on the cleaning")
     found: list[str] | None = None
     proc_id = None
     if procedure is not None:
@@ -111,12 +118,13 @@ def record_storage(
 ) -> Storage:
     work = begin(session, actor, serial, "storage", activity_at)
     solution = required("solution", solution, "e.g. 20 % ethanol, or 0.1 M sodium hydroxide")
+    note = optional("note", note, "a note on the storage")
     return work.journal.create(
         Storage(
             module_id=work.module_id,
             activity_at=work.at,
             late=work.late,
             note=note,
-            solution=solution.strip(),
+            solution=solution,
         )
     )

@@ -85,3 +85,10 @@ def audit_events(
     statement = statement.order_by(AuditEvent.seq)  # type: ignore[arg-type]
     events = list(session.exec(statement))
     return events[-limit:] if limit else events
+
+
+def verify_audit(session: Session) -> Any:
+    """Recompute every record hash and the audit chain (see ledger.store.audit.verify)."""
+    from ledger.store.audit import verify
+
+    return verify(session)

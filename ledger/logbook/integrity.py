@@ -12,8 +12,9 @@ from ledger import __version__
 from ledger.errors import InputError, RefusedError
 from ledger.logbook import latest
 from ledger.logbook.context import Work, apply, begin, phase_start
-from ledger.logbook.required import positive
+from ledger.logbook.required import optional, positive
 from ledger.rules.sequence import after_integrity_test
+from ledger.rules.water_test import recovery_meets_minimum
 from ledger.science import integrity as sci
 from ledger.science import water
 from ledger.store.tables import IntegrityTest, UserAccount
@@ -97,7 +98,7 @@ def record_decay_test(
         module_id=work.module_id,
         activity_at=work.at,
         late=work.late,
-        note=note,
+        note=optional("note", note, "a remark"),
         kind="pressure_decay",
         test_pressure_pa=test_pressure,
         hold_time_s=hold,
@@ -144,7 +145,7 @@ def record_bubble_point(
         module_id=work.module_id,
         activity_at=work.at,
         late=work.late,
-        note=note,
+        note=optional("note", note, "a remark"),
         kind="bubble_point",
         bubble_point_pa=bubble_point_pa,
         temperature_k=temperature_k,
@@ -166,7 +167,7 @@ def _advance(work: Work, test: IntegrityTest) -> str | None:
         post_ok = (
             post is not None
             and post.recovery is not None
-            and post.recovery >= work.mtype.recovery_min
+            and recovery_meets_minimum(post.recovery, work.mtype.recovery_min)
         )
     step = after_integrity_test(
         status, test.passed, has_baseline=baseline is not None, post_clean_passed=post_ok

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from datetime import date
 from typing import Any
 
@@ -10,8 +10,10 @@ from sqlmodel import Session, select
 
 from ledger.errors import InputError, RefusedError
 from ledger.logbook.auth import DECIDERS, RECORDERS, require_role
-from ledger.logbook.required import positive, required
+from ledger.logbook.required import existing, optional, positive, required, unique
+from ledger.rules.names import shown
 from ledger.rules.sequence import refusal
+from ledger.science.water import T_MAX, T_MIN
 from ledger.store.audit import Journal
 from ledger.store.tables import Hold, Module, ModuleType, UserAccount
 
@@ -43,7 +45,8 @@ class TypeSpec:
     clean_hold_s: float | None = None  # pre-use tests older than this must be repeated
 
 
-def check_type(spec: TypeSpec) -> None:
+def check_type(spec: TypeSpec) -> TypeSpec:
+    """``spec`` with its texts cleaned by their rules; InputError on any value out of range."""
     for field in (
         "lumen_diameter_m",
         "effective_length_m",
@@ -103,21 +106,39 @@ def check_type(spec: TypeSpec) -> None:
             value=spec.preuse_band,
             expected="a fraction, e.g. 10 %",
         )
-    required("code", spec.code, "a short code, e.g. HF-750-120")
+    t_ref = spec.reference_temperature_k
+    if not T_MIN <= t_ref <= T_MAX:  # also refuses NaN
+        raise InputError(
+            f"the NWP reference temperature {t_ref - 273.15:.2f} °C is outside the range of the "
+            "water-viscosity correlation that normalizes every water-flux test",
+            field="reference_temperature",
+            value=t_ref,
+            expected="0 to 100 °C (liquid water at 1 atm), usually 20 or 25 degC",
+        )
+    return replace(
+        spec,
+        code=required("code", spec.code, "a short code, e.g. HF-750-120", kind="identifier"),
+        membrane=required("membrane", spec.membrane, "the membrane material, e.g. mPES"),
+        pore_rating=required("pore_rating", spec.pore_rating, "the rating, e.g. 750 kDa"),
+        supplier=optional("supplier", spec.supplier, "the supplier's name", kind="name"),
+    )
 
 
 def add_type(session: Session, actor: UserAccount, spec: TypeSpec) -> ModuleType:
     require_role(actor, DECIDERS, "define module types and their acceptance limits")
-    check_type(spec)
-    if session.exec(select(ModuleType).where(ModuleType.code == spec.code)).first():
-        raise InputError(
-            f"module type {spec.code!r} exists",
-            field="code",
-            value=spec.code,
-            expected="a new type code",
-        )
+    spec = check_type(spec)
+    found = existing(session, ModuleType.code, spec.code)
+    taken = InputError(
+        f"module type {shown(found or spec.code)} exists",
+        field="code",
+        value=spec.code,
+        expected="a new type code (codes differing only in case are the same)",
+    )
+    if found is not None:
+        raise taken
     values: dict[str, Any] = dict(spec.__dict__)
-    return Journal(session, actor.login).create(ModuleType(**values))
+    with unique("module_type", "code", taken):
+        return Journal(session, actor.login).create(ModuleType(**values))
 
 
 def get_type(session: Session, code: str) -> ModuleType:
@@ -125,9 +146,9 @@ def get_type(session: Session, code: str) -> ModuleType:
     if found is None:
         known = ", ".join(t.code for t in session.exec(select(ModuleType))) or "none yet"
         raise InputError(
-            f"no module type {code!r}",
+            f"no module type {shown(code)}",
             field="type",
-            value=code,
+            value=shown(code),
             expected=f"a registered type ({known})",
         )
     return found
@@ -145,9 +166,9 @@ def get_module(session: Session, serial: str, *, lock: bool = False) -> Module:
     found = session.exec(statement).first()
     if found is None:
         raise InputError(
-            f"no module with serial {serial!r}",
+            f"no module with serial {shown(serial)}",
             field="serial",
-            value=serial,
+            value=shown(serial),
             expected="the serial of a registered module (fluxledger module list)",
         )
     return found
@@ -164,24 +185,31 @@ def add_module(
     note: str | None = None,
 ) -> Module:
     require_role(actor, RECORDERS, "register modules")
-    serial = required("serial", serial, "the module's serial number")
+    serial = required("serial", serial, "the module's serial number", kind="identifier")
+    lot = optional(
+        "manufacturer_lot", manufacturer_lot, "the manufacturer's lot", kind="identifier"
+    )
+    note = optional("note", note, "a note on the module")
     mtype = get_type(session, type_code)
-    if session.exec(select(Module).where(Module.serial == serial)).first() is not None:
-        raise InputError(
-            f"module {serial!r} is already registered",
-            field="serial",
-            value=serial,
-            expected="a serial not yet in the logbook",
-        )
+    found = existing(session, Module.serial, serial)
+    taken = InputError(
+        f"module {shown(found or serial)} is already registered",
+        field="serial",
+        value=serial,
+        expected="a serial not yet in the logbook (serials differing only in case are the same)",
+    )
+    if found is not None:
+        raise taken
     module = Module(
         serial=serial,
         type_id=row_id(mtype.id),
-        manufacturer_lot=manufacturer_lot,
+        manufacturer_lot=lot,
         received_on=received_on,
         note=note,
         status="commissioning",
     )
-    return Journal(session, actor.login).create(module)
+    with unique("module", "serial", taken):
+        return Journal(session, actor.login).create(module)
 
 
 def list_modules(session: Session, status: str | None = None) -> list[tuple[Module, ModuleType]]:
@@ -230,7 +258,7 @@ def hold(session: Session, actor: UserAccount, serial: str, reason: str) -> Hold
     require_role(actor, RECORDERS, "put modules on hold")
     module = get_module(session, serial, lock=True)
     _allowed(module, "hold")
-    _need_reason(reason)
+    reason = _need_reason(reason)
     return put_on_hold(Journal(session, actor.login), module, "manual", reason)
 
 
@@ -242,12 +270,12 @@ def release(session: Session, actor: UserAccount, serial: str, decision: str, re
     require_role(actor, DECIDERS, "sign a disposition")
     module = get_module(session, serial, lock=True)
     _allowed(module, "release")
-    _need_reason(reason)
+    reason = _need_reason(reason)
     if decision not in DECISIONS:
         raise InputError(
-            f"decision {decision!r} is unknown",
+            f"decision {shown(decision)} is unknown",
             field="decision",
-            value=decision,
+            value=shown(decision),
             expected="one of " + ", ".join(DECISIONS),
         )
     current = open_hold(session, module)
@@ -296,15 +324,15 @@ def retire(session: Session, actor: UserAccount, serial: str, reason: str) -> Mo
     require_role(actor, DECIDERS, "retire modules")
     module = get_module(session, serial, lock=True)
     _allowed(module, "retire")
-    _need_reason(reason)
+    reason = _need_reason(reason)
     Journal(session, actor.login).change(
         module, {"status": "retired"}, reason=reason, module_id=module.id
     )
     return module
 
 
-def _need_reason(reason: str) -> None:
-    required("reason", reason, "a short reason for the record")
+def _need_reason(reason: str) -> str:
+    return required("reason", reason, "a short reason for the record", kind="text")
 
 
 def _allowed(module: Module, action: str) -> None:

@@ -2,14 +2,15 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from sqlmodel import Session, select
 
 from ledger.errors import InputError
 from ledger.logbook.auth import DECIDERS, require_role
-from ledger.logbook.required import positive, required
+from ledger.logbook.required import existing, positive, required, unique
 from ledger.rules.cleaning import Procedure
+from ledger.rules.names import shown
 from ledger.science.water import T_MAX, T_MIN
 from ledger.store.audit import Journal
 from ledger.store.tables import CleaningProcedure, UserAccount
@@ -39,10 +40,14 @@ def _ordered(field: str, low: float, high: float, what: str) -> None:
                          field=f"{field}_min", value=low, expected=what)  # fmt: skip
 
 
-def check_procedure(p: ProcedureSpec) -> None:
-    required("code", p.code, "a short code, e.g. CP-NAOH-05")
-    required("title", p.title, "what the procedure is called in the site's SOP")
-    required("agent", p.agent, "the agent's name, e.g. sodium hydroxide")
+def check_procedure(p: ProcedureSpec) -> ProcedureSpec:
+    """``p`` with its texts cleaned by their rules; InputError on any value out of range."""
+    p = replace(
+        p,
+        code=required("code", p.code, "a short code, e.g. CP-NAOH-05", kind="identifier"),
+        title=required("title", p.title, "what the procedure is called in the site's SOP"),
+        agent=required("agent", p.agent, "the agent's name, e.g. sodium hydroxide"),
+    )
     positive("concentration_min", p.concentration_min, "a concentration above zero",
              label="minimum concentration")  # fmt: skip
     _ordered("concentration", p.concentration_min, p.concentration_max, "minimum ≤ maximum")
@@ -75,21 +80,23 @@ def check_procedure(p: ProcedureSpec) -> None:
             "a conductivity above zero, e.g. 2 uS/cm",
             label="rinse conductivity limit",
         )
+    return p
 
 
 def add_procedure(session: Session, actor: UserAccount, spec: ProcedureSpec) -> CleaningProcedure:
     require_role(actor, DECIDERS, "define cleaning procedures")
-    check_procedure(spec)
-    code = spec.code.strip()
-    if session.exec(select(CleaningProcedure).where(CleaningProcedure.code == code)).first():
-        raise InputError(
-            f"cleaning procedure {code!r} exists",
-            field="code",
-            value=code,
-            expected="a new procedure code",
-        )
-    values = {**spec.__dict__, "code": code}
-    return Journal(session, actor.login).create(CleaningProcedure(**values))
+    spec = check_procedure(spec)
+    found = existing(session, CleaningProcedure.code, spec.code)
+    taken = InputError(
+        f"cleaning procedure {shown(found or spec.code)} exists",
+        field="code",
+        value=spec.code,
+        expected="a new procedure code (codes differing only in case are the same)",
+    )
+    if found is not None:
+        raise taken
+    with unique("cleaning_procedure", "code", taken):
+        return Journal(session, actor.login).create(CleaningProcedure(**spec.__dict__))
 
 
 def get_procedure(session: Session, code: str) -> CleaningProcedure:
@@ -97,9 +104,9 @@ def get_procedure(session: Session, code: str) -> CleaningProcedure:
     if found is None:
         known = ", ".join(p.code for p in list_procedures(session)) or "none yet"
         raise InputError(
-            f"no cleaning procedure {code!r}",
+            f"no cleaning procedure {shown(code)}",
             field="procedure",
-            value=code,
+            value=shown(code),
             expected=f"a registered procedure ({known})",
         )
     return found

@@ -14,7 +14,8 @@ from ledger.logbook.auth import (
     hash_password,
     require_role,
 )
-from ledger.logbook.required import required
+from ledger.logbook.required import existing, required, unique
+from ledger.rules.names import shown
 from ledger.store.audit import Journal
 from ledger.store.tables import ROLES, Setting, UserAccount
 
@@ -22,11 +23,13 @@ _LOGIN = re.compile(r"^[a-z][a-z0-9._-]{1,63}$")
 
 
 def check_login(login: str) -> str:
-    if not _LOGIN.match(login):
+    """``login`` if it is a valid user ID (an identifier of the strict form below)."""
+    login = required("login", login, "a user ID, e.g. op.kim", kind="identifier")
+    if not _LOGIN.fullmatch(login):
         raise InputError(
-            f"user ID {login!r} is not allowed",
+            f"user ID {shown(login)} is not allowed",
             field="login",
-            value=login,
+            value=shown(login),
             expected="2-64 characters: lower-case letters, digits, '.', '_' or '-', "
             "starting with a letter",
         )
@@ -36,9 +39,9 @@ def check_login(login: str) -> str:
 def check_role(role: str) -> str:
     if role not in ROLES:
         raise InputError(
-            f"role {role!r} is unknown",
+            f"role {shown(role)} is unknown",
             field="role",
-            value=role,
+            value=shown(role),
             expected="one of " + ", ".join(ROLES),
         )
     return role
@@ -46,10 +49,11 @@ def check_role(role: str) -> str:
 
 def create_first_admin(session: Session, login: str, full_name: str, password: str) -> UserAccount:
     """The administrator that init creates when the database has no user yet."""
-    check_login(login)
+    login = check_login(login)
+    name = full_name.strip() or login
     user = UserAccount(
         login=login,
-        full_name=full_name.strip() or login,
+        full_name=required("name", name, "the person's printed name"),
         role="admin",
         password_hash=hash_password(password),
     )
@@ -60,28 +64,33 @@ def add_user(
     session: Session, actor: UserAccount, login: str, full_name: str, role: str, password: str
 ) -> UserAccount:
     require_role(actor, ADMINS, "add users")
-    check_login(login)
+    login = check_login(login)
     check_role(role)
-    required("name", full_name, "the person's printed name")
-    if find_user(session, login) is not None:
-        raise InputError(
-            f"user ID {login!r} exists (or existed): IDs are never reused",
-            field="login",
-            value=login,
-            expected="a new user ID",
-        )
-    user = UserAccount(
-        login=login, full_name=full_name.strip(), role=role, password_hash=hash_password(password)
+    full_name = required("name", full_name, "the person's printed name")
+    taken = InputError(
+        f"user ID {shown(login)} exists (or existed): IDs are never reused",
+        field="login",
+        value=login,
+        expected="a new user ID",
     )
-    return Journal(session, actor.login).create(user)
+    if existing(session, UserAccount.login, login) is not None:
+        raise taken
+    user = UserAccount(
+        login=login, full_name=full_name, role=role, password_hash=hash_password(password)
+    )
+    # Two administrators adding the same ID at once: the second insert breaks the unique
+    # constraint (PostgreSQL) and gets the same answer as a lookup would have given.
+    with unique("user_account", "login", taken):
+        return Journal(session, actor.login).create(user)
 
 
 def _target(session: Session, login: str) -> UserAccount:
     user = find_user(session, login)
     if user is None:
         raise InputError(
-            f"no user {login!r}", field="login", value=login, expected="a registered user ID"
-        )
+            f"no user {shown(login)}", field="login", value=shown(login),
+            expected="a registered user ID",
+        )  # fmt: skip
     return user
 
 
@@ -107,7 +116,8 @@ def disable_user(session: Session, actor: UserAccount, login: str, reason: str) 
             "an administrator cannot disable their own account", field="login", value=login
         )
     if not user.active:
-        raise RefusedError(f"user {login!r} is already disabled", field="login", value=login)
+        raise RefusedError(f"user {shown(login)} is already disabled", field="login", value=login)
+    reason = required("reason", reason, "why the account is disabled", kind="text")
     Journal(session, actor.login).change(user, {"active": False}, reason=reason)
     return user
 
@@ -126,6 +136,7 @@ def set_lockout(session: Session, actor: UserAccount, failures: int, reason: str
             value=failures,
             expected="a whole number from 1 to 100",
         )
+    reason = required("reason", reason, "why the policy changes", kind="text")
     journal = Journal(session, actor.login)
     row = session.get(Setting, LOCKOUT_KEY)
     if row is None:

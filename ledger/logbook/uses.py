@@ -11,7 +11,7 @@ from ledger.logbook import latest
 from ledger.logbook.auth import DECIDERS, require_role
 from ledger.logbook.context import begin, set_status
 from ledger.logbook.fitness import facts
-from ledger.logbook.required import required
+from ledger.logbook.required import optional, required
 from ledger.rules.fitness import verdict
 from ledger.store.tables import ModuleUse, UserAccount
 
@@ -30,8 +30,12 @@ def start_use(
     """Start a cycle. Refused unless the verdict is FIT; a product other than the dedicated
     one needs an engineer's or QA's override with a reason."""
     work = begin(session, actor, serial, "use:start", activity_at)
-    product = required("product", product, "the product processed in this use")
-    lot = required("lot", lot, "the batch or lot processed in this use")
+    product = required("product", product, "the product processed in this use", kind="identifier")
+    lot = required("lot", lot, "the batch or lot processed in this use", kind="identifier")
+    override_reason = optional(
+        "override_reason", override_reason, "why the dedication is set aside"
+    )
+    note = optional("note", note, "a note on the use")
     judged = verdict(facts(session, work.module, product, now=work.at))
     failing = [r for r in judged.reasons if r.outcome == "fail"]
     if [r.check for r in failing] == ["product"] and override_reason:
@@ -52,14 +56,14 @@ def start_use(
             activity_at=work.at,
             late=work.late,
             note=note,
-            product=product.strip(),
-            lot=lot.strip(),
+            product=product,
+            lot=lot,
             override_reason=override_reason,
         )
     )
     changes: dict[str, object] = {"status": "in_use"}
     if work.module.dedicated_product is None:
-        changes["dedicated_product"] = product.strip()
+        changes["dedicated_product"] = product
         changes["first_use_at"] = work.at
     work.journal.change(
         work.module, changes, reason=f"use for {product} lot {lot}", module_id=work.module_id

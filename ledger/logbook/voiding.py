@@ -10,6 +10,7 @@ from ledger.errors import InputError, RefusedError
 from ledger.logbook.auth import DECIDERS, require_role
 from ledger.logbook.modules import get_module
 from ledger.logbook.required import required
+from ledger.rules.names import shown
 from ledger.rules.sequence import refusal
 from ledger.store.audit import Journal
 from ledger.store.tables import (
@@ -39,9 +40,9 @@ def void_record(
     cls = VOIDABLE.get(kind)
     if cls is None:
         raise InputError(
-            f"record kind {kind!r} is unknown",
+            f"record kind {shown(kind)} is unknown",
             field="kind",
-            value=kind,
+            value=shown(kind),
             expected="one of " + ", ".join(VOIDABLE),
         )
     record = session.get(cls, record_id)
@@ -58,12 +59,12 @@ def void_record(
             field="id",
             value=record_id,
         )
-    required("reason", reason, "why the record is wrong")
+    reason = required("reason", reason, "why the record is wrong", kind="text")
     module = session.get(Module, record.module_id)  # type: ignore[attr-defined]
     assert module is not None
     get_module(session, module.serial, lock=True)
     message = refusal("void", module.status, module.serial)
     if message:
         raise RefusedError(message, field="id", value=record_id)
-    Journal(session, actor.login).void(record, reason.strip())
+    Journal(session, actor.login).void(record, reason)
     return record

@@ -9,7 +9,8 @@ from ledger import __version__
 from ledger.errors import InputError, RefusedError
 from ledger.logbook import latest
 from ledger.logbook.context import Work, apply, begin, integrity_passed_since
-from ledger.logbook.required import positive
+from ledger.logbook.required import optional, positive
+from ledger.rules import water_test
 from ledger.rules.sequence import after_water_test
 from ledger.science import permeability as perm
 from ledger.science import water
@@ -31,7 +32,7 @@ class WaterPoint:
     time_s: float | None = None
 
     def check_tmp(self, index: int) -> float:
-        tmp = (self.feed_pa + self.retentate_pa) / 2 - self.permeate_pa
+        tmp = perm.transmembrane_pressure(self.feed_pa, self.retentate_pa, self.permeate_pa)
         if not tmp > 0:
             raise InputError(
                 f"TMP = (feed + retentate)/2 − permeate = {tmp / 1e5:.4g} bar is not positive",
@@ -155,9 +156,9 @@ def record_water_test(
         module_id=work.module_id,
         activity_at=work.at,
         late=work.late,
-        note=note,
+        note=optional("note", note, "a remark"),
         stage=stage,
-        water_grade=water_grade,
+        water_grade=optional("water_grade", water_grade, "e.g. WFI or PW", kind="name"),
         temperature_k=temperature_k,
         reference_temperature_k=t_ref,
         points=[
@@ -182,17 +183,18 @@ def record_water_test(
 
 def _verdict(work: Work, stage: str, nwp: float, recovery: float) -> str | None:
     lim = work.mtype
-    if stage == "post_clean":
-        if recovery < lim.recovery_min:
-            return "fail"
-        return "alert" if recovery < lim.recovery_alert else "pass"
+    ratio = None
     if stage == "pre_use":
         post = latest.water(work.session, work.module_id, "post_clean")
-        ref = post.nwp_m_s_pa if post is not None else None
-        if ref is None:
-            return None
-        return "pass" if abs(nwp / ref - 1.0) <= lim.preuse_band else "fail"
-    return None
+        ratio = nwp / post.nwp_m_s_pa if post is not None else None
+    return water_test.verdict(
+        stage,
+        recovery=recovery,
+        preuse_ratio=ratio,
+        recovery_min=lim.recovery_min,
+        recovery_alert=lim.recovery_alert,
+        preuse_band=lim.preuse_band,
+    )
 
 
 def _advance(work: Work, test: WaterFluxTest) -> str | None:

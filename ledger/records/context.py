@@ -11,9 +11,10 @@ which are added later and each carry the hash of the revision they sign.
 from __future__ import annotations
 
 import hashlib
-import json
 from dataclasses import asdict, dataclass, field, fields, is_dataclass
 from typing import Any, TypeVar, get_args, get_origin, get_type_hints
+
+from ledger.canonical import canonical
 
 CONTEXT_VERSION = 1
 
@@ -272,13 +273,9 @@ class Context:
         return replace(self, signatures=rows)
 
 
-def canonical(obj: Any) -> bytes:
-    """The one byte form that revision hashes are taken of (sorted keys, no spaces)."""
-    return json.dumps(obj, sort_keys=True, separators=(",", ":"), ensure_ascii=False).encode()
-
-
 def content_sha256(content: dict[str, Any]) -> str:
-    return hashlib.sha256(canonical(content)).hexdigest()
+    """SHA-256 of the UTF-8 bytes of the content's canonical JSON (hex)."""
+    return hashlib.sha256(canonical(content).encode()).hexdigest()
 
 
 def to_record(obj: Any) -> Any:

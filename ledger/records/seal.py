@@ -20,6 +20,7 @@ from pathlib import Path
 from typing import Any
 
 from ledger.errors import InputError
+from ledger.secrets import mask_secrets
 
 SEAL_FIELD = "FluxledgerSeal"
 PADES_SUBFILTER = "/ETSI.CAdES.detached"
@@ -255,10 +256,12 @@ def seal(
         cause = _tsa_failure(exc)
         if cause is None:
             raise
+        shown = mask_secrets(tsa_url or "")
         raise InputError(
-            f"--tsa {tsa_url}: no time stamp from this time-stamp authority ({_why(cause)})",
+            f"--tsa {shown}: no time stamp from this time-stamp authority "
+            f"({mask_secrets(_why(cause))})",
             field="--tsa",
-            value=tsa_url,
+            value=shown,
             expected="the URL of a reachable RFC 3161 time-stamp authority",
         ) from None
     return bytes(out.getvalue())

@@ -18,7 +18,7 @@ from ledger.logbook.auth import DECIDERS, require_role
 from ledger.records import context as c
 from ledger.records.assemble import assemble, record_id, signature_rows
 from ledger.rules import runs as run_rules
-from ledger.rules.signing import MEANINGS, Blocker, Signed, refusals
+from ledger.rules.signing import MEANINGS, Blocker, Signed, fully_signed, refusals
 from ledger.runs import service as runs
 from ledger.store.audit import Journal
 from ledger.store.tables import AuditHead, RecordRevision, Run, Signature, UserAccount
@@ -87,6 +87,22 @@ def record_of(session: Session, run_id: int, number: int | None = None) -> Issue
         return Issued(rev, stored_context(session, rev))
     draft = assemble(session, run_id)
     return Issued(None, draft.with_signatures(signature_rows(session, run_id)))
+
+
+def approved_record(session: Session, run_id: int, number: int | None = None) -> Issued:
+    """Like :func:`record_of`, but refused (exit 3) unless the revision is fully signed: only
+    an approved revision is sealed."""
+    issued = record_of(session, run_id, number)
+    ctx = issued.context
+    signed = [s.meaning for s in ctx.signatures if s.revision == ctx.header.revision]
+    if issued.revision is None or not fully_signed(ctx.required_signatures, signed):
+        raise RefusedError(
+            f"{ctx.header.record_id} revision {ctx.header.revision} is not approved: only a "
+            "fully signed revision is sealed",
+            field="run",
+            value=run_id,
+        )
+    return issued
 
 
 def _issue(session: Session, actor: UserAccount, run: Run) -> RecordRevision:
@@ -196,8 +212,7 @@ def sign(session: Session, actor: UserAccount, run_id: int, meaning: str) -> Sig
         module_id=run.module_id,
         reason=f"signed {record_id(run_id)} revision {rev.number} as {meaning}",
     )
-    signed = {s.meaning for s in on_this} | {meaning}
-    if all(m in signed for m in ctx.required_signatures):
+    if fully_signed(ctx.required_signatures, [s.meaning for s in on_this] + [meaning]):
         journal.change(
             run,
             {"status": "approved"},
@@ -207,7 +222,16 @@ def sign(session: Session, actor: UserAccount, run_id: int, meaning: str) -> Sig
     return signature
 
 
-def correct(session: Session, actor: UserAccount, run_id: int, reason: str) -> Run:
+@dataclass(frozen=True)
+class Correction:
+    """A record opened for correction: the run, and the revision it superseded (None when
+    no revision had been issued since the last correction)."""
+
+    run: Run
+    superseded: RecordRevision | None
+
+
+def correct(session: Session, actor: UserAccount, run_id: int, reason: str) -> Correction:
     """Open the record for correction: the current revision is superseded (its signatures
     stay with it), the run goes back to ``finished``, and its next submission is signed as a
     new revision with ``reason``."""
@@ -242,4 +266,4 @@ def correct(session: Session, actor: UserAccount, run_id: int, reason: str) -> R
         module_id=run.module_id,
         reason=f"record opened for correction: {reason}",
     )
-    return run
+    return Correction(run, rev)

@@ -11,12 +11,18 @@ from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Literal
 
+from ledger.rules.water_test import (
+    RecoveryClass,
+    damage_suspected,
+    preuse_in_band,
+    recovery_class,
+)
+
 Outcome = Literal["ok", "alert", "fail", "info"]
 
 FIT, NOT_FIT = "FIT", "NOT FIT"
 
 _DAY = 86_400.0
-EDGE_TOLERANCE = 1e-9  # relative; far below any measured difference
 
 
 @dataclass(frozen=True)
@@ -153,6 +159,9 @@ def check_cycles(f: Facts) -> Reason:
     return Reason("cycles", "ok", text, *numbers)
 
 
+_RECOVERY_OUTCOMES: dict[RecoveryClass, Outcome] = {"pass": "ok", "alert": "alert", "fail": "fail"}
+
+
 def check_recovery(f: Facts) -> Reason:
     lim = f.limits
     if f.baseline is None:
@@ -169,11 +178,8 @@ def check_recovery(f: Facts) -> Reason:
         f"{_pct(lim.recovery_min)}, alert below {_pct(lim.recovery_alert)})"
     )
     numbers: tuple[float, float, str] = (pc.ratio, lim.recovery_min, "fraction")
-    if pc.ratio < lim.recovery_min:
-        return Reason("recovery", "fail", text, *numbers)
-    if pc.ratio < lim.recovery_alert:
-        return Reason("recovery", "alert", text, *numbers)
-    return Reason("recovery", "ok", text, *numbers)
+    outcome = _RECOVERY_OUTCOMES[recovery_class(pc.ratio, lim.recovery_min, lim.recovery_alert)]
+    return Reason("recovery", outcome, text, *numbers)
 
 
 def check_damage(f: Facts) -> Reason:
@@ -185,7 +191,7 @@ def check_damage(f: Facts) -> Reason:
         f"(damage suspected above {_pct(f.limits.damage_ratio)})"
     )
     numbers: tuple[float, float, str] = (latest.ratio, f.limits.damage_ratio, "fraction")
-    if latest.ratio <= f.limits.damage_ratio:
+    if not damage_suspected(latest.ratio, f.limits.damage_ratio):
         return Reason("damage", "ok", text, *numbers)
     it = f.integrity
     if it is not None and it.passed and it.at > latest.at:
@@ -245,9 +251,8 @@ def check_pre_use(f: Facts) -> Reason:
     ratio = pre.nwp / pc.nwp
     band = f.limits.preuse_band
     text = f"pre-use NWP is {_pct(ratio)} of the last post-clean NWP (band ±{_pct(band)})"
-    # The edge is inside, as for the other limits; the tolerance absorbs rounding in the ratio.
     numbers: tuple[float, float, str] = (ratio, band, "fraction")
-    if abs(ratio - 1.0) > band * (1 + EDGE_TOLERANCE):
+    if not preuse_in_band(ratio, band):
         return Reason("pre-use", "fail", text, *numbers)
     return Reason("pre-use", "ok", text, *numbers)
 

@@ -9,6 +9,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from ledger.rules.water_test import damage_suspected, recovery_meets_minimum
+
 # Which statuses allow each action.
 ALLOWED: dict[str, frozenset[str]] = {
     "water:baseline": frozenset({"commissioning"}),
@@ -114,13 +116,13 @@ def after_water_test(
         return Transition(status)
     if recovery is None:
         raise ValueError("a post-clean test needs a recovery against the baseline")
-    if recovery < recovery_min:
+    if not recovery_meets_minimum(recovery, recovery_min):
         return Transition(
             "on_hold",
             hold="recovery",
             note=f"recovery {100 * recovery:.1f} % is below the minimum {100 * recovery_min:.1f} %",
         )
-    if recovery > damage_ratio:
+    if damage_suspected(recovery, damage_ratio):
         # The integrity test must follow the NWP that raised the suspicion (as in fitness).
         return Transition(
             status,

@@ -88,6 +88,19 @@ def refusals(
     return out
 
 
+def next_meaning(required: Sequence[str], signed: Iterable[str]) -> str | None:
+    """The first meaning of ``required`` (the template's order) not yet signed on the
+    revision; None when every one is."""
+    done = set(signed)
+    return next((m for m in required if m not in done), None)
+
+
+def fully_signed(required: Sequence[str], signed: Iterable[str]) -> bool:
+    """True when the revision carries every meaning ``required``: approved and locked, and
+    the only revision that may be sealed."""
+    return next_meaning(required, signed) is None
+
+
 def approval_blockers(blockers: Iterable[Blocker], open_deviations: Iterable[int]) -> list[str]:
     """What stops approval: FAIL without a closed deviation, MISSING, open deviations."""
     out: list[str] = []

@@ -12,8 +12,15 @@ SI throughout (Pa gauge, m³/s, m/s, 1/s, K, m³, s). Definitions (the tests rel
 - Permeate volume: the balance's mass change over the density when permeate_mass is mapped,
   else the integrated permeate flow.
 - Initial and final retentate volume (and the flux at start and end) are the value at the
-  phase's start or end of a least-squares line through its first or last min(30, n) samples
-  (min(60, n) for flux), robust to level-sensor noise. Concentration factor = initial / final.
+  phase's start or end time of a least-squares line through the phase's own samples within
+  a time window of that boundary: END_WINDOW_S = 30 s for the volume, FLUX_WINDOW_S = 60 s
+  for the flux (``summarize(end_window_s=..., flux_window_s=...)`` sets them). A window in
+  seconds, not samples, gives the same estimate at any sampling rate. When fewer than two
+  samples fall in the window, the line goes through the phase's two samples nearest the
+  boundary (so the end of a phase is extrapolated by at most one interval; the summary's
+  assumptions say so); a phase of one sample gives that sample. The run's start and end
+  values use only the first and the last phase's samples, never a neighbouring phase's.
+  Concentration factor = initial / final.
 - Diavolumes = (permeate volume + final volume - initial volume) / time-weighted mean
   retentate volume: buffer added over working volume (about 0 for a pure concentration).
 - Flux decline = 1 - flux at end / flux at start.
@@ -39,8 +46,8 @@ from numpy.typing import NDArray
 
 from ledger.runs.skidlog import SkidLog
 
-END_WINDOW = 30  # samples for the retentate-volume end estimates
-FLUX_WINDOW = 60  # samples for the flux end estimates
+END_WINDOW_S = 30.0  # s of a phase's start or end for the retentate-volume estimates
+FLUX_WINDOW_S = 60.0  # s of a phase's start or end for the flux estimates
 
 # Every channel a summary may hold (the mapped ones and the derived ones) and its kind.
 CHANNEL_KINDS: dict[str, str] = {
@@ -357,23 +364,64 @@ def segments(log: SkidLog, windows: Sequence[PhaseWindow] | None) -> list[tuple[
     return [(str(log.phases[a]), int(a), int(b)) for a, b in zip(starts, ends, strict=True)]
 
 
+@dataclass
+class _EndWindows:
+    """The end-value windows (s) of one summary, and which of them ran short of samples."""
+
+    volume_s: float
+    flux_s: float
+    short: dict[str, float] = field(default_factory=dict)  # quantity -> window (s)
+    single: list[str] = field(default_factory=list)  # scopes of a single sample
+
+
 def _end_value(
     x: NDArray[np.float64],
     t: NDArray[np.float64],
     i0: int,
     i1: int,
     at: float,
-    window: int,
+    window_s: float,
     first: bool,
-) -> float:
-    """Value at time ``at`` of the least-squares line through the first (or last) samples."""
+) -> tuple[float, int]:
+    """Value at time ``at`` of the least-squares line through the samples i0..i1-1 that lie
+    within ``window_s`` after ``at`` (``first``) or before it, and how many samples that was.
+    With fewer than two in the window the line runs through the two samples nearest ``at``;
+    with a single sample in i0..i1-1, it is that sample.
+
+    A line evaluated at the boundary rather than a median: while the level falls through the
+    window a median lags by half the window, whereas the line is unbiased for a linear trend
+    and still averages the sensor's noise and the pump's pulsation."""
     from ledger.science.fit import fit_line
 
-    k = min(window, i1 - i0)
+    own = t[i0:i1]
+    if first:
+        inside = int(np.searchsorted(own, at + window_s, side="right"))
+    else:
+        inside = own.size - int(np.searchsorted(own, at - window_s, side="left"))
+    k = min(max(inside, 2), own.size)
     sl = slice(i0, i0 + k) if first else slice(i1 - k, i1)
     if k < 2:
-        return float(x[sl][0])
-    return fit_line(t[sl] - at, x[sl], x_name="time", y_name="value").intercept
+        return float(x[sl][0]), inside
+    return fit_line(t[sl] - at, x[sl], x_name="time", y_name="value").intercept, inside
+
+
+def _ends(
+    x: NDArray[np.float64],
+    t: NDArray[np.float64],
+    span: tuple[int, int, int, int],
+    times: tuple[float, float],
+    window_s: float,
+    what: str,
+    w: _EndWindows,
+) -> tuple[float, float]:
+    """Start and end values of one scope; ``span`` = (i0, i1, last sample of the start
+    window's phase + 1, first sample of the end window's phase)."""
+    i0, i1, head, tail = span
+    start, n_start = _end_value(x, t, i0, head, times[0], window_s, True)
+    end, n_end = _end_value(x, t, tail, i1, times[1], window_s, False)
+    if min(n_start, n_end) < 2 and min(head - i0, i1 - tail) > 1:
+        w.short[what] = window_s
+    return start, end
 
 
 def _actuals(
@@ -381,11 +429,12 @@ def _actuals(
     ch: dict[str, NDArray[np.float64]],
     dt: NDArray[np.float64],
     name: str | None,
-    i0: int,
-    i1: int,
+    bounds: tuple[int, int, int, int],
     missing: list[NotComputed],
+    w: _EndWindows,
 ) -> Actuals:
     t, n = log.time_s, log.rows
+    i0, i1 = bounds[:2]
     j = min(i1, n - 1)  # the first sample after the phase closes its last interval
     t0, t1 = float(t[i0]), float(t[j])
     span = t1 - t0
@@ -405,17 +454,22 @@ def _actuals(
         a.permeate_volume_m3 = float(ch["permeate_volume"][j] - ch["permeate_volume"][i0])
         a.permeate_source = "permeate_mass" if "permeate_mass" in raw else "permeate_flow"
     where = "the run" if name is None else f"phase {name}"
+    if i1 - i0 == 1 and ("retentate_volume" in raw or "flux" in ch):
+        w.single.append(where)
     if "retentate_volume" in raw:
         v = raw["retentate_volume"]
-        a.initial_volume_m3 = _end_value(v, t, i0, i1, t0, END_WINDOW, True)
-        a.final_volume_m3 = _end_value(v, t, i0, i1, t1, END_WINDOW, False)
-        if a.final_volume_m3 > 0:
+        a.initial_volume_m3, a.final_volume_m3 = _ends(
+            v, t, bounds, (t0, t1), w.volume_s, "retentate volume", w
+        )
+        if a.final_volume_m3 > 0 and a.initial_volume_m3 > 0:
             a.concentration_factor = a.initial_volume_m3 / a.final_volume_m3
         else:
+            # A run that opens with a flush starts at an empty reservoir: no factor, not 0.
+            end = "final" if not a.final_volume_m3 > 0 else "initial"
             missing.append(
                 NotComputed(
                     f"concentration_factor ({where})",
-                    "the final retentate volume is not above zero",
+                    f"the {end} retentate volume is not above zero",
                 )
             )
         mean_v = a.stats["retentate_volume"].mean
@@ -427,8 +481,9 @@ def _actuals(
                 NotComputed(f"diavolumes ({where})", "the mean retentate volume is not above zero")
             )
     if "flux" in ch:
-        a.flux_start_m_s = _end_value(ch["flux"], t, i0, i1, t0, FLUX_WINDOW, True)
-        a.flux_end_m_s = _end_value(ch["flux"], t, i0, i1, t1, FLUX_WINDOW, False)
+        a.flux_start_m_s, a.flux_end_m_s = _ends(
+            ch["flux"], t, bounds, (t0, t1), w.flux_s, "flux", w
+        )
         if a.flux_start_m_s > 0:
             a.flux_decline = 1 - a.flux_end_m_s / a.flux_start_m_s
         else:
@@ -436,6 +491,27 @@ def _actuals(
                 NotComputed(f"flux_decline ({where})", "the flux at the start is not above zero")
             )
     return a
+
+
+def _run_bounds(n: int, spans: list[tuple[str, int, int]]) -> tuple[int, int, int, int]:
+    """The run's samples and the reach of its start and end windows: the first and the last
+    phase (or the stretch before the first or after the last phase boundary)."""
+    cuts = sorted({i for _, i0, i1 in spans for i in (i0, i1) if 0 < i < n})
+    return 0, n, cuts[0] if cuts else n, cuts[-1] if cuts else 0
+
+
+def _window_notes(w: _EndWindows, step_s: float | None) -> list[str]:
+    notes = []
+    interval = f" (median sampling interval {step_s:g} s)" if step_s else ""
+    for what, window in w.short.items():
+        notes.append(
+            f"{what} at a phase's start or end: fewer than two samples within {window:g} s of "
+            f"the boundary{interval}; the line through the phase's two samples nearest it was "
+            "used, so the value at a phase's end is extrapolated over up to one interval"
+        )
+    for where in dict.fromkeys(w.single):
+        notes.append(f"{where} has one sample: its start and end values are that sample")
+    return notes
 
 
 def _runs(mask: NDArray[np.bool_]) -> tuple[NDArray[np.intp], NDArray[np.intp]]:
@@ -516,9 +592,19 @@ def summarize(
     geometry: Geometry = Geometry(),
     ranges: Sequence[ChannelLimit] = (),
     windows: Sequence[PhaseWindow] | None = None,
+    *,
+    end_window_s: float = END_WINDOW_S,
+    flux_window_s: float = FLUX_WINDOW_S,
 ) -> Summary:
     """The run's and each phase's actuals, every excursion outside ``ranges``, and what could
-    not be computed with the reason."""
+    not be computed with the reason. ``end_window_s`` and ``flux_window_s`` (s) are the
+    stretches of a phase's start and end that its initial and final retentate volume and its
+    flux at start and end are estimated from."""
+    from ledger.science.guards import positive
+
+    w = _EndWindows(
+        positive("end_window_s", end_window_s), positive("flux_window_s", flux_window_s)
+    )
     ch, missing = derived_channels(log, geometry)
     spans = segments(log, windows)
     for w_name, i0, i1 in spans:
@@ -526,8 +612,8 @@ def summarize(
             missing.append(NotComputed(f"phase {w_name}", "no samples in its time window"))
     spans = [s for s in spans if s[2] > s[1]]
     dt = np.diff(log.time_s)
-    run = _actuals(log, ch, dt, None, 0, log.rows, missing)
-    phases = [_actuals(log, ch, dt, name, i0, i1, missing) for name, i0, i1 in spans]
+    run = _actuals(log, ch, dt, None, _run_bounds(log.rows, spans), missing, w)
+    phases = [_actuals(log, ch, dt, name, (i0, i1, i1, i0), missing, w) for name, i0, i1 in spans]
     names = list(dict.fromkeys(s[0] for s in spans))
     for r in ranges:
         if r.channel not in ch:
@@ -550,7 +636,7 @@ def summarize(
         phases=phases,
         excursions=_excursions(log, ch, ranges, spans),
         not_computed=missing,
-        assumptions=list(log.assumptions),
+        assumptions=[*log.assumptions, *_window_notes(w, log.median_step_s)],
     )
 
 

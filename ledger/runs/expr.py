@@ -5,14 +5,16 @@ signs, parentheses and calls of the functions in :data:`FUNCTIONS` are accepted.
 evaluated twice over its life: once at template load on pint quantities of unit size, so
 that a unit mismatch (adding a volume to a flow) or a result of the wrong dimension is found
 before any run uses the template, and then on SI floats when a run is planned.
+:func:`evaluation_order` orders named expressions so that each comes after the names it reads.
 """
 
 from __future__ import annotations
 
 import ast
+import heapq
 import math
 import operator
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Collection, Mapping
 from dataclasses import dataclass
 from typing import Any
 
@@ -92,11 +94,12 @@ class ExpressionError(InputError):
 
 @dataclass(frozen=True)
 class Expr:
-    """A checked expression: its text, its tree and the names it reads."""
+    """A checked expression: its text, its tree, the names it reads and the functions it calls."""
 
     text: str
     tree: ast.Expression
     names: frozenset[str]
+    functions: frozenset[str] = frozenset()
 
     def evaluate(self, env: Mapping[str, float]) -> float:
         """The value on SI floats. ``env`` must hold every name (see ``names``)."""
@@ -132,7 +135,77 @@ def compile_expr(text: str, *, where: str) -> Expr:
     called = {n.func.id for n in ast.walk(tree) if isinstance(n, ast.Call)}  # type: ignore[attr-defined]
     # A called name is a function, not a variable, unless it is also read as a value.
     values = {n.id for n in ast.walk(tree) if isinstance(n, ast.Name)} - called
-    return Expr(text.strip(), tree, frozenset(values | (names - called)))
+    return Expr(text.strip(), tree, frozenset(values | (names - called)), frozenset(called))
+
+
+def evaluation_order(uses: Mapping[str, Collection[str]]) -> tuple[list[str], list[list[str]]]:
+    """An order in which each name comes after every name it uses, and the cycles that stop one.
+
+    ``uses`` maps each name, in the order it was written, to the names its expression reads;
+    names that are not keys of ``uses`` (inputs, constants) are ignored. Where several names
+    are free to go next, the one written first goes first, so a list already in order keeps its
+    order. Returns the order (without the names in or behind a cycle) and each cycle as its
+    names in written order (a name that uses itself is a cycle of one).
+    """
+    position = {name: i for i, name in enumerate(uses)}
+    needs = {name: {u for u in uses[name] if u in position} for name in uses}
+    users: dict[str, list[str]] = {name: [] for name in uses}
+    for name, used in needs.items():
+        for u in used:
+            users[u].append(name)
+    waiting = {name: len(used) for name, used in needs.items()}
+    ready = [position[name] for name, n in waiting.items() if n == 0]
+    heapq.heapify(ready)
+    names = list(uses)
+    order: list[str] = []
+    while ready:
+        name = names[heapq.heappop(ready)]
+        order.append(name)
+        for user in users[name]:
+            waiting[user] -= 1
+            if waiting[user] == 0:
+                heapq.heappush(ready, position[user])
+    placed = set(order)
+    left = [name for name in names if name not in placed]
+    return order, _cycles(left, needs, position)
+
+
+def _cycles(
+    left: list[str], needs: Mapping[str, set[str]], position: Mapping[str, int]
+) -> list[list[str]]:
+    """The strongly connected groups of ``left`` that hold a cycle (Tarjan's algorithm)."""
+    index: dict[str, int] = {}
+    low: dict[str, int] = {}
+    stack: list[str] = []
+    on_stack: set[str] = set()
+    found: list[list[str]] = []
+    inside = set(left)
+
+    def visit(name: str) -> None:
+        index[name] = low[name] = len(index)
+        stack.append(name)
+        on_stack.add(name)
+        for u in sorted(needs[name] & inside, key=position.__getitem__):
+            if u not in index:
+                visit(u)
+                low[name] = min(low[name], low[u])
+            elif u in on_stack:
+                low[name] = min(low[name], index[u])
+        if low[name] == index[name]:
+            group = []
+            while True:
+                top = stack.pop()
+                on_stack.discard(top)
+                group.append(top)
+                if top == name:
+                    break
+            if len(group) > 1 or name in needs[name]:
+                found.append(sorted(group, key=position.__getitem__))
+
+    for name in left:
+        if name not in index:
+            visit(name)
+    return sorted(found, key=lambda g: position[g[0]])
 
 
 def _allow(node: ast.AST, text: str, where: str, names: set[str]) -> None:

@@ -18,7 +18,8 @@ from pathlib import Path
 from ledger import units
 from ledger.errors import InputError
 from ledger.runs.actuals import CHANNEL_KINDS, ChannelLimit
-from ledger.runs.mapping import parse_toml, read_text
+from ledger.runs.mapping import read_text
+from ledger.tomlfile import parse_toml
 
 KEYS = ("channel", "low", "high", "phase", "name")
 

@@ -10,15 +10,13 @@ reading a log never calls pint per row.
 from __future__ import annotations
 
 import hashlib
-import re
-import tomllib
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
-from typing import Any
 
 from ledger import units
 from ledger.errors import InputError
+from ledger.tomlfile import parse_toml, read_toml_text
 
 # Our channels and the kind of their values (ledger.units.KINDS); "phase" is a text column.
 CHANNEL_KINDS: dict[str, str | None] = {
@@ -34,8 +32,8 @@ CHANNEL_KINDS: dict[str, str | None] = {
 }
 TIME_KEYS = ("column", "format", "timezone", "max_gap")
 CHANNEL_KEYS = ("column", "unit", "density")
+MAX_FORMAT = 100  # characters in a time format
 DEFAULT_DENSITY = 1000.0  # kg/m³ (1.0 g/mL): assumed for a balance when the mapping gives none
-_TOML_LINE = re.compile(r"\(at line (\d+), column (\d+)\)")
 
 
 @dataclass(frozen=True)
@@ -70,19 +68,9 @@ def load_mapping(path: str | Path) -> Mapping:
 
 
 def read_text(path: str | Path, field: str, expected: str) -> str:
-    """A small UTF-8 text file (a mapping, a limits file); unreadable is an InputError."""
-    path = Path(path)
-    try:
-        return path.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as exc:
-        why = exc.strerror if isinstance(exc, OSError) else "it is not UTF-8 text"
-        raise InputError(
-            f"cannot read the {field} file: {why}",
-            field=field,
-            value=str(path),
-            expected=expected,
-            source=str(path),
-        ) from None
+    """A small UTF-8 text file (a mapping, a limits file), at most tomlfile.MAX_BYTES; a bad
+    path, an unreadable or oversized file or bytes that are not UTF-8 are an InputError."""
+    return read_toml_text(path, field, expected)
 
 
 def _fail(
@@ -97,22 +85,6 @@ def _text(source: str, key: str, value: object, example: str) -> str:
     if not isinstance(value, str) or not value.strip():
         raise _fail(source, key, f"expected text, got {value!r}", value, example)
     return value
-
-
-def parse_toml(text: str, source: str, field: str, expected: str) -> dict[str, Any]:
-    """TOML text as a dict; a syntax error names ``source`` and the line tomllib reports."""
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        found = _TOML_LINE.search(str(exc))
-        raise InputError(
-            f"not valid TOML: {exc}",
-            field=field,
-            value=source,
-            expected=expected,
-            source=source,
-            line=int(found.group(1)) if found else None,
-        ) from None
 
 
 def parse_mapping(text: str, source: str) -> Mapping:
@@ -253,12 +225,26 @@ def _time_format(source: str, fmt: object) -> str:
     expected = 'a strptime format such as "%d/%m/%Y %H:%M:%S"'
     if not isinstance(fmt, str) or "%" not in fmt:
         raise _fail(source, "time.format", f"{fmt!r} is not a strptime format", fmt, expected)
+    if len(fmt) > MAX_FORMAT or "\x00" in fmt:
+        raise _fail(
+            source,
+            "time.format",
+            f"a format of at most {MAX_FORMAT} characters and no NUL is accepted",
+            fmt[:MAX_FORMAT] + "...",
+            expected,
+        )
     # A format must read back what it writes, or it has a directive strptime lacks.
     sample = datetime(2026, 11, 30, 13, 5, 9, tzinfo=UTC)
     try:
-        datetime.strptime(sample.strftime(fmt), fmt)
-    except ValueError as exc:
+        back = datetime.strptime(sample.strftime(fmt), fmt)
+    # strptime compiles the format to a regular expression: a repeated directive ("%d %d") is
+    # a re.error, a bad one a ValueError; strftime may raise others for odd text
+    except Exception as exc:
         raise _fail(
             source, "time.format", f"{fmt!r} is not a usable strptime format ({exc})", fmt, expected
         ) from None
+    if back.replace(tzinfo=None) == datetime(1900, 1, 1):
+        raise _fail(
+            source, "time.format", f"{fmt!r} reads no date or time from a timestamp", fmt, expected
+        )
     return fmt

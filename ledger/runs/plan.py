@@ -192,11 +192,11 @@ def make_plan(
     """Compute the plan; ``scouting`` is [(concentration kg/m³, flux m/s), ...]."""
     inputs = parse_inputs(template, given)
     env: dict[str, float | None] = {**module.names(), **inputs}
-    values: list[Planned] = []
-    for p in template.parameters:
-        planned = _evaluate(p, env, template)
-        env[p.name] = planned.value
-        values.append(planned)
+    planned: dict[str, Planned] = {}
+    for p in template.evaluation_order():
+        planned[p.name] = _evaluate(p, env, template)
+        env[p.name] = planned[p.name].value
+    values = [planned[p.name] for p in template.parameters]
     checks = [_plan_check(v) for v in values if v.actual is None and v.rule]
     plan = Plan(
         template_id=template.id,

@@ -14,12 +14,13 @@ from ledger.logbook import latest
 from ledger.logbook.auth import DECIDERS, RECORDERS, require_role
 from ledger.logbook.fitness import facts
 from ledger.logbook.modules import get_module
-from ledger.logbook.required import required
+from ledger.logbook.required import optional, required
 from ledger.logbook.times import activity_time
 from ledger.logbook.uses import end_use, start_use
 from ledger.rules import runs as sequence
 from ledger.rules.acceptance import Check, unexplained_failures
-from ledger.rules.fitness import EDGE_TOLERANCE, verdict
+from ledger.rules.fitness import verdict
+from ledger.rules.water_test import preuse_in_band
 from ledger.runs import template as templates
 from ledger.runs.checklist import run_checks
 from ledger.runs.plan import ModuleFacts, Plan, make_plan
@@ -100,8 +101,9 @@ def plan_run(
     """Plan a run on a module. A module that is not fit needs an engineer's or QA's override
     with a reason; a failing plan check (module loading) refuses the plan."""
     require_role(actor, DECIDERS, "plan runs")
-    product = required("product", product, "the product of the run")
-    lot = required("lot", lot, "the batch or lot of the run")
+    product = required("product", product, "the product of the run", kind="identifier")
+    lot = required("lot", lot, "the batch or lot of the run", kind="identifier")
+    override_reason = optional("override_reason", override_reason, "why the run is planned")
     tmpl = templates.find(template_ref)
     module = get_module(session, serial)
     mtype = session.get(ModuleType, module.type_id)
@@ -144,7 +146,7 @@ def plan_run(
             template_text=tmpl.text,
             inputs=dict(inputs),
             plan=plan.to_record(),
-            override_reason=override_reason.strip() if override_reason else None,
+            override_reason=override_reason,
         ),
         reason="run planned" + (f" despite NOT FIT: {override_reason}" if override_reason else ""),
     )
@@ -174,7 +176,7 @@ def start_run(
         and ref is not None
         and pre.activity_at >= ref.activity_at
         and ref.nwp_m_s_pa > 0
-        and abs(pre.nwp_m_s_pa / ref.nwp_m_s_pa - 1) <= mtype.preuse_band * (1 + EDGE_TOLERANCE)
+        and preuse_in_band(pre.nwp_m_s_pa / ref.nwp_m_s_pa, mtype.preuse_band)
     )
     problems = sequence.start_problems(
         at,
@@ -307,6 +309,7 @@ def enter_qc(
     require_role(actor, RECORDERS, "enter QC results")
     run = get_run(session, run_id, lock=True)
     _allow(run, "qc")
+    correction_reason = optional("correction_reason", correction_reason, "why it is replaced")
     spec = {a.name: a for a in run_template(run).qc}
     journal = Journal(session, actor.login)
     out = []
@@ -320,6 +323,7 @@ def enter_qc(
                 expected="one of " + ", ".join(spec),
             )
         where = f"--result {name}"
+        text = required("result", text, "a QC result, e.g. 82 nm")
         if attr.kind is None and attr.unit.strip() != "percent":
             number, unit = units.split_number(text, field=where, expected="a plain number")
             if unit:
@@ -389,7 +393,10 @@ def add_deviation(
     require_role(actor, RECORDERS, "record deviations")
     run = get_run(session, run_id, lock=True)
     _allow(run, "deviation")
-    description = required("description", description, "what departed from the plan, and why")
+    description = required(
+        "description", description, "what departed from the plan, and why", kind="text"
+    )
+    impact = optional("impact", impact, "the deviation's impact on the product")
     if check is not None:
         names = {c.name for c in checks_of(session, run)}
         if check not in names:
@@ -413,7 +420,9 @@ def close_deviation(
     require_role(actor, DECIDERS, "close deviations")
     run = get_run(session, run_id, lock=True)
     _allow(run, "close_deviation")
-    closure = required("closure", closure, "the investigation's conclusion and actions")
+    closure = required(
+        "closure", closure, "the investigation's conclusion and actions", kind="text"
+    )
     found = next((d for d in deviations(session, run_id) if d.number == number), None)
     if found is None:
         raise InputError(

@@ -8,8 +8,9 @@ or backwards timestamp, a gap longer than the mapping allows, an empty file.
 
 Times: ISO 8601 unless the mapping gives a strptime format; a time without a UTC offset is
 local time in the mapping's time zone (daylight-saving changes are placed by the order of the
-samples). Values are SI: Pa (gauge), m³/s, kg, m³, K. All of it is vectorized (numpy), with
-no Python object per row.
+samples). Times must lie in the range of nanosecond timestamps (1677-09-21 to 2262-04-11).
+Values are SI: Pa (gauge), m³/s, kg, m³, K, each finite with a magnitude of 0 or within
+ledger.units.SI_MIN..SI_MAX. All of it is vectorized (numpy), with no Python object per row.
 """
 
 from __future__ import annotations
@@ -25,12 +26,18 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
+from ledger import units
 from ledger.errors import InputError
-from ledger.runs.mapping import DEFAULT_DENSITY, Mapping
+from ledger.runs.mapping import CHANNEL_KINDS, DEFAULT_DENSITY, ChannelMap, Mapping
+from ledger.userfiles import check_user_file
 
 GAP_FACTOR = 5.0  # a step over 5 median sample intervals is a gap, unless the mapping says
 CHUNK = 1 << 20  # bytes per read when hashing
 EPOCH = datetime(1970, 1, 1, tzinfo=UTC)
+MAX_BYTES = 1 << 30  # 1 GiB: a 24 h log at 1 Hz is about 10 MB
+MAX_TIME_TEXT = 64  # characters in one timestamp
+_NS_MAX = 2**63 - 1  # int64 nanoseconds; -2**63 is pandas' NaT
+_PER_UNIT_NS = {"s": 10**9, "ms": 10**6, "us": 10**3, "ns": 1}
 
 
 @dataclass
@@ -102,23 +109,29 @@ class _Where:
 
     def cell(self, row: int, column: str) -> tuple[int, str | None]:
         index = self.header.index(column)
-        with self.path.open(newline="", encoding="utf-8-sig") as f:
-            reader = csv.reader(f)
-            next(reader, None)
-            seen = -1
-            for record in reader:
-                if not record:  # a blank line: pyarrow skips it, so it is no data row
-                    continue
-                seen += 1
-                if seen == row:
-                    return reader.line_num, record[index] if index < len(record) else None
+        try:
+            with self.path.open(newline="", encoding="utf-8-sig") as f:
+                reader = csv.reader(f)
+                next(reader, None)
+                seen = -1
+                for record in reader:
+                    if not record:  # a blank line: pyarrow skips it, so it is no data row
+                        continue
+                    seen += 1
+                    if seen == row:
+                        return reader.line_num, record[index] if index < len(record) else None
+        # a cell over the csv module's size limit, bytes that are not UTF-8, the file gone:
+        # the error is still named, at the line counted without blank lines
+        except (OSError, UnicodeDecodeError, csv.Error):
+            pass
         return row + 2, None
 
     def error(self, row: int, column: str, message: str) -> InputError:
         """An InputError at data row ``row``; "{text}" in ``message`` becomes the cell's text."""
         line, text = self.cell(row, column)
+        shown = repr(text) if text is not None else "the cell"
         return InputError(
-            f"column {column!r}: " + message.replace("{text}", repr(text)),
+            f"column {column!r}: " + message.replace("{text}", shown),
             field=column,
             value=text,
             source=str(self.path),
@@ -128,7 +141,7 @@ class _Where:
 
 def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> SkidLog:
     """Read the log at ``path`` through ``mapping``; ``digest`` records its SHA-256."""
-    path = Path(path)
+    path = check_user_file(path, "file", MAX_BYTES, as_source=True)
     header = _header(path)
     where = _Where(path, header)
     _check_columns(path, header, mapping)
@@ -154,9 +167,11 @@ def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> Skid
             phases, codes = _labels(col, cmap.column, where)
             continue
         values = _numbers(col, cmap.column, where)
-        si = np.multiply(values, cmap.scale)
-        if cmap.offset:
-            np.add(si, cmap.offset, out=si)
+        with np.errstate(over="ignore", under="ignore"):
+            si = np.multiply(values, cmap.scale)
+            if cmap.offset:
+                np.add(si, cmap.offset, out=si)
+        _check_si(si, cmap, where)
         channels[name] = si
     del frame
     if failure is not None:  # read as text, every cell passed: say what pandas said
@@ -304,6 +319,22 @@ def _numbers(col: Any, column: str, where: _Where) -> NDArray[np.float64]:
     return values
 
 
+def _check_si(si: NDArray[np.float64], cmap: ChannelMap, where: _Where) -> None:
+    """Refuse a value whose SI conversion is not finite or outside units.SI_MIN..SI_MAX."""
+    magnitude = np.abs(si)
+    outside = (magnitude < units.SI_MIN) | (magnitude > units.SI_MAX)
+    bad = ~np.isfinite(si) | ((si != 0) & outside)
+    if bad.any():
+        i = int(np.argmax(bad))
+        unit = units.KINDS[CHANNEL_KINDS[cmap.channel] or ""].si
+        raise where.error(
+            i,
+            cmap.column,
+            f"{{text}} {cmap.unit} is {si[i]:.3g} {unit} in SI; expected 0 or a magnitude "
+            f"from {units.SI_MIN:g} to {units.SI_MAX:g} {unit}",
+        )
+
+
 def _labels(col: Any, column: str, where: _Where) -> tuple[NDArray[np.object_], NDArray[np.intp]]:
     import pandas as pd
 
@@ -339,12 +370,14 @@ def _times(col: Any, mapping: Mapping, where: _Where) -> NDArray[np.int64]:
 
     column = mapping.time_column
     if mapping.time_format:
-        parsed = _strptime(col, mapping.time_format)
+        _check_length(col, column, where)
+        parsed = _strptime(col, mapping.time_format, mapping.source)
         wanted = f"a time in the format {mapping.time_format!r}"
     elif pd.api.types.is_datetime64_any_dtype(col.dtype):
         parsed = col  # pyarrow recognized ISO 8601 itself
         wanted = "an ISO 8601 time"
     else:
+        _check_length(col, column, where)
         parsed = _iso(col, column, where)
         wanted = "an ISO 8601 time"
     bad = parsed.isna().to_numpy()
@@ -355,7 +388,9 @@ def _times(col: Any, mapping: Mapping, where: _Where) -> NDArray[np.int64]:
     index = pd.DatetimeIndex(parsed)
     if index.tz is None:
         index = _localize(index, mapping, where)
-    ns = index.tz_convert("UTC").tz_localize(None).as_unit("ns").asi8
+    utc = index.tz_convert("UTC").tz_localize(None)
+    _check_range(utc, column, where)
+    ns = utc.as_unit("ns").asi8
     steps = np.diff(ns)
     back = steps <= 0
     if back.any():
@@ -370,7 +405,36 @@ def _times(col: Any, mapping: Mapping, where: _Where) -> NDArray[np.int64]:
     return ns
 
 
-def _strptime(col: Any, fmt: str) -> Any:
+def _check_range(utc: Any, column: str, where: _Where) -> None:
+    """Refuse a time outside int64 nanoseconds (1677-09-21 to 2262-04-11, UTC); pandas may
+    hold such times in seconds or microseconds but could not convert them."""
+    per_ns = _PER_UNIT_NS[utc.unit]
+    limit = _NS_MAX // per_ns
+    values = utc.asi8
+    bad = (values < -limit) | (values > limit)
+    if bad.any():
+        raise where.error(
+            int(np.argmax(bad)),
+            column,
+            "the time {text} is outside the years a log can hold; expected a time from "
+            "1677-09-21 00:12:44 to 2262-04-11 23:47:16 UTC",
+        )
+
+
+def _check_length(col: Any, column: str, where: _Where) -> None:
+    """Refuse a timestamp over MAX_TIME_TEXT characters before any pattern is applied."""
+    lengths = col.astype("str").str.len().to_numpy()
+    long = lengths > MAX_TIME_TEXT
+    if long.any():
+        raise where.error(
+            int(np.argmax(long)),
+            column,
+            f"a time of {int(lengths[np.argmax(long)])} characters; expected at most "
+            f"{MAX_TIME_TEXT}",
+        )
+
+
+def _strptime(col: Any, fmt: str, source: str) -> Any:
     """Parse with pyarrow's strptime (fast); if it cannot read every row (e.g. %f, which it
     lacks), pandas parses the column with the full strptime."""
     import pandas as pd
@@ -383,7 +447,18 @@ def _strptime(col: Any, fmt: str) -> Any:
     except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
         parsed = None
     if parsed is None or parsed.null_count > col.isna().sum():
-        return pd.to_datetime(col, format=fmt, errors="coerce", utc=utc)
+        try:
+            return pd.to_datetime(col, format=fmt, errors="coerce", utc=utc)
+        # pandas compiles the format itself and refuses some that strptime takes, with a
+        # ValueError or a re.error
+        except Exception as exc:
+            raise InputError(
+                f"time.format: pandas cannot parse times with {fmt!r} ({exc})",
+                field="time.format",
+                value=fmt,
+                expected='a strptime format such as "%d/%m/%Y %H:%M:%S"',
+                source=source,
+            ) from None
     return pd.Series(parsed.to_pandas(), index=col.index)
 
 

@@ -1,28 +1,37 @@
 """Master-record templates: one TOML file of data with Jinja2 text for the instructions.
 
 A template names its inputs (with their physical kinds), its planned parameters (each an
-expression of the inputs, of the module's geometry and of earlier parameters, with a display
+expression of the inputs, of the module's geometry and of other parameters, with a display
 unit, an optional acceptance range and the skid-log metric that measures it), its ordered
 steps (operation -> phase) with the signatures each needs, and its QC attributes with their
-specifications. Everything is checked when the file is loaded: an unknown name, a unit of the
-wrong dimension, a bad expression or a misspelt key is an error naming the file and the key.
-The SHA-256 of the file's exact bytes identifies the version a run used.
+specifications. Everything is checked when the file is loaded, and every mistake in the file
+is reported at once, each with its file, line and key: an unknown name, a unit of the wrong
+dimension, a bad expression, a misspelt key, parameters that depend on each other in a cycle.
+Parameters are computed in the order their expressions need (``Template.order``), whatever
+order the file lists them in. The SHA-256 of the file's exact bytes identifies the version a
+run used; a parsed template is an immutable value, kept by that hash so a file is read once.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import re
+import threading
 import tomllib
+from collections import OrderedDict
+from collections.abc import Iterator, Mapping, Sequence
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from types import MappingProxyType
+from typing import Any, TypeVar
 
 from ledger import units
 from ledger.errors import InputError
 from ledger.rules.signing import MEANINGS
 from ledger.runs.actuals import CHANNEL_KINDS
-from ledger.runs.expr import Expr, ExpressionError, compile_expr
+from ledger.runs.expr import Expr, ExpressionError, compile_expr, evaluation_order
 
 # Who may sign each meaning when a template does not say (common practice, no single source):
 # an administrator signs nothing (21 CFR 11 / Annex 11 separation of duties).
@@ -57,6 +66,8 @@ SCALAR_METRICS: dict[str, str | None] = {
 # holds, except the cumulative permeate volume, which is checked as the scalar metric.
 CHANNELS: dict[str, str] = {k: v for k, v in CHANNEL_KINDS.items() if k not in SCALAR_METRICS}
 STATISTICS = ("mean", "min", "max")
+# In a range, the parameter's own planned value.
+PLAN = "plan"
 
 # When a unit fits several kinds (L/m² is a length), the first kind listed wins.
 _KIND_ORDER = (
@@ -64,8 +75,13 @@ _KIND_ORDER = (
     "concentration", "mass", "viscosity", "areal_volume", "areal_mass", "length", "density",
     "permeability", "conductivity", "molarity", "fraction",
 )  # fmt: skip
-_QUANTITY = re.compile(r"^\s*[-+]?(\d+(\.\d*)?|\.\d+)([eE][-+]?\d+)?\s*\S")
 _NAME = re.compile(r"^[a-z][a-z0-9_]*$")
+_TOML_LINE = re.compile(r"\(at line (\d+), column (\d+)\)")
+_TOP_KEYS = {"template", "inputs", "parameters", "steps", "qc", "optimum"}
+_PARAMETER_KEYS = {"title", "expr", "unit", "phase", "actual", "range"}
+_CACHE_SIZE = 64  # parsed templates kept; a site has a few dozen versions at most
+
+_V = TypeVar("_V")
 
 
 @dataclass(frozen=True)
@@ -135,24 +151,50 @@ class Optimum:
 
 @dataclass(frozen=True)
 class Template:
+    """A validated template. Immutable: one parsed value is shared by every caller."""
+
     id: str
     version: str
     title: str
     source: str
     sha256: str
     text: str
-    inputs: dict[str, Input]
-    parameters: list[Parameter]
-    steps: list[Step]
-    qc: list[QcAttribute]
+    inputs: Mapping[str, Input]
+    parameters: tuple[Parameter, ...]  # as the file lists them (plans and records show this)
+    order: tuple[str, ...]  # the parameters' names in the order they are computed
+    steps: tuple[Step, ...]
+    qc: tuple[QcAttribute, ...]
     signatures: tuple[str, ...]  # the record's signatures, in order
     product: str | None = None
     optimum: Optimum | None = None
-    notes: list[str] = field(default_factory=list)
-    signers: dict[str, tuple[str, ...]] = field(default_factory=dict)  # meaning -> roles
+    notes: tuple[str, ...] = ()
+    signers: Mapping[str, tuple[str, ...]] = field(  # meaning -> roles
+        default_factory=lambda: MappingProxyType({})
+    )
 
     def parameter(self, name: str) -> Parameter:
         return next(p for p in self.parameters if p.name == name)
+
+    def evaluation_order(self) -> tuple[Parameter, ...]:
+        """The parameters in the order they are computed: each after the ones it uses."""
+        by_name = {p.name: p for p in self.parameters}
+        return tuple(by_name[n] for n in self.order)
+
+
+class TemplateError(InputError):
+    """Every mistake found in one template file, in line order; ``problems`` holds each one
+    (with its ``source``, ``line`` and ``field``), and the message lists one per line."""
+
+    def __init__(self, source: str, problems: Sequence[InputError]) -> None:
+        ordered = sorted(problems, key=lambda p: (p.line is None, p.line or 0))
+        first = ordered[0]
+        if len(ordered) == 1:
+            message = str(first)
+        else:
+            lines = "\n".join(f"  {p}" for p in ordered)
+            message = f"{source}: {len(ordered)} mistakes in the template:\n{lines}"
+        super().__init__(message, field=first.field, value=first.value)
+        self.problems = tuple(ordered)
 
 
 def shipped_dir() -> Path:
@@ -203,47 +245,232 @@ def load(path: str | Path) -> Template:
     return parse(raw, str(path))
 
 
+_cache: OrderedDict[str, Template] = OrderedDict()
+_cache_lock = threading.Lock()
+
+
 def parse(raw: bytes, source: str) -> Template:
-    """Validate a template from its bytes; ``source`` names it in errors."""
+    """Validate a template from its bytes; ``source`` names it in errors.
+
+    The result is kept by the SHA-256 of ``raw``: the same bytes give the same (immutable)
+    value without being read again, under the ``source`` asked for.
+    """
+    digest = hashlib.sha256(raw).hexdigest()
+    with _cache_lock:
+        kept = _cache.get(digest)
+        if kept is not None:
+            _cache.move_to_end(digest)
+    if kept is None:
+        kept = _parse(raw, source, digest)
+        with _cache_lock:
+            _cache[digest] = kept
+            while len(_cache) > _CACHE_SIZE:
+                _cache.popitem(last=False)
+    return kept if kept.source == source else dataclasses.replace(kept, source=source)
+
+
+def _parse(raw: bytes, source: str, digest: str) -> Template:
     try:
-        data = tomllib.loads(raw.decode("utf-8"))
-    except (UnicodeDecodeError, tomllib.TOMLDecodeError) as exc:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
         raise InputError(
-            f"{source}: not a valid TOML file ({exc})",
+            f"{source}: not a valid TOML file (not UTF-8 text: {exc.reason})",
+            field="template",
+            value=source,
+            expected="a TOML master-record template",
+        ) from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        found = _TOML_LINE.search(str(exc))
+        raise InputError(
+            f"not a valid TOML file ({exc})",
             field="template",
             value=source,
             expected="a TOML master-record template",
             source=source,
+            line=int(found.group(1)) if found else None,
         ) from None
-    return _Reader(source, data).template(raw)
+    return _Reader(source, data, KeyLines(text)).template(text, digest)
+
+
+# -- where each key is written -------------------------------------------------------------
+
+_KEY_PART = r"""(?:[A-Za-z0-9_-]+|"(?:[^"\\]|\\.)*"|'[^']*')"""
+_DOTTED = rf"{_KEY_PART}(?:\s*\.\s*{_KEY_PART})*"
+_ARRAY_HEADER = re.compile(rf"\s*\[\[\s*({_DOTTED})\s*\]\]")
+_TABLE_HEADER = re.compile(rf"\s*\[\s*({_DOTTED})\s*\]")
+_ASSIGNMENT = re.compile(rf"\s*({_DOTTED})\s*=")
+_ONE_PART = re.compile(r"""[A-Za-z0-9_-]+|"((?:[^"\\]|\\.)*)"|'([^']*)'""")
+
+
+class KeyLines:
+    """The line on which each key of a TOML text is written (tomllib gives values only).
+
+    Keys are dotted paths as the template reader names them: ``parameters.feed_flow.expr``,
+    ``steps[2].text`` for the second ``[[steps]]``. A key inside an inline table or a value
+    gets the line of the nearest key above it that is written out (``range = { ... }``).
+    """
+
+    def __init__(self, text: str) -> None:
+        self.lines: dict[tuple[str, ...], int] = {}
+        table: tuple[str, ...] = ()
+        arrays: dict[tuple[str, ...], int] = {}
+        scan = _ValueScan()
+        for number, line in enumerate(text.splitlines(), start=1):
+            rest = line
+            if scan.idle():
+                if m := _ARRAY_HEADER.match(line):
+                    path = _key_parts(m.group(1))
+                    arrays[path] = arrays.get(path, 0) + 1
+                    table = (*path[:-1], f"{path[-1]}[{arrays[path]}]")
+                    self._add(table, number)
+                    rest = line[m.end() :]
+                elif m := _TABLE_HEADER.match(line):
+                    table = _key_parts(m.group(1))
+                    self._add(table, number)
+                    rest = line[m.end() :]
+                elif m := _ASSIGNMENT.match(line):
+                    self._add((*table, *_key_parts(m.group(1))), number)
+                    rest = line[m.end() :]
+            scan.feed(rest)
+
+    def _add(self, path: tuple[str, ...], number: int) -> None:
+        for end in range(1, len(path) + 1):
+            self.lines.setdefault(path[:end], number)
+
+    def find(self, key: str) -> int | None:
+        """The line of ``key``, else of its nearest written parent; None when neither is."""
+        parts = tuple(key.split("."))
+        for end in range(len(parts), 0, -1):
+            if parts[:end] in self.lines:
+                return self.lines[parts[:end]]
+        return None
+
+
+def _key_parts(dotted: str) -> tuple[str, ...]:
+    return tuple(
+        m.group(1) if m.group(1) is not None else m.group(2) or m.group(0)
+        for m in _ONE_PART.finditer(dotted)
+    )
+
+
+class _ValueScan:
+    """Follows strings, comments and brackets of values, so that a line inside a multi-line
+    string or array is never taken for a key or a table header."""
+
+    def __init__(self) -> None:
+        self.depth = 0
+        self.open_string: str | None = None  # the delimiter of an unclosed multi-line string
+
+    def idle(self) -> bool:
+        return self.depth == 0 and self.open_string is None
+
+    def feed(self, text: str) -> None:
+        i = 0
+        while i < len(text):
+            if self.open_string is not None:
+                end = text.find(self.open_string, i)
+                if end < 0:
+                    return
+                i, self.open_string = end + 3, None
+                continue
+            if text.startswith(('"""', "'''"), i):
+                delimiter = text[i : i + 3]
+                end = text.find(delimiter, i + 3)
+                if end < 0:
+                    self.open_string = delimiter
+                    return
+                i = end + 3
+            elif text[i] == '"':
+                i += 1
+                while i < len(text) and text[i] != '"':
+                    i += 2 if text[i] == "\\" else 1
+                i += 1
+            elif text[i] == "'":
+                end = text.find("'", i + 1)
+                i = len(text) if end < 0 else end + 1
+            elif text[i] == "#":
+                return
+            else:
+                if text[i] in "[{":
+                    self.depth += 1
+                elif text[i] in "]}":
+                    self.depth = max(0, self.depth - 1)
+                i += 1
+
+
+# -- the reader ----------------------------------------------------------------------------
+
+
+@dataclass
+class _Draft:
+    """A parameter as read in the first pass, before every name of the file is known."""
+
+    name: str
+    key: str
+    spec: dict[str, Any]
+    unit: str | None = None  # None: no usable unit (a mistake already noted)
+    kind: str | None = None
+    expr: Expr | None = None
+    title: str | None = None
+
+
+def _sure(value: _V | None) -> _V:
+    # Each missing piece came with a noted mistake, and noted mistakes are raised first.
+    assert value is not None
+    return value
+
+
+def _names(names: Sequence[str]) -> str:
+    return ", ".join(repr(n) for n in names)
 
 
 class _Reader:
-    def __init__(self, source: str, data: dict[str, Any]) -> None:
+    def __init__(self, source: str, data: dict[str, Any], lines: KeyLines) -> None:
         self.source = source
         self.data = data
+        self.lines = lines
         self.kinds: dict[str, str | None] = dict(MODULE_NAMES)
+        self.vague: set[str] = set()  # names whose kind is unknown after a noted mistake
+        self.problems: list[InputError] = []
+        self.phases: list[tuple[str, str]] = []  # (key, phase) the parameters name
+        self.step_phases: set[str] = set()  # the phases the steps name, even a faulty step
 
     def fail(self, key: str, message: str, value: object = None, expected: str = "") -> InputError:
         return InputError(
-            f"{self.source}: {key}: {message}",
+            f"{key}: {message}",
             field=key,
             value=value,
             expected=expected or None,
-            source=None,
+            source=self.source,
+            line=self.lines.find(key),
         )
 
-    def table(self, key: str, value: Any, allowed: set[str], required: set[str]) -> dict[str, Any]:
+    def note(self, key: str, message: str, value: object = None, expected: str = "") -> None:
+        self.problems.append(self.fail(key, message, value, expected))
+
+    @contextmanager
+    def collect(self) -> Iterator[None]:
+        """Note the mistake a block raises and carry on with the rest of the file."""
+        try:
+            yield
+        except InputError as exc:
+            self.problems.append(exc)
+
+    def table(
+        self, key: str, value: Any, allowed: set[str], required: set[str]
+    ) -> dict[str, Any] | None:
         if not isinstance(value, dict):
-            raise self.fail(key, f"expected a table, got {value!r}")
+            self.note(key, f"expected a table, got {value!r}")
+            return None
+        within = "" if key == "(top level)" else f"{key}."
         for k in value:
             if k not in allowed:
-                raise self.fail(
-                    f"{key}.{k}", "unknown key", k, f"one of {', '.join(sorted(allowed))}"
-                )
+                self.note(f"{within}{k}", "unknown key", k, f"one of {', '.join(sorted(allowed))}")
         for k in sorted(required):
             if k not in value:
-                raise self.fail(f"{key}.{k}", "is missing", None, "a value")
+                self.note(f"{within}{k}", "is missing", None, "a value")
         return value
 
     def text(self, key: str, value: Any) -> str:
@@ -251,85 +478,107 @@ class _Reader:
             raise self.fail(key, f"expected non-empty text, got {value!r}")
         return value.strip()
 
-    def template(self, raw: bytes) -> Template:
-        self.table(
-            "(top level)",
-            self.data,
-            {"template", "inputs", "parameters", "steps", "qc", "optimum"},
-            {"template", "parameters", "steps"},
-        )
-        head = self.table(
-            "template",
-            self.data["template"],
-            {"id", "version", "title", "product", "signatures", "signers", "notes"},
-            {"id", "version", "title", "signatures"},
-        )
+    def declare(self, name: str, kind: str | None, *, known: bool) -> None:
+        if name not in self.kinds:
+            self.kinds[name] = kind
+            if not known:
+                self.vague.add(name)
+
+    def template(self, text: str, digest: str) -> Template:
+        self.table("(top level)", self.data, _TOP_KEYS, {"template", "parameters", "steps"})
+        head = self.data.get("template", {})
+        if "template" in self.data:
+            head = self.table(
+                "template",
+                head,
+                {"id", "version", "title", "product", "signatures", "signers", "notes"},
+                {"id", "version", "title", "signatures"},
+            )
+        head = head or {}
         inputs = self.inputs(self.data.get("inputs", {}))
-        parameters = self.parameters(self.data["parameters"])
-        steps = self.steps(self.data["steps"])
-        phases = {s.phase for s in steps}
-        for p in parameters:
-            if p.phase is not None and p.phase not in phases:
-                raise self.fail(
-                    f"parameters.{p.name}.phase",
-                    f"unknown phase {p.phase!r}",
-                    p.phase,
-                    f"one of the steps' phases: {', '.join(sorted(phases))}",
-                )
-        self.check_step_texts(steps, inputs, parameters)
+        parameters, order = self.parameters(self.data.get("parameters"))
+        steps = self.steps(self.data["steps"]) if "steps" in self.data else []
+        self.check_phases()
+        qc = self.qc(self.data.get("qc", {}))
+        optimum = None
+        with self.collect():
+            optimum = self.optimum(self.data.get("optimum"))
+        fields: dict[str, str] = {}
+        for name in ("id", "version", "title"):
+            if name in head:
+                value = str(head[name]) if name == "version" else head[name]
+                with self.collect():
+                    fields[name] = self.text(f"template.{name}", value)
         notes = head.get("notes", [])
         if not isinstance(notes, list) or not all(isinstance(n, str) for n in notes):
-            raise self.fail("template.notes", "expected a list of text")
-        signatures = self.meanings("template.signatures", head["signatures"])
+            self.note("template.notes", "expected a list of text")
+        signatures: tuple[str, ...] | None = None
+        signers: dict[str, tuple[str, ...]] | None = None
+        if "signatures" in head:
+            with self.collect():
+                signatures = self.meanings("template.signatures", head["signatures"])
+            if signatures is not None:
+                signers = self.signers(head.get("signers"), signatures)
+        if self.problems:
+            raise TemplateError(self.source, self.problems)
         return Template(
-            id=self.text("template.id", head["id"]),
-            version=self.text("template.version", str(head["version"])),
-            title=self.text("template.title", head["title"]),
+            id=fields["id"],
+            version=fields["version"],
+            title=fields["title"],
             source=self.source,
-            sha256=hashlib.sha256(raw).hexdigest(),
-            text=raw.decode("utf-8"),
-            inputs=inputs,
-            parameters=parameters,
-            steps=steps,
-            qc=self.qc(self.data.get("qc", {})),
-            signatures=signatures,
+            sha256=digest,
+            text=text,
+            inputs=MappingProxyType(inputs),
+            parameters=tuple(parameters),
+            order=tuple(order),
+            steps=tuple(steps),
+            qc=tuple(qc),
+            signatures=_sure(signatures),
             product=head.get("product"),
-            optimum=self.optimum(self.data.get("optimum")),
-            notes=list(notes),
-            signers=self.signers(head.get("signers"), signatures),
+            optimum=optimum,
+            notes=tuple(notes),
+            signers=MappingProxyType(_sure(signers)),
         )
 
-    def signers(self, raw: Any, meanings: tuple[str, ...]) -> dict[str, tuple[str, ...]]:
+    def signers(self, raw: Any, meanings: tuple[str, ...]) -> dict[str, tuple[str, ...]] | None:
         """The roles that may sign each meaning: [template.signers], else DEFAULT_SIGNERS."""
         if raw is None:
             return {m: DEFAULT_SIGNERS[m] for m in meanings}
         if not isinstance(raw, dict):
-            raise self.fail("template.signers", f"expected a table, got {raw!r}")
+            self.note("template.signers", f"expected a table, got {raw!r}")
+            return None
+        before = len(self.problems)
         out: dict[str, tuple[str, ...]] = {}
         for m in meanings:
             key = f"template.signers.{m}"
             roles = raw.get(m)
             if roles is None:
-                raise self.fail(key, f"no roles given for the signature {m!r}", None,
-                                "a list of roles, e.g. [\"qa\"]")  # fmt: skip
-            if not isinstance(roles, list) or not roles:
-                raise self.fail(key, f"expected a list of roles, got {roles!r}", roles)
-            for r in roles:
-                if r not in SIGNER_ROLES:
-                    raise self.fail(key, f"role {r!r} may not sign records", r,
-                                    f"one of {', '.join(SIGNER_ROLES)}")  # fmt: skip
-            out[m] = tuple(roles)
+                self.note(key, f"no roles given for the signature {m!r}", None,
+                          "a list of roles, e.g. [\"qa\"]")  # fmt: skip
+            elif not isinstance(roles, list) or not roles:
+                self.note(key, f"expected a list of roles, got {roles!r}", roles)
+            else:
+                for r in roles:
+                    if r not in SIGNER_ROLES:
+                        self.note(key, f"role {r!r} may not sign records", r,
+                                  f"one of {', '.join(SIGNER_ROLES)}")  # fmt: skip
+                out[m] = tuple(roles)
         for m in raw:
             if m not in meanings:
-                raise self.fail(f"template.signers.{m}", f"{m!r} is not one of this template's "
-                                "signatures", m, ", ".join(meanings))  # fmt: skip
-        return out
+                self.note(f"template.signers.{m}", f"{m!r} is not one of this template's "
+                          "signatures", m, ", ".join(meanings))  # fmt: skip
+        return out if len(self.problems) == before else None
 
     def name(self, key: str, name: str) -> str:
         if not _NAME.match(name):
             raise self.fail(
                 key, f"{name!r} is not a plain name", name, "lower-case letters, digits, _"
             )
+        if name == PLAN:
+            raise self.fail(
+                key, f"the name {PLAN!r} is kept for a parameter's own planned value in its range",
+                name, "another name",
+            )  # fmt: skip
         if name in self.kinds:
             raise self.fail(key, f"the name {name!r} is already used", name, "a new name")
         return name
@@ -353,62 +602,86 @@ class _Reader:
 
     def inputs(self, raw: Any) -> dict[str, Input]:
         out: dict[str, Input] = {}
-        self.table("inputs", raw, set(raw) if isinstance(raw, dict) else set(), set())
+        if self.table("inputs", raw, set(raw) if isinstance(raw, dict) else set(), set()) is None:
+            return out
         for name, spec in raw.items():
-            key = f"inputs.{name}"
-            self.table(key, spec, {"kind", "title", "default"}, {"kind", "title"})
-            kind = spec["kind"]
-            if kind != "number" and kind not in units.KINDS:
-                raise self.fail(
-                    f"{key}.kind",
-                    f"unknown kind {kind!r}",
-                    kind,
-                    "number or a kind of ledger.units",
-                )
-            kind_or_none = None if kind in ("number", "fraction") else kind
-            default = spec.get("default")
-            if default is not None:
-                self.quantity(f"{key}.default", str(default), kind)
-            self.kinds[self.name(key, name)] = kind_or_none
-            out[name] = Input(
-                name,
-                kind if kind != "number" else None,
-                self.text(f"{key}.title", spec["title"]),
-                default,
-            )
+            got = self.input(f"inputs.{name}", name, spec)
+            if got is not None:
+                out[name] = got
         return out
+
+    def input(self, key: str, name: str, raw: Any) -> Input | None:
+        named = False
+        with self.collect():
+            named = bool(self.name(key, name))
+        spec = self.table(key, raw, {"kind", "title", "default"}, {"kind", "title"})
+        if spec is None:
+            self.declare(name, None, known=False)
+            return None
+        kind = spec.get("kind")
+        known = kind == "number" or kind in units.KINDS
+        if "kind" in spec and not known:
+            self.note(
+                f"{key}.kind", f"unknown kind {kind!r}", kind, "number or a kind of ledger.units"
+            )
+        default = spec.get("default")
+        if default is not None and known:
+            with self.collect():
+                self.quantity(f"{key}.default", str(default), kind)
+        title = None
+        if "title" in spec:
+            with self.collect():
+                title = self.text(f"{key}.title", spec["title"])
+        self.declare(name, None if kind in ("number", "fraction") else kind, known=known)
+        if not (named and known and title):
+            return None
+        return Input(name, kind if kind != "number" else None, title, default)
 
     def quantity(self, key: str, text: str, kind: str | None) -> float:
         try:
             if kind in (None, "number"):
                 number, unit = units.split_number(text, field=key, expected="a number")
                 if unit:
-                    raise self.fail(key, f"{text!r} should be a plain number", text)
+                    raise self.fail(key, f"{text!r} should be a plain number", text, "a number")
                 return number
             return units.parse(text, kind, field=key)
         except InputError as exc:
-            if exc.message.startswith(self.source):
+            if exc.source == self.source:
                 raise
-            raise self.fail(key, exc.message, text) from None
+            message = exc.message.removeprefix(f"{key}: ")
+            raise self.fail(key, message, text, exc.expected or "") from None
 
-    def expression(self, key: str, text: Any) -> Expr:
+    def compiled(self, key: str, text: Any) -> Expr:
         try:
-            expr = compile_expr(text, where=key)
+            return compile_expr(text, where=key)
         except ExpressionError as exc:
             raise self.fail(key, exc.message.removeprefix(f"{key}: "), text) from None
-        unknown = sorted(expr.names - set(self.kinds))
+
+    def check_names(self, key: str, expr: Expr, *, own: str | None = None) -> None:
+        """Every name ``expr`` reads is known; ``own`` names the parameter whose range it is."""
+        known = set(self.kinds) | ({PLAN} if own else set())
+        unknown = sorted(expr.names - known)
         if unknown:
+            what = "an input, a module fact or a parameter" + (f", or {PLAN}" if own else "")
             raise self.fail(
                 key,
-                f"unknown name {unknown[0]!r} in {expr.text!r}",
+                f"unknown name{'s' if len(unknown) > 1 else ''} {_names(unknown)} in {expr.text!r}",
                 unknown[0],
-                f"an input, a module fact or an earlier parameter: {', '.join(sorted(self.kinds))}",
+                f"{what}: {', '.join(sorted(known))}",
             )
-        return expr
+        if own is not None and own in expr.names:
+            raise self.fail(
+                key, f"{own!r} is this parameter itself in {expr.text!r}", own,
+                f"{PLAN} for the parameter's own planned value",
+            )  # fmt: skip
 
     def dimension_of(self, key: str, expr: Expr) -> Any:
+        """The pint quantity ``expr`` gives on unit quantities; None when a name's kind is
+        unknown (its mistake is noted where that name is defined)."""
         import pint
 
+        if expr.names & self.vague:
+            return None
         ureg = units.registry()
         env = {}
         for n in expr.names:
@@ -426,6 +699,8 @@ class _Reader:
     def same_dimension(self, key: str, expr: Expr, unit: str) -> None:
         ureg = units.registry()
         got = self.dimension_of(key, expr)
+        if got is None:
+            return
         want = ureg.Quantity(1.0, units._clean_unit(unit)) if unit.strip() else ureg.Quantity(1.0)
         if got.dimensionality != want.dimensionality:
             raise self.fail(
@@ -436,60 +711,113 @@ class _Reader:
                 f"an expression in {unit or 'a plain number'}",
             )
 
-    def parameters(self, raw: Any) -> list[Parameter]:
+    def parameters(self, raw: Any) -> tuple[list[Parameter], list[str]]:
+        """Two passes: every parameter's name and kind first, so that an expression may use a
+        parameter written after it; then the names, dimensions, ranges and the order."""
+        if raw is None:
+            return [], []  # noted as missing at the top level
         if not isinstance(raw, dict) or not raw:
-            raise self.fail("parameters", "expected at least one planned parameter")
-        out = []
-        for name, spec in raw.items():
-            key = f"parameters.{name}"
-            self.table(
-                key,
-                spec,
-                {"title", "expr", "unit", "phase", "actual", "range"},
-                {"title", "expr", "unit"},
-            )
-            unit = spec["unit"]
-            if not isinstance(unit, str):
-                raise self.fail(f"{key}.unit", f"expected a unit as text, got {unit!r}")
-            kind = self.kind_of_unit(f"{key}.unit", unit)
-            expr = self.expression(f"{key}.expr", spec["expr"])
-            self.same_dimension(f"{key}.expr", expr, unit)
-            actual = spec.get("actual")
-            if actual is not None:
-                self.metric(f"{key}.actual", actual, unit)
-                if "range" not in spec:
-                    raise self.fail(
-                        f"{key}.range",
-                        "a parameter measured on the skid log needs a range",
-                        None,
-                        "relative, low or high",
-                    )
-            # A range may name the parameter's own planned value as "plan".
-            self.kinds["plan"] = kind
-            try:
-                rng = (
-                    self.range(f"{key}.range", spec["range"], unit, kind)
-                    if "range" in spec
-                    else None
-                )
-            finally:
-                del self.kinds["plan"]
-            self.kinds[self.name(key, name)] = kind
-            out.append(
-                Parameter(
-                    name=name,
-                    title=self.text(f"{key}.title", spec["title"]),
-                    expr=expr,
-                    unit=unit,
-                    kind=kind,
-                    phase=spec.get("phase"),
-                    actual=actual,
-                    range=rng,
-                )
-            )
-        return out
+            self.note("parameters", "expected at least one planned parameter")
+            return [], []
+        drafts = [d for name, spec in raw.items() if (d := self.draft(name, spec)) is not None]
+        out: list[Parameter] = []
+        uses: dict[str, set[str]] = {}
+        for d in drafts:
+            got, used = self.finish(d)
+            uses[d.name] = used
+            if got is not None:
+                out.append(got)
+        order, cycles = evaluation_order(uses)
+        for group in cycles:
+            self.problems.append(self.cycle(group, uses))
+        return out, order
 
-    def metric(self, key: str, metric: Any, unit: str) -> None:
+    def draft(self, name: str, raw: Any) -> _Draft | None:
+        key = f"parameters.{name}"
+        with self.collect():
+            self.name(key, name)
+        spec = self.table(key, raw, _PARAMETER_KEYS, {"title", "expr", "unit"})
+        if spec is None:
+            self.declare(name, None, known=False)
+            return None
+        d = _Draft(name, key, spec)
+        unit = spec.get("unit")
+        if "unit" in spec and not isinstance(unit, str):
+            self.note(f"{key}.unit", f"expected a unit as text, got {unit!r}", unit)
+        elif isinstance(unit, str):
+            with self.collect():
+                d.kind = self.kind_of_unit(f"{key}.unit", unit)
+                d.unit = unit
+        self.declare(name, d.kind, known=d.unit is not None)
+        if "expr" in spec:
+            with self.collect():
+                d.expr = self.compiled(f"{key}.expr", spec["expr"])
+        if "title" in spec:
+            with self.collect():
+                d.title = self.text(f"{key}.title", spec["title"])
+        actual = spec.get("actual")
+        if actual is not None:
+            with self.collect():
+                self.metric(f"{key}.actual", actual, d.unit)
+            if "range" not in spec:
+                self.note(f"{key}.range", "a parameter measured on the skid log needs a range",
+                          None, "relative, low or high")  # fmt: skip
+        if spec.get("phase") is not None:
+            self.phases.append((f"{key}.phase", spec["phase"]))
+        return d
+
+    def finish(self, d: _Draft) -> tuple[Parameter | None, set[str]]:
+        """The parameter, and the names its expression and its range read."""
+        used: set[str] = set()
+        before = len(self.problems)
+        if d.expr is not None:
+            used |= d.expr.names
+            with self.collect():
+                self.check_names(f"{d.key}.expr", d.expr)
+                if d.unit is not None:
+                    self.same_dimension(f"{d.key}.expr", d.expr, d.unit)
+        rng = None
+        if "range" in d.spec:
+            rng, bound_names = self.range(f"{d.key}.range", d.spec["range"], d)
+            used |= bound_names - {PLAN}
+        if len(self.problems) > before or d.expr is None or d.unit is None or d.title is None:
+            return None, used
+        return (
+            Parameter(
+                name=d.name,
+                title=d.title,
+                expr=d.expr,
+                unit=d.unit,
+                kind=d.kind,
+                phase=d.spec.get("phase"),
+                actual=d.spec.get("actual"),
+                range=rng,
+            ),
+            used,
+        )
+
+    def cycle(self, group: list[str], uses: Mapping[str, set[str]]) -> InputError:
+        first = group[0]
+        if len(group) == 1:
+            why = f"{first} uses itself, so it can never be computed"
+        else:
+            where = ", ".join(
+                f"{n} (line {line})" if (line := self.lines.find(f"parameters.{n}.expr")) else n
+                for n in group
+            )
+            edges = "; ".join(
+                f"{n} uses {', '.join(u for u in group if u in uses[n])}" for n in group
+            )
+            why = (
+                f"the parameters {where} depend on each other in a cycle ({edges}), "
+                "so none of them can be computed"
+            )
+        return self.fail(
+            f"parameters.{first}.expr", why, group,
+            "expressions that do not come back to themselves through other parameters",
+        )  # fmt: skip
+
+    def metric(self, key: str, metric: Any, unit: str | None) -> None:
         if not isinstance(metric, str):
             raise self.fail(key, f"expected a metric name, got {metric!r}")
         channel, _, stat = metric.partition(".")
@@ -500,6 +828,8 @@ class _Reader:
             kind = CHANNELS[channel]
         else:
             raise self.fail(key, f"unknown metric {metric!r}", metric, "one of " + ", ".join(known))
+        if unit is None:
+            return  # the unit's own mistake is noted
         ureg = units.registry()
         si = units.KINDS[kind].si if kind else ""
         want = ureg.Quantity(1.0, si) if si else ureg.Quantity(1.0)
@@ -511,64 +841,135 @@ class _Reader:
                 metric,
             )
 
-    def range(self, key: str, raw: Any, unit: str, kind: str | None) -> AcceptanceRange:
+    def range(self, key: str, raw: Any, d: _Draft) -> tuple[AcceptanceRange | None, set[str]]:
+        """The range and the names its bounds read; None with each mistake noted."""
         spec = self.table(key, raw, {"relative", "low", "high"}, set())
+        if spec is None:
+            return None, set()
         if "relative" in spec:
             if set(spec) != {"relative"}:
-                raise self.fail(key, "give either relative or low/high, not both")
-            rel = self.quantity(f"{key}.relative", str(spec["relative"]), "fraction")
+                self.note(key, "give either relative or low/high, not both")
+                return None, set()
+            try:
+                rel = self.quantity(f"{key}.relative", str(spec["relative"]), "fraction")
+            except InputError as exc:
+                self.problems.append(exc)
+                return None, set()
             if not 0 < rel < 1:
-                raise self.fail(
-                    f"{key}.relative",
-                    f"{spec['relative']!r} is out of range",
-                    spec["relative"],
-                    "a fraction between 0 and 100 %",
-                )
-            return AcceptanceRange(relative=rel)
+                self.note(f"{key}.relative", f"{spec['relative']!r} is out of range",
+                          spec["relative"], "a fraction between 0 and 100 %")  # fmt: skip
+                return None, set()
+            return AcceptanceRange(relative=rel), set()
         if not spec:
-            raise self.fail(key, "an empty range", None, "relative, low or high")
-        return AcceptanceRange(
-            low=self.bound(f"{key}.low", spec["low"], unit, kind) if "low" in spec else None,
-            high=self.bound(f"{key}.high", spec["high"], unit, kind) if "high" in spec else None,
-        )
+            self.note(key, "an empty range", None, "relative, low or high")
+            return None, set()
+        ends: dict[str, Bound] = {}
+        names: set[str] = set()
+        for end in ("low", "high"):
+            if end not in spec:
+                continue
+            try:
+                ends[end] = self.bound(f"{key}.{end}", spec[end], d)
+            except InputError as exc:
+                self.problems.append(exc)
+                continue
+            expr = ends[end].expr
+            names |= expr.names if expr is not None else set()
+        if set(ends) != {"low", "high"} & set(spec):
+            return None, names
+        return AcceptanceRange(low=ends.get("low"), high=ends.get("high")), names
 
-    def bound(self, key: str, raw: Any, unit: str, kind: str | None) -> Bound:
-        text = str(raw)
-        if isinstance(raw, int | float) or _QUANTITY.match(text):
-            if isinstance(raw, int | float) and kind is not None:
+    def bound(self, key: str, raw: Any, d: _Draft) -> Bound:
+        """A quantity or an expression, decided by parsing: text that reads a known name
+        (``plan``, an input, a module fact, a parameter) or calls a function is an
+        expression; any other text must be a quantity of the parameter's kind."""
+        unit = d.unit or ""
+        shown = unit or "a plain number"
+        expected = f"a quantity in {shown}, or an expression of {PLAN}, inputs, module facts " \
+                   "and parameters"  # fmt: skip
+        if isinstance(raw, bool) or not isinstance(raw, int | float | str):
+            raise self.fail(
+                key, f"expected a quantity or an expression, got {raw!r}", raw, expected
+            )
+        if isinstance(raw, int | float):
+            if d.kind is not None and d.unit is not None:
                 raise self.fail(key, f"{raw!r} has no unit", raw, f"a quantity in {unit}")
-            return Bound(text, None, self.quantity(key, text, kind or "number"))
-        expr = self.expression(key, text)
-        self.same_dimension(key, expr, unit)
-        return Bound(text, expr)
+            return Bound(str(raw), None, float(raw))
+        expr: Expr | None = None
+        try:
+            expr = compile_expr(raw, where=key)
+            not_expression = ""
+        except ExpressionError as exc:
+            why = exc.message.removeprefix(f"{key}: {raw!r}")
+            syntax = re.fullmatch(r" is not a valid expression \((.*)\)", why)
+            not_expression = syntax.group(1) if syntax else why.removeprefix(": ")
+        if expr is not None and (expr.names & (set(self.kinds) | {PLAN}) or expr.functions):
+            self.check_names(key, expr, own=d.name)
+            if d.unit is not None:
+                self.kinds[PLAN] = d.kind
+                try:
+                    self.same_dimension(key, expr, d.unit)
+                finally:
+                    del self.kinds[PLAN]
+            return Bound(raw, expr)
+        if d.unit is None:
+            return Bound(raw, None)  # no kind to read a quantity in: the unit's mistake is noted
+        try:
+            return Bound(raw, None, self.quantity(key, raw, d.kind or "number"))
+        except InputError as exc:
+            not_quantity = exc.message.removeprefix(f"{key}: ").split("; expected")[0]
+        if expr is not None and expr.names:
+            unknown = sorted(expr.names)
+            not_expression = f"unknown name{'s' if len(unknown) > 1 else ''} {_names(unknown)}"
+        elif expr is not None:
+            not_expression = f"it names no input, module fact, parameter or {PLAN}"
+        raise self.fail(
+            key,
+            f"{raw!r} is neither a quantity in {shown} ({not_quantity}) "
+            f"nor an expression ({not_expression})",
+            raw,
+            expected,
+        )
 
     def steps(self, raw: Any) -> list[Step]:
         if not isinstance(raw, list) or not raw:
-            raise self.fail("steps", "expected a list of steps ([[steps]])")
+            self.note("steps", "expected a list of steps ([[steps]])")
+            return []
         out: list[Step] = []
         seen: set[str] = set()
         for i, spec in enumerate(raw, start=1):
             key = f"steps[{i}]"
-            self.table(
-                key,
-                spec,
-                {"operation", "phase", "title", "signatures", "text"},
-                {"operation", "phase", "title", "signatures", "text"},
-            )
-            phase = self.text(f"{key}.phase", spec["phase"])
-            if phase in seen:
-                raise self.fail(f"{key}.phase", f"the phase {phase!r} appears twice", phase)
-            seen.add(phase)
-            out.append(
-                Step(
-                    operation=self.text(f"{key}.operation", spec["operation"]),
-                    phase=phase,
-                    title=self.text(f"{key}.title", spec["title"]),
-                    signatures=self.meanings(f"{key}.signatures", spec["signatures"]),
-                    text=self.text(f"{key}.text", spec["text"]),
-                )
-            )
+            allowed = {"operation", "phase", "title", "signatures", "text"}
+            if self.table(key, spec, allowed, allowed) is None:
+                continue
+            before = len(self.problems)
+            got: dict[str, Any] = {}
+            for name in ("operation", "phase", "title", "text"):
+                if name in spec:
+                    with self.collect():
+                        got[name] = self.text(f"{key}.{name}", spec[name])
+            if "text" in got:
+                with self.collect():
+                    self.check_step_text(f"{key}.text", got["text"])
+            if "signatures" in spec:
+                with self.collect():
+                    got["signatures"] = self.meanings(f"{key}.signatures", spec["signatures"])
+            phase = got.get("phase")
+            if phase is not None and phase in seen:
+                self.note(f"{key}.phase", f"the phase {phase!r} appears twice", phase)
+            if phase is not None:
+                seen.add(phase)
+                self.step_phases.add(phase)
+            if len(self.problems) == before:
+                out.append(Step(**got))
         return out
+
+    def check_phases(self) -> None:
+        phases = self.step_phases
+        for key, phase in self.phases:
+            if phase not in phases:
+                self.note(key, f"unknown phase {phase!r}", phase,
+                          f"one of the steps' phases: {', '.join(sorted(phases))}")  # fmt: skip
 
     def meanings(self, key: str, raw: Any) -> tuple[str, ...]:
         if not isinstance(raw, list) or not raw:
@@ -585,95 +986,83 @@ class _Reader:
             raise self.fail(key, f"meanings out of order {raw}", raw, " -> ".join(MEANINGS))
         return tuple(raw)
 
-    def check_step_texts(
-        self, steps: list[Step], inputs: dict[str, Input], parameters: list[Parameter]
-    ) -> None:
+    def check_step_text(self, key: str, text: str) -> None:
+        """The step text is Jinja2 that names only inputs, parameters, module facts, module
+        and run (every name of the file is known by the time steps are read)."""
         from jinja2 import TemplateSyntaxError, meta
         from jinja2.sandbox import SandboxedEnvironment
 
-        env = SandboxedEnvironment()
-        known = {*inputs, *(p.name for p in parameters), *MODULE_NAMES, "module", "run"}
-        for i, step in enumerate(steps, start=1):
-            key = f"steps[{i}].text"
-            try:
-                ast_ = env.parse(step.text)
-            except TemplateSyntaxError as exc:
-                raise self.fail(
-                    key, f"Jinja2 syntax error on line {exc.lineno}: {exc.message}"
-                ) from None
-            unknown = sorted(meta.find_undeclared_variables(ast_) - known)
-            if unknown:
-                raise self.fail(
-                    key,
-                    f"unknown name {unknown[0]!r} in the step text",
-                    unknown[0],
-                    "an input or a parameter",
-                )
+        try:
+            tree = SandboxedEnvironment().parse(text)
+        except TemplateSyntaxError as exc:
+            raise self.fail(
+                key, f"Jinja2 syntax error on line {exc.lineno}: {exc.message}"
+            ) from None
+        unknown = sorted(meta.find_undeclared_variables(tree) - {*self.kinds, "module", "run"})
+        if unknown:
+            raise self.fail(
+                key,
+                f"unknown name{'s' if len(unknown) > 1 else ''} {_names(unknown)} in the step text",
+                unknown[0],
+                "an input or a parameter",
+            )
 
     def qc(self, raw: Any) -> list[QcAttribute]:
-        out = []
-        self.table("qc", raw, set(raw) if isinstance(raw, dict) else set(), set())
+        out: list[QcAttribute] = []
+        if self.table("qc", raw, set(raw) if isinstance(raw, dict) else set(), set()) is None:
+            return out
         for name, spec in raw.items():
             key = f"qc.{name}"
-            self.table(key, spec, {"title", "unit", "low", "high", "method"}, {"title", "unit"})
-            unit = spec["unit"]
-            kind = self.kind_of_unit(f"{key}.unit", unit)
+            before = len(self.problems)
+            if self.table(key, spec, {"title", "unit", "low", "high", "method"},
+                          {"title", "unit"}) is None:  # fmt: skip
+                continue
+            unit = spec.get("unit", "")
+            kind: str | None = None
+            if not isinstance(unit, str):
+                self.note(f"{key}.unit", f"expected a unit as text, got {unit!r}", unit)
+                continue
+            with self.collect():
+                kind = self.kind_of_unit(f"{key}.unit", unit)
+            if len(self.problems) > before:
+                continue
             if "low" not in spec and "high" not in spec:
-                raise self.fail(key, "a QC attribute needs a specification (low, high or both)")
-            low = (
-                self.quantity(
-                    f"{key}.low",
-                    str(spec["low"]),
-                    kind or ("fraction" if unit.strip() == "percent" else "number"),
-                )
-                if "low" in spec
-                else None
-            )
-            high = (
-                self.quantity(
-                    f"{key}.high",
-                    str(spec["high"]),
-                    kind or ("fraction" if unit.strip() == "percent" else "number"),
-                )
-                if "high" in spec
-                else None
-            )
+                self.note(key, "a QC attribute needs a specification (low, high or both)")
+            spec_kind = kind or ("fraction" if unit.strip() == "percent" else "number")
+            ends: dict[str, float] = {}
+            for end in ("low", "high"):
+                if end in spec:
+                    with self.collect():
+                        ends[end] = self.quantity(f"{key}.{end}", str(spec[end]), spec_kind)
+            low, high = ends.get("low"), ends.get("high")
             if low is not None and high is not None and low > high:
-                raise self.fail(key, "low is above high", (spec["low"], spec["high"]))
-            out.append(
-                QcAttribute(
-                    name,
-                    self.text(f"{key}.title", spec["title"]),
-                    unit,
-                    kind,
-                    low,
-                    high,
-                    spec.get("method"),
-                )
-            )
+                self.note(key, "low is above high", (spec["low"], spec["high"]))
+            title = None
+            if "title" in spec:
+                with self.collect():
+                    title = self.text(f"{key}.title", spec["title"])
+            if len(self.problems) == before and title is not None:
+                out.append(QcAttribute(name, title, unit, kind, low, high, spec.get("method")))
         return out
 
     def optimum(self, raw: Any) -> Optimum | None:
         if raw is None:
             return None
-        spec = self.table(
-            "optimum",
-            raw,
-            {"concentration", "mass", "diavolumes"},
-            {"concentration", "mass", "diavolumes"},
-        )
+        keys = {"concentration", "mass", "diavolumes"}
+        before = len(self.problems)
+        spec = self.table("optimum", raw, keys, keys)
+        if spec is None:
+            return None
         want = {"concentration": "concentration", "mass": "mass", "diavolumes": None}
         for k, kind in want.items():
-            name = spec[k]
+            name = spec.get(k)
+            if k not in spec or name in self.vague:
+                continue
             if name not in self.kinds:
-                raise self.fail(
-                    f"optimum.{k}", f"unknown name {name!r}", name, "an input or a parameter"
-                )
-            if self.kinds[name] != kind:
-                raise self.fail(
-                    f"optimum.{k}",
-                    f"{name!r} is a {self.kinds[name] or 'plain number'}",
-                    name,
-                    f"a {kind or 'plain number'}",
-                )
+                self.note(f"optimum.{k}", f"unknown name {name!r}", name, "an input or a parameter")
+            elif self.kinds[name] != kind:
+                self.note(f"optimum.{k}", f"{name!r} is a {self.kinds[name] or 'plain number'}",
+                          name, f"a {kind or 'plain number'}")  # fmt: skip
+        if len(self.problems) > before:
+            return None
         return Optimum(spec["concentration"], spec["mass"], spec["diavolumes"])

@@ -273,7 +273,8 @@ def log_removal_value(
             volumetric_concentration_factor,
             "a value of 1 or more",
         )
-    return math.log10(qp * ratio / (vcf * q_air))
+    # a sum of logarithms: the product of two small positive inputs could underflow to 0
+    return math.log10(qp) + math.log10(ratio) - math.log10(vcf) - math.log10(q_air)
 
 
 def _cos_wetting(contact_angle_rad: float) -> float:

@@ -9,7 +9,6 @@ breaks either a record hash, the chain, or the link between a record and its las
 from __future__ import annotations
 
 import hashlib
-import json
 from dataclasses import dataclass
 from datetime import UTC, date, datetime
 from typing import Any, TypeVar
@@ -17,6 +16,7 @@ from typing import Any, TypeVar
 from sqlalchemy import Float
 from sqlmodel import Session, select
 
+from ledger.canonical import canonical
 from ledger.store.tables import RECORDS, AuditEvent, AuditHead, Recorded, entity_of, primary_key
 from ledger.store.types import utc_now
 
@@ -33,13 +33,6 @@ def _encode(value: Any) -> Any:
     if isinstance(value, date):
         return value.isoformat()
     return value
-
-
-def canonical(obj: Any) -> str:
-    """Canonical JSON: sorted keys, no spaces, NaN refused (hash input and audit values)."""
-    return json.dumps(
-        obj, sort_keys=True, separators=(",", ":"), ensure_ascii=False, allow_nan=False
-    )
 
 
 def _values(table: Any, excluded: frozenset[str], get: Any) -> dict[str, Any]:

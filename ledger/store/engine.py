@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import os
-import re
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
@@ -13,10 +12,16 @@ from sqlalchemy import Engine, create_engine, event
 from sqlmodel import Session
 
 from ledger.errors import InputError
+from ledger.secrets import mask_secrets
 
 ENV_URL = "FLUXLEDGER_DATABASE_URL"
 DEFAULT_PATH = "fluxledger.db"
 BUSY_TIMEOUT_MS = 10_000
+# The URL schemes fluxledger runs on (psycopg 3 is the one PostgreSQL driver it ships with).
+SCHEMES = ("sqlite", "sqlite+pysqlite", "postgresql", "postgresql+psycopg")
+SUPPORTED = "a file path, sqlite:///PATH, or postgresql://USER@HOST/DB"
+# A new database file is readable by its owner only: it holds names and password hashes.
+FILE_MODE = 0o600
 
 
 def resolve_url(db: str | None = None) -> str:
@@ -31,8 +36,47 @@ def resolve_url(db: str | None = None) -> str:
 
 
 def masked(url: str) -> str:
-    """The URL with any password replaced by ***, for messages."""
-    return re.sub(r"(://[^/:@]*:)[^@/]*@", r"\1***@", url)
+    """The URL with any password (userinfo or parameter) replaced by ***, for messages."""
+    return mask_secrets(url)
+
+
+def check_scheme(url: str) -> str:
+    """``url`` if fluxledger can run on its scheme; else InputError naming --db and $ENV."""
+    scheme = url.split("://", 1)[0].lower() if "://" in url else ""
+    if scheme not in SCHEMES:
+        shown = masked(url)
+        raise InputError(
+            f"--db / ${ENV_URL}: {shown!r} is not a database URL fluxledger can use: the "
+            f"scheme {scheme!r} is not supported; supported schemes: sqlite, postgresql "
+            f"({SUPPORTED})",
+            field="db",
+            value=shown,
+            expected=SUPPORTED,
+        )
+    return url
+
+
+def unique_violation(exc: Exception, table: str, column: str) -> bool:
+    """True when the IntegrityError ``exc`` broke the unique constraint on ``table.column``
+    (psycopg: SQLSTATE 23505 naming the key; sqlite3: "UNIQUE constraint failed: t.c")."""
+    orig = getattr(exc, "orig", None)
+    sqlstate = getattr(orig, "sqlstate", None)
+    if sqlstate is not None:
+        diag = getattr(orig, "diag", None)
+        detail = f"{getattr(diag, 'message_detail', '')} {getattr(diag, 'constraint_name', '')}"
+        return bool(sqlstate == "23505" and column in detail)
+    return f"UNIQUE constraint failed: {table}.{column}" in str(orig)
+
+
+def _create_private(path: Path) -> None:
+    """Create an empty SQLite file readable by its owner only (SQLite gives its -wal and -shm
+    files the database file's permissions)."""
+    try:
+        fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, FILE_MODE)
+    except FileExistsError:
+        return
+    os.close(fd)
+    os.chmod(path, FILE_MODE)  # whatever the umask took away, nothing more is granted
 
 
 def sqlite_path(url: str) -> Path | None:
@@ -63,6 +107,7 @@ def _sqlite_setup(engine: Engine) -> None:
 
 def connect(url: str, *, create: bool = False) -> Engine:
     """An engine for ``url``. An SQLite file must exist unless ``create`` (init) is asked."""
+    check_scheme(url)
     path = sqlite_path(url)
     if path is not None and not create and not path.exists():
         raise InputError(
@@ -74,20 +119,28 @@ def connect(url: str, *, create: bool = False) -> Engine:
         )
     if path is not None and create:
         path.parent.mkdir(parents=True, exist_ok=True)
+        _create_private(path)
     from sqlalchemy.exc import ArgumentError, NoSuchModuleError
 
     try:
         engine = create_engine(url)
-    except (ArgumentError, NoSuchModuleError) as exc:
+    except (ArgumentError, NoSuchModuleError, ImportError, ValueError) as exc:
+        shown = masked(url)
         raise InputError(
-            f"{masked(url)!r} is not a database URL fluxledger can use ({exc})",
+            f"--db / ${ENV_URL}: {shown!r} is not a database URL fluxledger can use "
+            f"({mask_secrets(str(exc))})",
             field="db",
-            value=masked(url),
-            expected="a file path, sqlite:///PATH or postgresql://USER@HOST/DB",
+            value=shown,
+            expected=SUPPORTED,
         ) from None
     if engine.dialect.name == "sqlite":
         _sqlite_setup(engine)
     return engine
+
+
+def shown_url(engine: Engine) -> str:
+    """The engine's URL as messages show it: password and secret parameters masked."""
+    return masked(engine.url.render_as_string(hide_password=True))
 
 
 @contextmanager

@@ -8,6 +8,8 @@ from typing import Any
 from sqlalchemy import Engine, inspect, text
 
 from ledger.errors import InputError, RefusedError
+from ledger.secrets import mask_secrets
+from ledger.store.engine import shown_url
 
 # The Alembic head this software expects; tests assert it equals the newest revision file.
 REVISION = "0003"
@@ -51,8 +53,9 @@ def stored_revision(engine: Engine) -> str | None:
             row = conn.execute(text("SELECT version_num FROM alembic_version")).first()
             return None if row is None else str(row[0])
     except (DatabaseError, InterfaceError) as exc:
-        where = engine.url.render_as_string(hide_password=True)
+        where = shown_url(engine)
         reason = str(exc.orig).strip().splitlines()[0] if exc.orig else type(exc).__name__
+        reason = mask_secrets(reason)
         raise InputError(
             f"cannot open the database {where}: {reason}",
             field="db",
@@ -64,7 +67,7 @@ def stored_revision(engine: Engine) -> str | None:
 def require_current(engine: Engine) -> None:
     """Refuse to work on a database whose schema is missing, older or unknown."""
     found = stored_revision(engine)
-    where = engine.url.render_as_string(hide_password=True)
+    where = shown_url(engine)
     if found == REVISION:
         return
     if found is None:

@@ -8,9 +8,8 @@ from dataclasses import dataclass
 from typing import Any
 
 import pytest
-from typer.testing import CliRunner
 
-from ledger.cli.main import app
+from tests.world import invoke
 
 
 @dataclass
@@ -24,14 +23,13 @@ class Outcome:
         return json.loads(self.stdout)
 
 
+def run(*args: str, input: str | None = None, env: dict[str, str] | None = None) -> Outcome:
+    """One invocation of the cached click command (tests.world.invoke)."""
+    r = invoke(list(args), input=input, env=env)
+    # A SystemExit is how typer reports exit codes; anything else escaped as a traceback.
+    return Outcome(r.code, r.stdout, r.stderr, r.exception)
+
+
 @pytest.fixture
 def cli() -> Callable[..., Outcome]:
-    runner = CliRunner()
-
-    def run(*args: str, input: str | None = None, env: dict[str, str] | None = None) -> Outcome:
-        result = runner.invoke(app, list(args), input=input, env=env)
-        # A SystemExit is how typer reports exit codes; anything else escaped as a traceback.
-        exc = result.exception if not isinstance(result.exception, SystemExit) else None
-        return Outcome(result.exit_code, result.stdout, result.stderr, exc)
-
     return run

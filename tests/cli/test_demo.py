@@ -2,35 +2,38 @@
 
 from __future__ import annotations
 
+import gc
 import json
-from collections.abc import Callable
+import shutil
+from collections.abc import Callable, Iterator
 from pathlib import Path
 
 import pytest
 
 from tests.cli.conftest import Outcome
+from tests.world import cheap_hashes, invoke, one_click_command
 
 Run = Callable[..., Outcome]
+
+
+@pytest.fixture(scope="module", autouse=True)
+def _one_click_command() -> Iterator[None]:
+    """The demo runs each of its steps in-process; build the click command once for them."""
+    with one_click_command():
+        yield
 
 
 @pytest.fixture(scope="module")
 def demo(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, dict]:  # type: ignore[type-arg]
     """One demo run shared by the tests that only read what it wrote (folder, --json output)."""
-    from argon2 import PasswordHasher
-    from typer.testing import CliRunner
-
-    import ledger.logbook.auth as auth
-    from ledger.cli.main import app
-
     folder = tmp_path_factory.mktemp("demo")
-    cheap = PasswordHasher(time_cost=1, memory_cost=64, parallelism=1)
-    with pytest.MonkeyPatch.context() as mp:
-        mp.setattr(auth, "_hasher", lambda: cheap)
-        result = CliRunner().invoke(app, ["demo", "--out", str(folder), "--json"])
-    assert result.exit_code == 0, result.stderr
+    with cheap_hashes():
+        result = invoke(["demo", "--out", str(folder), "--json"])
+    assert result.code == 0, result.stderr
     return folder, json.loads(result.stdout)
 
 
+@pytest.mark.slow
 def test_demo_writes_every_step(demo: tuple[Path, dict]) -> None:  # type: ignore[type-arg]
     tmp_path, summary = demo
     assert len(summary["steps"]) == 10
@@ -44,6 +47,7 @@ def test_demo_writes_every_step(demo: tuple[Path, dict]) -> None:  # type: ignor
     assert "invented" in text and "validated procedures" in text
 
 
+@pytest.mark.slow
 def test_demo_human_output_lists_files(cli: Run, tmp_path: Path) -> None:
     out = cli("demo", "--out", str(tmp_path))
     assert out.code == 0
@@ -85,9 +89,17 @@ def test_demo_builds_the_logbook_and_its_verdicts(
     assert cli("audit", "verify", "--db", str(tmp_path / "fluxledger.db")).code == 0
 
 
-def test_demo_runs_twice_into_the_same_folder(cli: Run, tmp_path: Path) -> None:
-    assert cli("demo", "--out", str(tmp_path), "--json").code == 0
-    again = cli("demo", "--out", str(tmp_path), "--json")
+@pytest.mark.slow
+def test_demo_runs_twice_into_the_same_folder(
+    cli: Run,
+    demo: tuple[Path, dict],  # type: ignore[type-arg]
+    tmp_path: Path,
+) -> None:
+    """The first run is the shared one (its exit code is checked in the fixture); the second
+    goes into a copy of the folder it wrote."""
+    gc.collect()  # the first run's engines, so its database files are whole on disk
+    shutil.copytree(demo[0], tmp_path / "out")
+    again = cli("demo", "--out", str(tmp_path / "out"), "--json")
     assert again.code == 0, again.stderr
 
 
@@ -140,3 +152,44 @@ def test_demo_writes_signed_and_sealed_records_the_readme_can_verify(
         args = shlex.split(line.replace("demo-output/", f"{tmp_path}/"))[1:]
         result = cli(*args)
         assert result.code == 0, (line, result.stdout, result.stderr)
+
+
+def test_demo_refuses_a_folder_holding_a_real_logbook(cli: Run, tmp_path: Path) -> None:
+    """`demo --out .` in someone's work folder must not replace their fluxledger.db."""
+    theirs = tmp_path / "fluxledger.db"
+    theirs.write_bytes(b"SQLite format 3\x00 their real logbook")
+    (tmp_path / "notes.txt").write_text("mine\n")
+    out = cli("demo", "--out", str(tmp_path))
+    assert out.code == 2 and out.exception is None
+    assert out.stderr.startswith("error: --out: ") and out.stderr.count("\n") == 1
+    assert "holds files the demo did not write ('fluxledger.db', 'notes.txt')" in out.stderr
+    assert theirs.read_bytes() == b"SQLite format 3\x00 their real logbook"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["fluxledger.db", "notes.txt"]
+
+
+def test_demo_refuses_its_own_folder_once_other_files_were_added(
+    cli: Run,
+    demo: tuple[Path, dict],  # type: ignore[type-arg]
+    tmp_path: Path,
+) -> None:
+    import shutil
+
+    earlier, _ = demo
+    folder = tmp_path / "demo-copy"
+    shutil.copytree(earlier, folder)
+    marker = json.loads((folder / ".fluxledger-demo").read_text())
+    assert "fluxledger.db" in marker["files"] and "BR-000001-rev1.pdf" in marker["files"]
+    (folder / "my-own-report.pdf").write_bytes(b"%PDF-1.7 mine")
+    before = {p.name: p.stat().st_mtime_ns for p in folder.iterdir()}
+    out = cli("demo", "--out", str(folder))
+    assert out.code == 2 and "'my-own-report.pdf'" in out.stderr
+    assert "fluxledger.db" not in out.stderr.split("did not write")[1]
+    assert {p.name: p.stat().st_mtime_ns for p in folder.iterdir()} == before
+
+
+def test_demo_refuses_a_file_as_its_folder(cli: Run, tmp_path: Path) -> None:
+    target = tmp_path / "fluxledger.db"
+    target.write_text("not a folder")
+    out = cli("demo", "--out", str(target))
+    assert out.code == 2 and "is a file, not a folder" in out.stderr
+    assert target.read_text() == "not a folder"

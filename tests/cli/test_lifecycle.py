@@ -1,10 +1,13 @@
-"""The whole module lifecycle through the CLI, on SQLite and (in CI) on PostgreSQL."""
+"""The whole module lifecycle through the CLI (on SQLite: the database is not the subject)."""
 
 from __future__ import annotations
 
 import pytest
 
 from tests.world import SAMPLES, World
+
+# Not about the database itself: SQLite only (tests/store covers PostgreSQL).
+pytestmark = pytest.mark.sqlite_only
 
 
 def test_commissioning_needs_baseline_and_integrity(world: World) -> None:

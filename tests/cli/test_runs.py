@@ -10,6 +10,10 @@ import pytest
 
 from tests.world import SAMPLES, World
 
+# Not about the database itself: SQLite only (tests/store covers PostgreSQL).
+pytestmark = pytest.mark.sqlite_only
+
+
 INPUTS = [
     "--input", "initial_volume=1.2 L", "--input", "initial_concentration=0.5 g/L",
     "--input", "df_concentration=2 g/L", "--input", "target_concentration=6 g/L",
@@ -37,7 +41,7 @@ def test_plan_prints_every_planned_parameter(world: World) -> None:
     feed = next(r for r in out["plan"] if r["name"] == "feed_flow")
     assert feed["planned"]["unit"] == "mL/min"
     assert feed["planned"]["value"] == pytest.approx(353.43, rel=1e-4)
-    assert out["run_1"]["template"] == "QB-MR-LNP-101 v5"
+    assert out["run_1"]["template"] == "QB-MR-LNP-101 v6"
     assert len(out["run_1"]["template_sha256"]) == 64
     assert any("validated procedures" in n for n in out["notes"])
 

@@ -5,9 +5,8 @@ from __future__ import annotations
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from typer.testing import CliRunner
 
-from ledger.cli.main import app
+from tests.world import invoke
 
 PRESSURE = [("psi", 1 / 6894.757293168), ("bar", 1e-5), ("kPa", 1e-3), ("mbar", 1e-2)]
 FLOW = [("mL/min", 6e7), ("L/h", 3.6e6), ("L/min", 6e4), ("m^3/s", 1.0)]
@@ -25,8 +24,8 @@ def temperature(kelvin: float, scale: str) -> str:
 
 
 def nwp_json(args: list[str]) -> float:
-    result = CliRunner().invoke(app, ["calc", "nwp", *args, "--json"])
-    assert result.exit_code == 0, result.stderr
+    result = invoke(["calc", "nwp", *args, "--json"])
+    assert result.code == 0, result.stderr
     import json
 
     return float(json.loads(result.stdout)["results"]["nwp"]["value"])
@@ -62,10 +61,10 @@ def test_shear_same_in_any_units(d_unit: tuple[str, float], q_unit: tuple[str, f
     import json
 
     def gamma(d: str, q: str) -> float:
-        result = CliRunner().invoke(
-            app, ["calc", "shear", "--fibers", "50", "--lumen-id", d, "--feed-flow", q, "--json"]
+        result = invoke(
+            ["calc", "shear", "--fibers", "50", "--lumen-id", d, "--feed-flow", q, "--json"]
         )
-        assert result.exit_code == 0, result.stderr
+        assert result.code == 0, result.stderr
         return float(json.loads(result.stdout)["results"]["wall_shear_rate"]["value"])
 
     base = gamma(typed(0.7e-3, LENGTH[0]), typed(2e-6, FLOW[0]))

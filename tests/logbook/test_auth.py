@@ -23,6 +23,7 @@ def test_passwords_are_salted_argon2id_with_production_cost() -> None:
     assert not auth._matches(first, "operator-pass-2")
 
 
+@pytest.mark.sqlite_only
 def test_init_makes_the_first_user_an_administrator(world: World) -> None:
     users = world.cli("user", "list", "--json").json()["users"]
     assert users[0]["login"] == "sysadm" and users[0]["role"] == "admin"
@@ -42,6 +43,7 @@ def test_init_on_a_new_database_needs_an_administrator(tmp_path: object) -> None
     assert "administrator" not in third.json()["database"]
 
 
+@pytest.mark.sqlite_only
 def test_short_password_is_refused(world: World) -> None:
     out = world.as_user(
         "sysadm",
@@ -57,6 +59,7 @@ def test_short_password_is_refused(world: World) -> None:
     assert out.code == 2 and "at least 8 characters" in out.stderr
 
 
+@pytest.mark.sqlite_only
 def test_administrator_cannot_record_or_sign(world: World) -> None:
     world.ready()
     world.ok(world.integrity(end="13 psi"))  # fails: on hold
@@ -68,6 +71,7 @@ def test_administrator_cannot_record_or_sign(world: World) -> None:
     assert out.code == 3
 
 
+@pytest.mark.sqlite_only
 def test_only_administrators_manage_users(world: World) -> None:
     out = world.as_user(
         "eng.ray",
@@ -85,6 +89,7 @@ def test_only_administrators_manage_users(world: World) -> None:
     assert out.code == 3
 
 
+@pytest.mark.sqlite_only
 def test_ids_are_never_reused(world: World) -> None:
     world.ok(world.as_user("sysadm", "user", "disable", "op.kim", "--reason", "left the site"))
     again = world.as_user(
@@ -151,6 +156,7 @@ def test_lockout_after_repeated_failures_is_audited_and_reset_by_admin(world: Wo
     assert out.code == 0
 
 
+@pytest.mark.sqlite_only
 def test_a_right_password_resets_the_failure_count(world: World) -> None:
     wrong = [
         "module",
@@ -168,6 +174,7 @@ def test_a_right_password_resets_the_failure_count(world: World) -> None:
     assert "4 attempts left" in out.stderr  # default threshold 5: the count started again
 
 
+@pytest.mark.sqlite_only
 def test_users_change_their_own_password(world: World) -> None:
     world.ok(world.as_user("op.kim", "user", "passwd", "op.kim", extra=["operator-pass-8"]))
     old = world.as_user("op.kim", "module", "add", "QMB-0150", "--type", "HF-750")

@@ -108,7 +108,97 @@ CASES: dict[str, tuple[Case, int, str]] = {
         3, "may not define module types"),
 }  # fmt: skip
 
+ESC = "\x1b[2J\x1b[31m"  # clear the screen, then print in red
 
+
+def _type(w: World, code: str, *more: str) -> Result:
+    from tests.world import TYPE_OPTIONS
+
+    return w.as_user("eng.ray", "module-type", "add", code, *TYPE_OPTIONS, *more)
+
+
+def _use(w: World, product: str, lot: str) -> Result:
+    return w.as_user("op.kim", "use", "start", "QMB-0142", "--product", product, "--lot", lot)
+
+
+# Hostile identifiers and free text: each is refused by the rule of ledger/rules/names.py.
+CASES.update({
+    "NUL in a serial": (
+        lambda w: w.as_user("op.kim", "module", "add", "QMB-\x000150", "--type", "HF-750"),
+        2, "holds a control character (U+0000"),
+    "newline in a serial": (
+        lambda w: w.as_user("op.kim", "module", "add", "QMB-01\n50", "--type", "HF-750"),
+        2, "holds a line break (U+000A"),
+    "terminal escape sequence in a serial": (
+        lambda w: w.as_user("op.kim", "module", "add", f"QMB-0150{ESC}", "--type", "HF-750"),
+        2, "'QMB-0150\\x1b[2J\\x1b[31m' holds a control character (U+001B"),
+    "right-to-left override in a serial": (
+        lambda w: w.as_user("op.kim", "module", "add", "QMB-\u202e0510", "--type", "HF-750"),
+        2, "holds a text-direction override (U+202E RIGHT-TO-LEFT OVERRIDE)"),
+    "zero-width space: a look-alike of an existing serial": (
+        lambda w: w.as_user("op.kim", "module", "add", "QMB-01\u200b42", "--type", "HF-750"),
+        2, "U+200B ZERO WIDTH SPACE"),
+    "no-break space in a serial": (
+        lambda w: w.as_user("op.kim", "module", "add", "QMB\u00a00150", "--type", "HF-750"),
+        2, "holds a space (U+00A0"),
+    "Cyrillic letter among Latin ones in a serial": (
+        lambda w: w.as_user("op.kim", "module", "add", "QM\u0412-0142", "--type", "HF-750"),
+        2, "mixes Latin and Cyrillic letters"),
+    "a serial differing only in case is the existing module": (
+        lambda w: w.as_user("op.kim", "module", "add", "qmb-0142", "--type", "HF-750"),
+        2, "module 'QMB-0142' is already registered"),
+    "100 KB serial": (
+        lambda w: w.as_user("op.kim", "module", "add", "Q" * 100_000, "--type", "HF-750"),
+        2, "is 100000 characters long; expected the module's serial number"),
+    "control character in a manufacturer lot": (
+        lambda w: w.as_user("op.kim", "module", "add", "QMB-0150", "--type", "HF-750",
+                            "--manufacturer-lot", "ML-1\x07"),
+        2, "the manufacturer lot 'ML-1\\x07' holds a control character (U+0007"),
+    "escape sequence in a module note": (
+        lambda w: w.as_user("op.kim", "module", "add", "QMB-0150", "--type", "HF-750",
+                            "--note", f"fine{ESC}"),
+        2, "holds a control character (U+001B"),
+    "a type code differing only in case": (
+        lambda w: _type(w, "hf-750"), 2, "module type 'HF-750' exists"),
+    "zero-width joiner in a type code": (
+        lambda w: _type(w, "HF-750\u200d"), 2, "U+200D ZERO WIDTH JOINER"),
+    "line break in a membrane name": (
+        lambda w: _type(w, "HF-751", "--membrane", "mPES\nPASS"), 2, "holds a line break"),
+    "reference temperature of -300 degC": (
+        lambda w: _type(w, "HF-752", "--reference-temperature", "-300 degC"),
+        2, "--reference-temperature '-300 degC': the NWP reference temperature -300.00 °C is "
+           "outside the range of the water-viscosity correlation"),
+    "reference temperature of 5000 degC": (
+        lambda w: _type(w, "HF-753", "--reference-temperature", "5000 degC"),
+        2, "expected 0 to 100 °C (liquid water at 1 atm)"),
+    "escape sequence in a lot": (
+        lambda w: _use(w, "QB-117", f"QB117-26-014{ESC}"), 2, "the lot 'QB117-26-014\\x1b"),
+    "right-to-left override in a product": (
+        lambda w: _use(w, "QB-\u202e711", "QB117-26-014"), 2, "the product 'QB-\\u202e711'"),
+    "NUL in a reagent lot": (
+        lambda w: w.as_user("op.kim", "care", "clean", "QMB-0142", "--agent", "NaOH",
+                            "--concentration", "0.5 M", "--temperature", "25 degC",
+                            "--contact-time", "60 min", "--reagent-lot", "NX-\x001"),
+        2, "the reagent lot 'NX-\\x001' holds a control character"),
+    "carriage return in a hold reason": (
+        lambda w: w.as_user("qa.lin", "module", "hold", "QMB-0142", "--reason",
+                            "leak\rall fine"),
+        2, "the reason 'leak\\rall fine' holds a line break (U+000D"),
+    "2,001-character hold reason": (
+        lambda w: w.as_user("qa.lin", "module", "hold", "QMB-0142", "--reason", "x" * 2001),
+        2, "is 2001 characters long"),
+    "newline in a person's name": (
+        lambda w: w.as_user("sysadm", "user", "add", "op.new", "--name", "Ann\nAdmin",
+                            "--role", "operator", extra=["new-pass-123"]),
+        2, "the name 'Ann\\nAdmin' holds a line break"),
+    "escape sequence in a user ID": (
+        lambda w: w.as_user("sysadm", "user", "add", f"op.x{ESC}", "--name", "X",
+                            "--role", "operator", extra=["new-pass-123"]),
+        2, "holds a control character (U+001B"),
+})  # fmt: skip
+
+
+@pytest.mark.sqlite_only
 @pytest.mark.parametrize("name", list(CASES))
 def test_rejected_input_changes_nothing(world: World, name: str) -> None:
     world.ready()
@@ -125,10 +215,12 @@ def test_rejected_input_changes_nothing(world: World, name: str) -> None:
     assert out.exception is None
     assert "Traceback" not in out.stderr
     assert out.stderr.startswith("error: ") and out.stderr.count("\n") == 1
+    assert out.stderr[:-1].isprintable(), "a raw control character reached the terminal"
     assert message in out.stderr
     assert after == before
 
 
+@pytest.mark.sqlite_only
 def test_retired_module_takes_no_test(world: World) -> None:
     world.ready()
     world.ok(world.as_user("qa.lin", "module", "retire", "QMB-0142", "--reason", "end of life"))
@@ -138,6 +230,7 @@ def test_retired_module_takes_no_test(world: World) -> None:
     assert world.snapshot() == before
 
 
+@pytest.mark.sqlite_only
 def test_bad_points_file_line_is_named(world: World, tmp_path: object) -> None:
     from pathlib import Path
 
@@ -192,3 +285,26 @@ def test_a_failure_after_the_first_row_rolls_everything_back(
     out = world.baseline()
     assert isinstance(out.exception, RuntimeError)  # a bug is a traceback, not a user error
     assert world.snapshot() == before
+
+
+def test_a_procedure_code_differing_only_in_case_is_the_existing_one(world: World) -> None:
+    from tests.world import PROCEDURE
+
+    world.ok(world.as_user("eng.ray", *PROCEDURE))
+    before = world.snapshot()
+    again = [a if a != "CP-NAOH-05" else "cp-naoh-05" for a in PROCEDURE]
+    out = world.as_user("eng.ray", *again)
+    assert out.code == 2 and "cleaning procedure 'CP-NAOH-05' exists" in out.stderr
+    assert world.snapshot() == before
+
+
+def test_module_list_shows_only_clean_serials(world: World) -> None:
+    """The hostile serials above are refused, so `module list` never prints one raw."""
+    world.add_module("QMB-0142")
+    for serial in (f"QMB-0150{ESC}", "QMB-\u202e0510", "qmb-0142", "QMB-0142\u200b"):
+        assert world.as_user("op.kim", "module", "add", serial, "--type", "HF-750").code == 2
+    listed = world.cli("module", "list")
+    assert listed.code == 0 and "\x1b" not in listed.stdout and "\u202e" not in listed.stdout
+    assert [m["serial"] for m in world.cli("module", "list", "--json").json()["modules"]] == [
+        "QMB-0142"
+    ]

@@ -3,13 +3,18 @@ hold that a cleaning outside its ranges puts on the module. The ranges are inven
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+from pathlib import Path
+
 import pytest
 
-from tests.world import PROCEDURE, World
+from tests.world import PROCEDURE, World, Worlds
+
+# Not about the database itself: SQLite only (tests/store covers PostgreSQL).
+pytestmark = pytest.mark.sqlite_only
 
 
-@pytest.fixture
-def used(world: World) -> World:
+def _used(world: World, _folder: Path) -> None:
     """A module after one use, awaiting cleaning, with the procedure defined."""
     world.ok(world.as_user("eng.ray", *PROCEDURE))
     world.ready()
@@ -19,7 +24,13 @@ def used(world: World) -> World:
         )
     )
     world.ok(world.as_user("op.kim", "use", "end", "QMB-0142"))
-    return world
+
+
+@pytest.fixture
+def used(backend: str, worlds: Worlds, tmp_path: Path) -> Iterator[World]:
+    """A copy of the state ``_used`` leaves, built once per worker."""
+    with worlds.copy(backend, tmp_path, _used) as w:
+        yield w
 
 
 def test_procedures_are_listed_with_their_ranges(used: World) -> None:

@@ -13,6 +13,7 @@ from ledger.cli.main import app
 from tests.world import PASSWORDS, World
 
 
+@pytest.mark.sqlite_only
 def test_volume_over_time_equals_the_same_flow(world: World) -> None:
     world.add_module("QMB-0142")
     world.add_module("QMB-0143")
@@ -79,6 +80,7 @@ def test_volume_over_time_equals_the_same_flow(world: World) -> None:
     assert both.code == 3 or (both.code == 2 and "not both" in both.stderr)
 
 
+@pytest.mark.sqlite_only
 def test_bubble_point_pass_and_fail(world: World) -> None:
     world.add_module()
     world.ok(world.baseline())
@@ -92,6 +94,7 @@ def test_bubble_point_pass_and_fail(world: World) -> None:
     assert world.status() == "on_hold"
 
 
+@pytest.mark.sqlite_only
 def test_decay_json_reports_rate_gas_flow_and_limit(world: World) -> None:
     world.add_module()
     world.ok(world.baseline())
@@ -107,6 +110,7 @@ def test_decay_json_reports_rate_gas_flow_and_limit(world: World) -> None:
     assert rec["passed"] is True and out.json()["status_note"].endswith("available")
 
 
+@pytest.mark.sqlite_only
 def test_manual_hold_returns_to_where_it_was(world: World) -> None:
     world.ready()
     world.ok(
@@ -139,6 +143,7 @@ def test_manual_hold_returns_to_where_it_was(world: World) -> None:
     assert decided["meaning"] == "approved"
 
 
+@pytest.mark.sqlite_only
 def test_retire_from_available_and_not_while_in_use(world: World) -> None:
     world.ready()
     world.ok(
@@ -155,6 +160,7 @@ def test_retire_from_available_and_not_while_in_use(world: World) -> None:
     assert verdict["verdict"] == "NOT FIT"
 
 
+@pytest.mark.sqlite_only
 def test_password_prompt_without_stdin_flag(world: World) -> None:
     result = CliRunner().invoke(
         app,
@@ -165,6 +171,7 @@ def test_password_prompt_without_stdin_flag(world: World) -> None:
     assert "Password" in result.stdout and PASSWORDS["op.kim"] not in result.stdout
 
 
+@pytest.mark.sqlite_only
 def test_cleaning_output_carries_the_caustic_caution(world: World) -> None:
     world.ready()
     world.ok(

@@ -100,3 +100,18 @@ def approve(w: World, run: int = 1) -> None:
         ("approved", "qa.nova"),
     ):
         w.ok(sign(w, run, meaning, user))
+
+
+# Recipes for tests.world.Worlds: built once per worker and backend, copied per test.
+
+
+def reviewed(w: World, folder: Path) -> None:
+    """A second QA user, and run 1 taken to review (its skid log is written into ``folder``)."""
+    add_second_qa(w)
+    to_review(w, folder)
+
+
+def approved(w: World, folder: Path) -> None:
+    """Run 1 in review, then signed by all four signers: approved and locked."""
+    reviewed(w, folder)
+    approve(w)

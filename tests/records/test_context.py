@@ -12,17 +12,16 @@ from sqlmodel import Session
 
 from ledger.records import context as c
 from ledger.records.assemble import assemble
-from tests.records.flow import GOOD_QC, add_second_qa, sign, to_review
+from tests.records.flow import GOOD_QC, sign
 from tests.world import World
 
 PSI = 6894.757293168  # Pa per psi (NIST SP 811, B.8: 1 psi = 6.894 757 E+03 Pa)
 
 
 @pytest.fixture
-def review(sqlite_world: World, tmp_path: Path) -> World:
-    add_second_qa(sqlite_world)
-    to_review(sqlite_world, tmp_path)
-    return sqlite_world
+def review(review_sqlite: World) -> World:
+    """Run 1 in review (tests/records/conftest.py), on SQLite only."""
+    return review_sqlite
 
 
 def _context(w: World, **kw: object) -> c.Context:
@@ -41,7 +40,7 @@ def test_header_names_the_record_template_module_and_log(review: World, tmp_path
         "QB-117",
         "QB117-26-020",
     )
-    assert (h.template_id, h.template_version) == ("QB-MR-LNP-101", "5")
+    assert (h.template_id, h.template_version) == ("QB-MR-LNP-101", "6")
     raw = (shipped_dir() / "qb_lnp_buffer_exchange.toml").read_bytes()
     assert h.template_sha256 == hashlib.sha256(raw).hexdigest()
     assert (h.module_serial, h.module_type, h.module_area, h.cycle) == (

@@ -462,6 +462,7 @@ def test_long_tables_split_with_their_heading_repeated(long_pdf: bytes) -> None:
     assert all(f"page {i} of {len(texts)}" in t for i, t in enumerate(texts, start=1))
 
 
+@pytest.mark.slow
 def test_nothing_runs_past_the_margins(pdf: bytes, long_pdf: bytes, ctx: c.Context) -> None:
     assert outside_margins(pdf) == []
     assert outside_margins(long_pdf) == []

@@ -13,20 +13,6 @@ from tests.records.flow import add_second_qa, approve, sign, to_review
 from tests.world import World
 
 
-@pytest.fixture
-def review(world: World, tmp_path: Path) -> World:
-    add_second_qa(world)
-    to_review(world, tmp_path)
-    return world
-
-
-@pytest.fixture
-def review_sqlite(sqlite_world: World, tmp_path: Path) -> World:
-    add_second_qa(sqlite_world)
-    to_review(sqlite_world, tmp_path)
-    return sqlite_world
-
-
 def _show(w: World, run: int = 1) -> dict:  # type: ignore[type-arg]
     return w.ok(w.cli("record", "show", str(run), "--json")).json()
 
@@ -180,3 +166,47 @@ def test_a_correction_makes_a_new_revision_and_keeps_the_old_signatures(review: 
     assert all(s["revision_sha256"] == revs[s["revision"] - 1]["sha256"] for s in sigs)
     assert shown["record"]["current_revision"] == 2
     review.ok(review.cli("audit", "verify"))
+
+
+def test_print_keeps_an_existing_file_unless_told_to_overwrite_it(
+    review_sqlite: World, tmp_path: Path
+) -> None:
+    w = review_sqlite
+    target = tmp_path / "record.pdf"
+    target.write_bytes(b"the user's own file")
+    refused = w.cli("record", "print", "1", "--out", str(target))
+    assert refused.code == 2 and "--out" in refused.stderr and "--force" in refused.stderr
+    assert "Traceback" not in refused.stderr
+    assert target.read_bytes() == b"the user's own file"  # nothing written
+    assert not list(tmp_path.glob("*.tmp*"))
+    # A folder whose default file name is taken is refused alike.
+    w.ok(w.cli("record", "print", "1", "--out", str(tmp_path)))
+    default = tmp_path / "BR-000001-draft.pdf"
+    first = default.read_bytes()
+    again = w.cli("record", "print", "1", "--out", str(tmp_path))
+    assert again.code == 2 and str(default) in again.stderr
+    # --force overwrites: the PDF replaces the user's file.
+    forced = w.ok(w.cli("record", "print", "1", "--out", str(target), "--force", "--json"))
+    assert forced.json()["file"] == str(target)
+    assert target.read_bytes().startswith(b"%PDF-")
+    assert default.read_bytes() == first
+
+
+def test_correct_reports_one_json_object(review_sqlite: World) -> None:
+    approve(review_sqlite)
+    before = _show(review_sqlite)["revisions"][0]
+    out = review_sqlite.ok(
+        review_sqlite.as_user(
+            "eng.ray", "record", "correct", "1", "--reason", "pH transcribed wrongly", "--json"
+        )
+    ).json()
+    assert out["record"] == "BR-000001" and out["run"] == 1
+    assert out["run_status"] == "finished"
+    assert out["superseded_revision"] == 1 and out["reason"] == "pH transcribed wrongly"
+    shown = _show(review_sqlite)
+    assert shown["record"]["run_status"] == "finished"
+    assert shown["revisions"][0]["sha256"] == before["sha256"]
+    assert shown["revisions"][0]["superseded"].startswith(out["superseded_at"])
+    # A refused correction prints no JSON and exits 3 (the record is no longer in review).
+    again = review_sqlite.as_user("eng.ray", "record", "correct", "1", "--reason", "x", "--json")
+    assert again.code == 3 and again.stdout == ""

@@ -9,28 +9,12 @@ from pathlib import Path
 import pytest
 from sqlalchemy import text
 
-from tests.records.flow import add_second_qa, approve, sign, to_review
+from tests.records.flow import sign, to_review
 from tests.world import World
 
 
-@pytest.fixture
-def approved(world: World, tmp_path: Path) -> World:
-    add_second_qa(world)
-    to_review(world, tmp_path)
-    approve(world)
-    return world
-
-
-@pytest.fixture
-def approved_sqlite(sqlite_world: World, tmp_path: Path) -> World:
-    add_second_qa(sqlite_world)
-    to_review(sqlite_world, tmp_path)
-    approve(sqlite_world)
-    return sqlite_world
-
-
-def _print(w: World, out: Path, run: int = 1) -> Path:
-    w.ok(w.cli("record", "print", str(run), "--out", str(out)))
+def _print(w: World, out: Path, run: int = 1, *extra: str) -> Path:
+    w.ok(w.cli("record", "print", str(run), "--out", str(out), *extra))
     return out / f"BR-{run:06d}-rev1.pdf"
 
 
@@ -45,7 +29,7 @@ def test_a_printed_record_verifies_and_prints_identically_twice(
 ) -> None:
     first = _print(approved, tmp_path)
     data = first.read_bytes()
-    again = _print(approved, tmp_path)
+    again = _print(approved, tmp_path, 1, "--force")
     assert again.read_bytes() == data  # same database content -> identical bytes
     assert not list(tmp_path.glob("*.tmp*"))  # the temporary file was renamed
     code, out = _verify(approved, first)
@@ -76,6 +60,7 @@ def test_a_database_value_edited_after_signing_is_found(approved: World, tmp_pat
     assert "audit trail: qc_result" in out
 
 
+@pytest.mark.slow
 def test_a_signature_copied_onto_another_run_is_found(approved: World, tmp_path: Path) -> None:
     # A second run on the same module, in review with one signature of its own.
     approved.ok(approved.water("QMB-0142", "post-use", "90 mL/min"))
@@ -169,9 +154,8 @@ def _incremental_update(data: bytes) -> bytes:
     return out.getvalue()[len(data) :]
 
 
-def test_sealing_needs_an_approved_revision(sqlite_world: World, tmp_path: Path) -> None:
-    add_second_qa(sqlite_world)
-    to_review(sqlite_world, tmp_path)
+def test_sealing_needs_an_approved_revision(review_sqlite: World, tmp_path: Path) -> None:
+    sqlite_world = review_sqlite  # run 1 in review, with the second QA user
     sqlite_world.ok(sign(sqlite_world, 1, "performed", "op.kim"))
     r = sqlite_world.cli(
         "record",

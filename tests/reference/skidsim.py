@@ -48,7 +48,9 @@ Measurement noise (Gaussian, fixed seed) and why 0.5 % still holds
 * balance: sd 0.01 g, written to 0.01 g; the smallest phase volume (recovery) is >= 30 mL, so
   the two readings' error is < 0.1 %.
 * retentate volume (a load-cell level): sd 0.1 mL, written to 0.1 mL; the least-squares end
-  value through 30 samples has sd ~0.04 mL, < 0.02 % of the smallest volume (>= 250 mL).
+  value through the samples of the last (first) 30 s of a phase has sd ~0.04 mL at 1 s
+  sampling, ~0.2 mL when only two samples are left (sampling every 30 s or more), < 0.1 % of
+  the smallest volume (>= 250 mL).
 * temperature: sd 0.03 K.
 Each case is also checked here (``check_case``) by applying the agreed definitions with plain
 numpy to the written, noisy data: those estimates must fall within 0.25 % of the truth, which
@@ -840,6 +842,23 @@ def write_long_log(rows: int, out_dir: Path, seed: int = 1) -> tuple[Path, Path]
     return csv, mapping
 
 
+def at_interval(case: str | Case, dt: float, seed: int = 1) -> Case:
+    """The same run (``case`` varied by ``seed`` as ``case_spec`` does) sampled every ``dt``
+    seconds, named "<case>-<dt>s". Its injected excursions are left out: each lasts a number
+    of samples, so it would differ from one interval to the next; the limits stay (the
+    design checks then require that no sample leaves them), and a mapping's largest gap
+    becomes five intervals. Every phase must last a whole number of intervals (``Model``
+    refuses it otherwise)."""
+    spec = case_spec(case, seed)
+    gap = f"{5 * dt:g} s" if spec.fmt.max_gap else None  # the mapping's gap rule, scaled
+    return replace(
+        spec,
+        name=f"{spec.name}-{dt:g}s",
+        fmt=replace(spec.fmt, dt_s=float(dt), max_gap=gap),
+        injected=(),
+    )
+
+
 def case_spec(case: str | int | Case, seed: int) -> Case:
     """The case, its process varied a little by seed (flux constant, start volume, TMP)."""
     if isinstance(case, Case):
@@ -1211,9 +1230,18 @@ def generate(case: str | int | Case, seed: int, out_dir: Path, *, check: bool = 
 # --- design checks: the agreed definitions in plain numpy on the written data ---------------
 
 
-def _lsq_end(t: np.ndarray, y: np.ndarray, at: float, window: int, first: bool) -> float:
-    m = min(window, len(t))
+END_WINDOW_S = 30.0  # the agreed window of a phase's start and end for its volumes
+
+
+def _lsq_end(t: np.ndarray, y: np.ndarray, at: float, window_s: float, first: bool) -> float:
+    """The agreed end value: at time ``at``, the straight line fitted (numpy.polyfit) to the
+    samples within ``window_s`` of ``at`` (after it for the start, before it for the end);
+    with fewer than two there, to the two samples nearest ``at``; one sample is the value."""
+    near = t <= at + window_s if first else t >= at - window_s
+    m = min(max(int(np.count_nonzero(near)), 2), len(t))
     tt, yy = (t[:m], y[:m]) if first else (t[-m:], y[-m:])
+    if m < 2:
+        return float(yy[0])
     _, intercept = np.polyfit(tt - at, yy, 1)
     return float(intercept)
 
@@ -1235,9 +1263,12 @@ def agreed_estimates(
             perm = (si["permeate_mass"][stop - 1] - si["permeate_mass"][a]) / density
         else:
             perm = float(np.trapezoid(si["permeate_flow"][a:stop], tt))
-        own_t, own_v = t[a:b], si["retentate_volume"][a:b]
-        vi = _lsq_end(own_t, own_v, tt[0], 30, True)
-        vf = _lsq_end(own_t, own_v, tt[-1], 30, False)
+        # the run's start and end values come from its first and last phase only
+        head = spans[0][1] if (a, b) == (0, n) else b
+        tail = spans[phases - 1][0] if (a, b) == (0, n) else a
+        v = si["retentate_volume"]
+        vi = _lsq_end(t[a:head], v[a:head], tt[0], END_WINDOW_S, True)
+        vf = _lsq_end(t[tail:b], v[tail:b], tt[-1], END_WINDOW_S, False)
         vmean = float(np.trapezoid(si["retentate_volume"][a:stop], tt)) / (tt[-1] - tt[0])
         out.append(
             {

@@ -11,6 +11,10 @@ from iapws import IAPWS95
 
 from tests.world import World
 
+# Not about the database itself: SQLite only (tests/store covers PostgreSQL).
+pytestmark = pytest.mark.sqlite_only
+
+
 PSI = 6894.757293168  # Pa, exact by definition of the pound-force and inch
 AREA = 565e-4  # m², the test module type's area
 

@@ -112,6 +112,7 @@ def in_control() -> NDArray[np.float64]:
     return np.random.default_rng(1984).standard_normal(N_POINTS)
 
 
+@pytest.mark.slow
 def test_rule_rates_on_in_control_data(in_control: NDArray[np.float64]) -> None:
     # Probabilities that a window of independent N(0, 1) points meets each rule, from the rule's
     # definition by elementary probability; tail areas from scipy.stats.norm.
@@ -136,6 +137,7 @@ def test_rule_rates_on_in_control_data(in_control: NDArray[np.float64]) -> None:
         assert rate == pytest.approx(p, rel=_tolerance(p, length)), (rule_set, rule)
 
 
+@pytest.mark.slow
 def test_rule_8_rate_on_widely_spread_data() -> None:
     # Nelson rule 8 is rare in control (~1e-4), so test it where it is common: points from
     # N(0, 3²) against unit limits, P(|X| > 1) = 2·Phi(-1/3) for each point, independently.

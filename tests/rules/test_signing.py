@@ -103,3 +103,35 @@ def test_a_fail_with_a_closed_deviation_does_not_block_approval() -> None:
 def test_an_open_deviation_blocks_approval_but_not_earlier_signatures() -> None:
     assert approval_blockers([], [3]) == ["deviation 3 is open: close it before approval"]
     assert refusals("performed", "op", "operator", ORDER, ROLES, [], [], [3]) == []
+
+
+# Which signature comes next, and when a revision is fully signed (sealed, approved).
+
+
+@pytest.mark.parametrize(
+    ("signed", "following"),
+    [
+        ([], "performed"),
+        (["performed"], "verified"),
+        (["performed", "verified"], "reviewed"),
+        (["performed", "verified", "reviewed"], "approved"),  # one short of the edge
+        (["performed", "verified", "reviewed", "approved"], None),  # the edge: all signed
+    ],
+)
+def test_the_next_signature_follows_the_template_order(
+    signed: list[str], following: str | None
+) -> None:
+    from ledger.rules.signing import fully_signed, next_meaning
+
+    assert next_meaning(ORDER, signed) == following
+    assert fully_signed(ORDER, signed) is (following is None)
+
+
+def test_a_gap_in_the_order_is_the_next_signature() -> None:
+    from ledger.rules.signing import fully_signed, next_meaning
+
+    # A template asking for two meanings only; a signature of another meaning counts for none.
+    assert next_meaning(("performed", "approved"), ["approved"]) == "performed"
+    assert next_meaning(("performed", "approved"), ["performed", "reviewed"]) == "approved"
+    assert not fully_signed(("performed", "approved"), ["performed", "reviewed"])
+    assert fully_signed(("performed", "approved"), ["approved", "performed"])

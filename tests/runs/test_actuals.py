@@ -137,16 +137,18 @@ def test_a_pure_concentration_has_no_diavolumes() -> None:
 
 
 def test_end_volumes_are_a_least_squares_line_through_the_end_samples() -> None:
-    # independent computation: numpy.polyfit through the first/last 30 samples
+    # independent computation: numpy.polyfit through the samples within 30 s of the start and
+    # the end; at 2 s sampling t = 0..30 s and t = 368..398 s, 16 samples each
     rng = np.random.default_rng(11)
     t = np.arange(0.0, 200.0) * 2.0
     v = 1e-3 - 1e-6 * t + rng.normal(0, 2e-6, t.size)
     s = summarize(make(t, retentate_volume=v))
-    first = np.polyval(np.polyfit(t[:30], v[:30], 1), t[0])
-    last = np.polyval(np.polyfit(t[-30:], v[-30:], 1), t[-1])
+    first = np.polyval(np.polyfit(t[:16], v[:16], 1), t[0])
+    last = np.polyval(np.polyfit(t[-16:], v[-16:], 1), t[-1])
     assert s.run.initial_volume_m3 == pytest.approx(first, rel=1e-10)
     assert s.run.final_volume_m3 == pytest.approx(last, rel=1e-10)
-    # a phase shorter than 30 samples uses all of them, evaluated at its start and end
+    # a phase shorter than the 30 s window (18 s) uses all its samples, evaluated at its start
+    # and at its end (the next phase's first sample, t = 20 s)
     labels = ["a"] * 10 + ["b"] * 190
     s = summarize(make(t, labels, retentate_volume=v))
     line = np.polyfit(t[:10], v[:10], 1)
@@ -510,3 +512,58 @@ def test_unit_invariance(tmp_path_factory: pytest.TempPathFactory, seed: int, sy
     assert [(e.samples, e.start) for e in a.excursions] == [
         (e.samples, e.start) for e in b.excursions
     ]
+
+
+# -- end values from a time window, whatever the sampling interval ---------------------------
+
+
+@pytest.mark.parametrize("step", [1.0, 7.0, 60.0])
+def test_end_values_are_exact_on_a_line_at_any_sampling_interval(step: float) -> None:
+    # analytic: a flush reading 0 L for 600 s, then a concentration V(t) = V0 - q·(t - 600 s);
+    # a least-squares line through samples of a line is that line, so the concentration's
+    # values at its start (its first sample) and end (the last sample, t = 4200 s) are exact
+    # whether the 30 s window holds 31 samples or fewer than two (then the two nearest)
+    t = np.arange(0.0, 4200.0 + step / 2, step)
+    v0, q = 2.0e-3, 4.0e-7  # 2 L, 0.4 mL/s
+
+    def line(x: float) -> float:
+        return v0 - q * (x - 600.0)
+
+    v = np.where(t < 600.0, 0.0, v0 - q * (t - 600.0))
+    labels = np.where(t < 600.0, "flush", "concentrate").tolist()
+    s = summarize(make(t, labels, retentate_volume=v))
+    flush, conc = s.phases
+    assert (flush.phase, conc.phase) == ("flush", "concentrate")
+    first = float(t[t >= 600.0][0])  # 600 s, or 602 s at 7 s sampling
+    assert conc.initial_volume_m3 == pytest.approx(line(first), rel=1e-9)
+    assert conc.final_volume_m3 == pytest.approx(line(4200.0), rel=1e-9)
+    assert conc.concentration_factor == pytest.approx(line(first) / line(4200.0), rel=1e-9)
+    # the flush ends at the concentration's first sample; its own samples all read 0 L
+    assert flush.final_volume_m3 == 0.0
+    # the run's start window stays inside the flush, its end window inside the concentration
+    assert s.run.initial_volume_m3 == 0.0
+    assert s.run.final_volume_m3 == pytest.approx(line(4200.0), rel=1e-9)
+    short = [a for a in s.assumptions if "fewer than two samples within 30 s" in a]
+    assert len(short) == (1 if step > 30.0 else 0)
+
+
+def test_a_window_of_one_interval_is_an_extrapolation_of_the_last_two_samples() -> None:
+    # by hand: samples every 60 s at t = 0..240 s with V = 10, 9, 7, 5, 4 mL, of a phase that
+    # ends at t = 300 s (the next phase's first sample); the 30 s end window holds no sample
+    # of the phase, so the line through (180 s, 5 mL) and (240 s, 4 mL) gives 3 mL at 300 s;
+    # the start window holds the first sample only: with the next one, 10 mL at 0 s
+    t = np.arange(0.0, 301.0, 60.0)
+    v = np.array([10.0, 9.0, 7.0, 5.0, 4.0, 8.0]) * 1e-6
+    s = summarize(make(t, ["a"] * 5 + ["b"], retentate_volume=v))
+    a = s.phases[0]
+    assert a.initial_volume_m3 == pytest.approx(10e-6, rel=1e-12)
+    assert a.final_volume_m3 == pytest.approx(3e-6, rel=1e-12)
+    assert a.concentration_factor == pytest.approx(10 / 3, rel=1e-12)
+    assert any("fewer than two samples within 30 s" in x for x in s.assumptions)
+    # the one-sample phase b: its start and end values are that sample, and the summary says so
+    b = s.phases[1]
+    assert b.initial_volume_m3 == b.final_volume_m3 == pytest.approx(8e-6, rel=1e-12)
+    assert "phase b has one sample: its start and end values are that sample" in s.assumptions
+    # the run: its start window reaches into phase a only, its end window is phase b's sample
+    assert s.run.initial_volume_m3 == pytest.approx(10e-6, rel=1e-12)
+    assert s.run.final_volume_m3 == pytest.approx(8e-6, rel=1e-12)

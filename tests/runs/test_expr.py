@@ -10,7 +10,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from ledger import units
-from ledger.runs.expr import ExpressionError, compile_expr
+from ledger.runs.expr import ExpressionError, compile_expr, evaluation_order
 
 finite = st.floats(min_value=-1e6, max_value=1e6, allow_nan=False).filter(lambda x: abs(x) > 1e-6)
 
@@ -73,3 +73,40 @@ def test_dimension_pass_finds_a_unit_mismatch() -> None:
         {"v": ureg.Quantity(1.0, "m**3"), "q": ureg.Quantity(1.0, "m**3/s")}
     )
     assert ok.dimensionality == ureg.Quantity(1.0, "s").dimensionality
+
+
+def test_evaluation_order_puts_each_name_after_what_it_uses() -> None:
+    # Written order c, b, a; a uses nothing, b uses a, c uses b and an input x (ignored).
+    order, cycles = evaluation_order({"c": {"b", "x"}, "b": {"a"}, "a": set()})
+    assert order == ["a", "b", "c"] and cycles == []
+    # Already in order: kept as written, also where several names are free to go next.
+    uses = {"p": set(), "q": {"p"}, "r": set(), "s": {"q", "r"}, "t": set()}
+    assert evaluation_order(uses) == (["p", "q", "r", "s", "t"], [])
+
+
+def test_evaluation_order_reports_each_cycle_and_nothing_behind_it() -> None:
+    uses = {"a": {"b"}, "b": {"c"}, "c": {"a"}, "d": {"a"}, "e": {"e"}, "f": set()}
+    order, cycles = evaluation_order(uses)
+    assert order == ["f"]
+    assert cycles == [["a", "b", "c"], ["e"]]  # d depends on the cycle but is no part of it
+
+
+@given(st.lists(st.sets(st.integers(0, 7), max_size=3), min_size=1, max_size=8))
+def test_evaluation_order_agrees_with_graphlib(edges: list[set[int]]) -> None:
+    # Reference: the standard library's graphlib.TopologicalSorter on the same graph.
+    import graphlib
+
+    uses = {f"n{i}": {f"n{j}" for j in used if j < len(edges)} for i, used in enumerate(edges)}
+    order, cycles = evaluation_order(uses)
+    try:
+        list(graphlib.TopologicalSorter(uses).static_order())
+    except graphlib.CycleError as exc:
+        assert cycles, uses
+        reported = exc.args[1]  # a cycle graphlib found, as [x, ..., x]
+        assert any(set(reported) <= set(c) for c in cycles), (reported, cycles)
+        assert not set(reported) & set(order)
+    else:
+        assert cycles == [] and sorted(order) == sorted(uses)
+    placed = {name: i for i, name in enumerate(order)}
+    for name in order:
+        assert all(placed[u] < placed[name] for u in uses[name]), (name, uses)

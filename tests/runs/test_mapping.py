@@ -12,7 +12,9 @@ from hypothesis import strategies as st
 
 from ledger import units
 from ledger.errors import InputError
+from ledger.runs.limits import load_limits
 from ledger.runs.mapping import load_mapping, parse_mapping
+from ledger.tomlfile import parse_toml
 
 SAMPLE = Path(__file__).resolve().parents[2] / "sample_records" / "qf2_skid_mapping.toml"
 PSI = 6894.757293168  # Pa; exact by definition (NIST SP 811, appendix B: 1 lbf/in²)
@@ -166,5 +168,89 @@ def test_the_two_point_conversion_is_pints_conversion(
     # the unit's definition (NIST SP 811), and pint converting the value itself
     assert c.scale == pytest.approx(scale, rel=1e-12)
     assert c.offset == pytest.approx(offset, rel=1e-12, abs=1e-12)
-    direct = units.to_si(x, unit, kind, field="x")
+    # (pint itself, not units.to_si, which now applies the same two-point conversion)
+    direct = units.registry().Quantity(x, unit).to(units.KINDS[kind].si).magnitude
     assert math.isclose(c.scale * x + c.offset, direct, rel_tol=1e-12, abs_tol=1e-9)
+
+
+# --- Hostile mapping and limits files ----------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    "value",
+    [
+        "[" * 1000 + "]" * 1000,  # tomllib recurses once per level: a RecursionError
+        "{ a = " * 1000 + "1" + " }" * 1000,
+        "[" * 40 + "]" * 40,  # parses, but deeper than tomlfile.MAX_DEPTH
+    ],
+    ids=["arrays-1000", "inline-tables-1000", "arrays-40"],
+)
+def test_deeply_nested_toml_is_an_input_error(tmp_path: Path, value: str) -> None:
+    text = f'[time]\ncolumn = "T"\nx = {value}\n'
+    err = error(text)
+    assert err.field == "mapping" and "nested more than 32 levels" in str(err)
+    path = tmp_path / "limits.toml"
+    path.write_text(f"[[range]]\nchannel = {value}\n", encoding="utf-8")
+    with pytest.raises(InputError) as caught:
+        load_limits(path)
+    assert caught.value.field == "limits" and caught.value.source == str(path)
+    assert "nested more than 32 levels" in str(caught.value)
+
+
+def test_toml_nested_to_the_limit_still_parses() -> None:
+    # 31 arrays inside the top-level table: depth 32, the most accepted
+    data = parse_toml("x = " + "[" * 31 + "]" * 31, "t.toml", "mapping", "TOML")
+    assert set(data) == {"x"}
+
+
+@pytest.mark.parametrize(
+    ("raw", "says"),
+    [
+        ('[time]\ncolumn = "Zeit ä"\n'.encode("latin-1"), "not UTF-8 text"),
+        (b"[time]\n" + b"#" * (2 << 20) + b"\n", "the file is 2.0 MiB"),
+    ],
+)
+def test_unreadable_mapping_files_name_the_file(tmp_path: Path, raw: bytes, says: str) -> None:
+    path = tmp_path / "skid.toml"
+    path.write_bytes(raw)
+    with pytest.raises(InputError) as caught:
+        load_mapping(path)
+    assert caught.value.field == "mapping" and caught.value.source == str(path)
+    assert says in str(caught.value)
+
+
+def test_a_mapping_with_a_bom_is_read(tmp_path: Path) -> None:
+    path = tmp_path / "skid.toml"
+    path.write_bytes(b"\xef\xbb\xbf" + mapping("").encode("utf-8"))
+    assert load_mapping(path).time_column == "T"
+
+
+@pytest.mark.parametrize(
+    ("name", "says"),
+    [
+        ("m" * 300 + ".toml", "a part of the path is 305 bytes long"),
+        ("a\x00b.toml", "NUL"),
+        ("", "the path is empty"),
+    ],
+)
+def test_unusable_mapping_paths_name_the_field(name: str, says: str) -> None:
+    with pytest.raises(InputError) as caught:
+        load_mapping(name)
+    assert caught.value.field == "mapping" and says in str(caught.value)
+
+
+@pytest.mark.parametrize(
+    ("fmt", "says"),
+    [
+        ("%d %d", "not a usable strptime format"),  # strptime: a repeated group (re.error)
+        ("%Y %Y", "not a usable strptime format"),
+        ("%", "not a usable strptime format"),
+        ("%%", "reads no date or time"),
+        ("%G-%V", "not a usable strptime format"),  # ISO year without a weekday
+        ("%Y" * 60, "at most 100 characters"),
+        ("%Y\\u0000", "no NUL"),
+    ],
+)
+def test_unusable_time_formats_name_the_key(fmt: str, says: str) -> None:
+    err = error(mapping("", f'column = "T"\nformat = "{fmt}"'))
+    assert err.field == "time.format" and says in str(err), str(err)

@@ -3,6 +3,7 @@ InputError naming the file, the line and the column."""
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import os
 from datetime import UTC, datetime
@@ -259,3 +260,119 @@ def test_empty_and_malformed_files(tmp_path: Path, content: str, line: int, word
 def test_an_absent_file(tmp_path: Path) -> None:
     err = fails(tmp_path / "nope.csv")
     assert err.field == "file" and "cannot read" in str(err)
+
+
+# --- Hostile logs: each an InputError naming the file, the line and the column -----------------
+
+
+@pytest.mark.parametrize(
+    ("cell", "column", "says"),
+    [
+        # 1 psi = 6894.757 Pa (NIST SP 811): 1e308 psi is past the largest float in Pa
+        ("1e308", "PT-01", "'1e308' psi is inf Pa in SI"),
+        ("1e299", "PT-01", "'1e299' psi is 6.89e+302 Pa in SI"),
+        ("1e-305", "PT-01", "'1e-305' psi is 6.89e-302 Pa in SI"),  # below SI_MIN
+        ("-1e308", "FT-02", "'-1e308' mL/min is -1.67e+300 m**3/s in SI"),  # 1e-6/60 m³/s
+    ],
+)
+def test_values_out_of_range_in_si(tmp_path: Path, cell: str, column: str, says: str) -> None:
+    lines = rows(5)
+    parts = lines[2].split(",")
+    parts[HEADER.split(",").index(column)] = cell
+    lines[2] = ",".join(parts)
+    err = fails(write(tmp_path / "log.csv", lines))
+    assert err.line == 4 and err.field == column  # the header is line 1
+    assert says in str(err) and "1e+300" in str(err), str(err)
+
+
+@pytest.mark.parametrize(
+    ("time", "fmt"),
+    [
+        ("1500-06-01T08:00:02", ""),
+        ("2300-06-01T08:00:02", ""),
+        ("2300-06-01T08:00:02+01:00", "aware"),
+        ("1677-09-21T00:00:00Z", "aware"),  # 12 min 43 s before the first nanosecond time
+        ("1500-06-01 08:00:02", 'format = "%Y-%m-%d %H:%M:%S"'),
+        ("01/06/2300 08:00:02", 'format = "%d/%m/%Y %H:%M:%S"'),
+        ("2300-06-01 08:00:02.5", 'format = "%Y-%m-%d %H:%M:%S.%f"'),  # the pandas path
+    ],
+)
+def test_times_outside_nanosecond_range(tmp_path: Path, time: str, fmt: str) -> None:
+    lines = rows(5)
+    if fmt == "aware":  # every row with its UTC offset
+        lines, fmt = [line.replace(",", "Z,", 1) for line in lines], ""
+    if fmt:  # every row in the mapping's format
+        pattern = fmt.split('"')[1]
+        lines = [
+            datetime(2026, 6, 1, 8, 0, i).strftime(pattern) + line[19:]
+            for i, line in enumerate(lines)
+        ]
+    lines[2] = time + lines[2][lines[2].index(",") :]
+    err = fails(write(tmp_path / "log.csv", lines), basic(fmt))
+    assert err.line == 4 and err.field == "Timestamp", str(err)
+    assert "outside the years a log can hold" in str(err) and "2262-04-11" in str(err)
+
+
+def test_the_last_nanosecond_years_are_read(tmp_path: Path) -> None:
+    lines = rows(3, start="2262-04-11T23:00:00")
+    log = read_log(write(tmp_path / "log.csv", lines), basic())
+    assert log.start == datetime(2262, 4, 11, 23, 0, tzinfo=UTC)
+
+
+def test_a_format_pandas_cannot_compile_names_the_mapping_key(tmp_path: Path) -> None:
+    # parse_mapping refuses "%d %d" (see test_mapping); a Mapping built some other way still
+    # gets a clean error when pandas, after pyarrow, fails to compile the format
+    # (%f, which pyarrow's strptime lacks, sends the column to pandas)
+    m = dataclasses.replace(basic('format = "%d"'), time_format="%d %d.%f")
+    lines = [f"0{i + 1} 0{i + 1}.5,run,1,1,1,x" for i in range(3)]
+    with pytest.raises(InputError) as caught:
+        read_log(write(tmp_path / "log.csv", lines), m)
+    err = caught.value
+    assert err.source == "skid.toml" and err.field == "time.format"  # the mapping's fault
+    assert "pandas cannot parse times with '%d %d.%f'" in str(err)
+
+
+def test_a_long_formatted_time_is_refused_by_length(tmp_path: Path) -> None:
+    m = basic('format = "%Y-%m-%d %H:%M:%S.%f"')
+    lines = [f"2026-06-01 08:00:0{i}.5,run,1,1,1,x" for i in range(3)]
+    assert read_log(write(tmp_path / "ok.csv", lines), m).time_s.tolist() == [0.0, 1.0, 2.0]
+    lines[1] = "2026-06-01 08:00:01.5" + "9" * 100 + ",run,1,1,1,x"
+    err = fails(write(tmp_path / "log.csv", lines), m)
+    assert err.line == 3 and "a time of 121 characters; expected at most 64" in str(err)
+
+
+def test_a_long_iso_time_is_refused_before_any_pattern(tmp_path: Path) -> None:
+    lines = rows(5)
+    lines[1] = "T1" * 50_000 + lines[1][lines[1].index(",") :]
+    err = fails(write(tmp_path / "log.csv", lines))
+    assert err.line == 3 and "a time of 100000 characters" in str(err)
+
+
+def test_a_huge_cell_before_a_bad_one_still_names_a_line(tmp_path: Path) -> None:
+    lines = rows(5)
+    lines[0] = lines[0][:-1] + "y" * (200 * 1024)  # the unmapped Spare column, over 128 KiB
+    lines[3] = lines[3].replace(",run,13,", ",run,abc,")
+    err = fails(write(tmp_path / "log.csv", lines))
+    # the csv module cannot re-read the huge line to find the cell's text: the line is still
+    # named (blank lines, which this file has none of, would not be counted)
+    assert err.field == "PT-01" and err.line == 5
+    assert "column 'PT-01': the cell is not a number" in str(err), str(err)
+
+
+@pytest.mark.parametrize(
+    ("name", "says"),
+    [
+        ("x" * 300 + ".csv", "a part of the path is 304 bytes long"),
+        ("a\x00b.csv", "NUL"),
+        ("", "the path is empty"),
+    ],
+)
+def test_unusable_log_paths_name_the_field(name: str, says: str) -> None:
+    with pytest.raises(InputError) as caught:
+        read_log(name, basic())
+    assert caught.value.field == "file" and says in str(caught.value)
+
+
+def test_a_directory_is_not_a_log(tmp_path: Path) -> None:
+    err = fails(tmp_path)
+    assert err.field == "file" and "it is a directory" in str(err)

@@ -1,4 +1,4 @@
-"""Master-record templates: the shipped ones load, and every mistake names file and key."""
+"""Master-record templates: the shipped ones load, and every mistake names file, line and key."""
 
 from __future__ import annotations
 
@@ -61,49 +61,78 @@ def test_minimal_template_parses() -> None:
     assert t.qc[0].low == 7.0 and t.qc[0].high == 8.0
 
 
+def problem(err: pytest.ExceptionInfo[InputError], key: str) -> InputError:
+    """The one mistake of the raised TemplateError that names ``key``."""
+    assert isinstance(err.value, template.TemplateError), err.value
+    found = [p for p in err.value.problems if p.field == key]
+    assert len(found) == 1, str(err.value)
+    return found[0]
+
+
+def assert_names(p: InputError, source: str, line: int, key: str, why: str) -> None:
+    text = str(p)
+    assert text.startswith(f"{source}:{line}: {key}: "), text
+    assert why in text, text
+    assert text.count(source) == 1 and f"{key}: {key}" not in text, text  # no doubled prefix
+
+
+# Lines of MINIMAL (it starts with an empty line): [template] 2, signatures 6,
+# initial_volume 9, target_shear 10, [parameters.feed_flow] 12, title 13, expr 14, unit 15,
+# actual 16, range 17, [[steps]] 19, signatures 23, text 24, [qc.ph] 26.
 @pytest.mark.parametrize(
-    ("old", "new", "key", "why"),
+    ("old", "new", "key", "line", "why", "count"),
     [
         ("feed_flow_for_shear(target_shear, fibers, lumen_diameter)",
          "feed_flow_for_shear(target_sheer, fibers, lumen_diameter)",
-         "parameters.feed_flow.expr", "unknown name 'target_sheer'"),
-        ('unit = "mL/min"', 'unit = "bar"', "parameters.feed_flow.expr", "gives"),
+         "parameters.feed_flow.expr", 14, "unknown name 'target_sheer'", 1),
+        # A pressure unit on a flow: the expression and the skid-log metric both disagree.
+        ('unit = "mL/min"', 'unit = "bar"', "parameters.feed_flow.expr", 14, "gives", 2),
+        ('unit = "mL/min"', 'unit = "bar"', "parameters.feed_flow.actual", 16, "is a flow", 2),
         ("feed_flow_for_shear(target_shear, fibers, lumen_diameter)", "initial_volume +",
-         "parameters.feed_flow.expr", "not a valid expression"),
+         "parameters.feed_flow.expr", 14, "not a valid expression", 1),
         ("feed_flow_for_shear(target_shear, fibers, lumen_diameter)",
-         "initial_volume + target_shear", "parameters.feed_flow.expr", "unit mismatch"),
+         "initial_volume + target_shear", "parameters.feed_flow.expr", 14, "unit mismatch", 1),
         ('actual = "feed_flow.mean"', 'actual = "feed_flow.median"',
-         "parameters.feed_flow.actual", "unknown metric"),
-        ('actual = "feed_flow.mean"', 'actual = "tmp.mean"', "parameters.feed_flow.actual",
-         "is a pressure"),
-        ('range = { relative = "10 %" }', "", "parameters.feed_flow.range", "needs a range"),
+         "parameters.feed_flow.actual", 16, "unknown metric", 1),
+        ('actual = "feed_flow.mean"', 'actual = "tmp.mean"', "parameters.feed_flow.actual", 16,
+         "is a pressure", 1),
+        # A missing key has no line of its own: its table's header is named.
+        ('range = { relative = "10 %" }', "", "parameters.feed_flow.range", 12, "needs a range",
+         1),
         ('title = "Feed flow"', 'title = "Feed flow"\nexpresion = "1"',
-         "parameters.feed_flow.expresion", "unknown key"),
-        ('signatures = ["performed"]', 'signatures = ["witnessed"]', "steps[1].signatures",
-         "unknown signature meaning"),
+         "parameters.feed_flow.expresion", 14, "unknown key", 1),
+        ('signatures = ["performed"]', 'signatures = ["witnessed"]', "steps[1].signatures", 23,
+         "unknown signature meaning", 1),
         ('signatures = ["performed", "approved"]', 'signatures = ["approved", "performed"]',
-         "template.signatures", "out of order"),
+         "template.signatures", 6, "out of order", 1),
         ('text = "Run at {{ feed_flow }}."', 'text = "Run at {{ feed_flwo }}."', "steps[1].text",
-         "unknown name 'feed_flwo'"),
-        ('kind = "volume"', 'kind = "volumes"', "inputs.initial_volume.kind", "unknown kind"),
-        ('default = "4000 1/s"', 'default = "4000 mL"', "inputs.target_shear.default", "volume"),
-        ('low = "7.0"', 'low = "9.0"', "qc.ph", "low is above high"),
-        ('unit = "mL/min"', 'unit = "wibbles"', "parameters.feed_flow.unit", "unknown unit"),
+         24, "unknown name 'feed_flwo'", 1),
+        ('kind = "volume"', 'kind = "volumes"', "inputs.initial_volume.kind", 9, "unknown kind",
+         1),
+        ('default = "4000 1/s"', 'default = "4000 mL"', "inputs.target_shear.default", 10,
+         "volume", 1),
+        ('low = "7.0"', 'low = "9.0"', "qc.ph", 26, "low is above high", 1),
+        ('unit = "mL/min"', 'unit = "wibbles"', "parameters.feed_flow.unit", 15, "unknown unit",
+         1),
     ],
 )  # fmt: skip
-def test_a_mistake_names_file_and_key(old: str, new: str, key: str, why: str) -> None:
+def test_a_mistake_names_file_line_and_key(
+    old: str, new: str, key: str, line: int, why: str, count: int
+) -> None:
     assert old in MINIMAL
     with pytest.raises(InputError) as err:
         template.parse(MINIMAL.replace(old, new, 1).encode(), "bad.toml")
-    text = str(err.value)
-    assert text.startswith(f"bad.toml: {key}"), text
-    assert why in text, text
+    assert isinstance(err.value, template.TemplateError)
+    assert len(err.value.problems) == count, str(err.value)
+    assert_names(problem(err, key), "bad.toml", line, key, why)
+    if count == 1:
+        assert str(err.value) == str(err.value.problems[0])
 
 
 def test_bad_toml_names_the_file(tmp_path: Path) -> None:
     p = tmp_path / "broken.toml"
     p.write_text("[template\nid = 1\n")
-    with pytest.raises(InputError, match=r"broken\.toml: not a valid TOML"):
+    with pytest.raises(InputError, match=r"broken\.toml:1: not a valid TOML"):
         template.load(p)
 
 
@@ -140,5 +169,4 @@ def test_bad_signers_name_the_key(signers: str, key: str, why: str) -> None:
     text = MINIMAL.replace(SIGNERS, f"{SIGNERS}\nsigners = {signers}")
     with pytest.raises(InputError) as err:
         template.parse(text.encode(), "bad.toml")
-    assert str(err.value).startswith(f"bad.toml: {key}"), str(err.value)
-    assert why in str(err.value)
+    assert_names(problem(err, key), "bad.toml", 7, key, why)

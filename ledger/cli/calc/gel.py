@@ -6,8 +6,9 @@ from pathlib import Path
 
 import typer
 
-from ledger.cli.calc import app, together
+from ledger.cli.calc import app
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
+from ledger.entries import calc as calc_entries
 
 
 @app.command("optimum")
@@ -21,7 +22,9 @@ def optimum(
     product_mass: str | None = quantity_option(
         None, "--product-mass", help="Product mass in the batch, e.g. '25 g' (for time/buffer)."
     ),
-    diavolumes: float | None = typer.Option(None, "--diavolumes", help="Diavolumes planned."),
+    diavolumes: str | None = typer.Option(
+        None, "--diavolumes", help="Diavolumes planned.", metavar="<float>"
+    ),
     area: str | None = quantity_option(None, "--area", help="Membrane area, e.g. '0.5 m^2'."),
     at_concentration: str | None = quantity_option(
         None, "--at-concentration", help="A concentration to compare with the optimum."
@@ -29,16 +32,11 @@ def optimum(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Gel-polarization fit J = k·ln(Cg/Cb) and the diafiltration optimum Cb = Cg/e."""
-    from ledger import units
+    e = calc_entries.optimum(locals())
     from ledger.cli.output import Q, Report, Table
-    from ledger.pointsfile import Column, read_points
     from ledger.science import gel
 
-    pts = read_points(
-        points_file,
-        [Column("concentration", "concentration"), Column("flux", "flux")],
-        minimum=2,
-    )
+    pts = e.points
     with pts.blame():
         fit = gel.fit_gel_model(pts.columns["concentration"], pts.columns["flux"])
     c_opt = gel.optimum_concentration(fit)
@@ -62,21 +60,11 @@ def optimum(
     ):
         table.rows.append([line, Q(c, "concentration"), Q(j, "flux"), Q(fit.flux_at(c), "flux")])
     report.tables.append(table)
-    if together(
-        "time and buffer",
-        ("--product-mass", product_mass),
-        ("--diavolumes", diavolumes),
-        ("--area", area),
-    ):
-        assert product_mass is not None and diavolumes is not None and area is not None
-        m = units.parse(product_mass, "mass", field="--product-mass", positive=True)
-        a = units.parse(area, "area", field="--area", positive=True)
-        plans = [("At optimum", gel.diafiltration_at(fit, m, c_opt, diavolumes, a))]
-        if at_concentration is not None:
-            c = units.parse(
-                at_concentration, "concentration", field="--at-concentration", positive=True
-            )
-            cmp = gel.compare_with_optimum(fit, m, c, diavolumes, a)
+    if e.product_mass is not None and e.diavolumes is not None and e.area is not None:
+        m, n, a = e.product_mass, e.diavolumes, e.area
+        plans = [("At optimum", gel.diafiltration_at(fit, m, c_opt, n, a))]
+        if e.at_concentration is not None:
+            cmp = gel.compare_with_optimum(fit, m, e.at_concentration, n, a)
             plans.append(("At chosen concentration", cmp.chosen))
             res.add("time_ratio", cmp.time_ratio, "time chosen / optimum")
         for title, plan in plans:

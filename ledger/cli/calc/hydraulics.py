@@ -4,8 +4,9 @@ from __future__ import annotations
 
 import typer
 
-from ledger.cli.calc import app, one_of
+from ledger.cli.calc import app
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
+from ledger.entries import calc as calc_entries
 
 
 @app.command("shear")
@@ -23,41 +24,32 @@ def shear(
         None, "--length", help="Effective fiber length for the pressure drop, e.g. '30 cm'."
     ),
     temperature: str = quantity_option(
-        "20 degC", "--temperature", help="Fluid temperature (water properties)."
+        calc_entries.SHEAR_DEFAULTS["temperature"],
+        "--temperature",
+        help="Fluid temperature (water properties).",
     ),
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Wall shear rate, pressure drop and Reynolds number in the fibers (laminar flow)."""
-    from ledger import units
+    e = calc_entries.shear(locals())
     from ledger.cli.output import Q, Report
     from ledger.science import hydraulics
 
-    one_of(("--feed-flow", feed_flow), ("--target-shear", target_shear))
-    d = units.parse(lumen_id, "length", field="--lumen-id", positive=True)
-    t = units.parse(temperature, "temperature", field="--temperature")
-    q = (
-        None
-        if feed_flow is None
-        else units.parse(feed_flow, "flow", field="--feed-flow", positive=True)
-    )
-    g = (
-        None
-        if target_shear is None
-        else units.parse(target_shear, "shear_rate", field="--target-shear", positive=True)
-    )
-    length_m = (
-        None if length is None else units.parse(length, "length", field="--length", positive=True)
-    )
     h = hydraulics.module_hydraulics(
-        fibers, d, feed_flow_m3_s=q, target_shear_1_s=g, length_m=length_m, temperature_k=t
+        e.fibers,
+        e.lumen_id,
+        feed_flow_m3_s=e.feed_flow,
+        target_shear_1_s=e.target_shear,
+        length_m=e.length,
+        temperature_k=e.temperature,
     )
     report = Report("calc shear")
     inputs = report.section("Inputs")
-    inputs.add("fibers", fibers)
-    inputs.add("lumen_id", Q(d, "length"), "lumen ID")
-    if length_m is not None:
-        inputs.add("length", Q(length_m, "fiber_length"))
-    inputs.add("temperature", Q(t, "temperature"))
+    inputs.add("fibers", e.fibers)
+    inputs.add("lumen_id", Q(e.lumen_id, "length"), "lumen ID")
+    if e.length is not None:
+        inputs.add("length", Q(e.length, "fiber_length"))
+    inputs.add("temperature", Q(e.temperature, "temperature"))
     res = report.section("Results")
     res.add("feed_flow", Q(h.feed_flow, "flow"), "feed flow")
     res.add("fiber_flow", Q(h.fiber_flow, "flow", "mL/min"), "flow per fiber")

@@ -6,9 +6,12 @@ from pathlib import Path
 
 import typer
 
-from ledger.cli.calc import app, one_of, together, typed_unit
+from ledger.cli.calc import app
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.errors import InputError
+from ledger.entries import calc_integrity as calc_entries
+
+DECAY = calc_entries.DECAY_DEFAULTS
+BUBBLE = calc_entries.BUBBLE_POINT_DEFAULTS
 
 
 @app.command("decay")
@@ -27,7 +30,7 @@ def decay(
         "'pressure [psi]' (gauge).",
     ),
     atmosphere: str = quantity_option(
-        "1 atm", "--atmosphere", help="ABSOLUTE atmospheric pressure, e.g. '1013 mbar'."
+        DECAY["atmosphere"], "--atmosphere", help="ABSOLUTE atmospheric pressure, e.g. '1013 mbar'."
     ),
     limit: str | None = quantity_option(
         None,
@@ -39,7 +42,9 @@ def decay(
         None, "--test-pressure", help="For ALCR/LRV: test pressure (gauge), e.g. '15 psi'."
     ),
     back_pressure: str = quantity_option(
-        "0 psi", "--back-pressure", help="For ALCR/LRV: pressure on the other side (gauge)."
+        DECAY["back_pressure"],
+        "--back-pressure",
+        help="For ALCR/LRV: pressure on the other side (gauge).",
     ),
     operating_tmp: str | None = quantity_option(
         None, "--operating-tmp", help="For ALCR/LRV: TMP in normal operation, e.g. '5 psi'."
@@ -47,11 +52,14 @@ def decay(
     filtrate_flow: str | None = quantity_option(
         None, "--filtrate-flow", help="For LRV: filtrate flow of the unit, e.g. '200 mL/min'."
     ),
-    vcf: float = typer.Option(
-        1.0, "--vcf", help="For LRV: volumetric concentration factor (default 1)."
+    vcf: str = typer.Option(
+        DECAY["vcf"],
+        "--vcf",
+        help="For LRV: volumetric concentration factor (default 1).",
+        metavar="<float>",
     ),
     temperature: str = quantity_option(
-        "20 degC", "--temperature", help="Test temperature (air and water viscosity)."
+        DECAY["temperature"], "--temperature", help="Test temperature (air and water viscosity)."
     ),
     as_json: bool = JSON_OPTION,
 ) -> None:
@@ -59,29 +67,21 @@ def decay(
 
     Exits 1 when a --limit is given and the test fails it.
     """
-    from ledger import units
+    e = calc_entries.decay(locals())
     from ledger.cli.output import Q, Report, Table
     from ledger.science import integrity, water
 
-    one_of(("--rate", rate), ("--readings-file", readings_file))
-    shown_rate = typed_unit(rate) or typed_unit(limit, "pressure_rate") or "mbar/min"
-    v = units.parse(volume, "volume", field="--volume", positive=True)
-    p_atm = units.parse(atmosphere, "pressure", field="--atmosphere", positive=True)
     report = Report("calc decay")
     inputs = report.section("Inputs")
-    inputs.add("volume", Q(v, "volume", "mL"), "upstream volume")
-    inputs.add("atmosphere", Q(p_atm, "pressure", "mbar"), "atmosphere (absolute)")
+    inputs.add("volume", Q(e.volume, "volume", "mL"), "upstream volume")
+    inputs.add("atmosphere", Q(e.atmosphere, "pressure", "mbar"), "atmosphere (absolute)")
     res = report.section("Results")
-    if rate is not None:
-        r = units.parse(rate, "pressure_rate", field="--rate")
-        inputs.add("rate", Q(r, "pressure_rate", shown_rate))
+    if e.rate is not None:
+        r = e.rate
+        inputs.add("rate", Q(r, "pressure_rate", e.rate_unit))
     else:
-        from ledger.pointsfile import Column, read_points
-
-        assert readings_file is not None
-        pts = read_points(
-            readings_file, [Column("time", "time"), Column("pressure", "pressure")], minimum=2
-        )
+        pts = e.readings
+        assert pts is not None
         with pts.blame():
             fit = integrity.decay_rate(pts.columns["time"], pts.columns["pressure"])
         r = fit.rate_pa_s
@@ -95,46 +95,36 @@ def decay(
         for line, t, p in zip(pts.lines, pts.columns["time"], pts.columns["pressure"], strict=True):
             table.rows.append([line, Q(t, "time", "s"), Q(p, "pressure", "psi")])
         report.tables.append(table)
-    res.add("decay_rate", Q(r, "pressure_rate", shown_rate), "decay rate")
-    gas = integrity.gas_flow_from_decay(r, v, p_atm) if r >= 0 else None
+    res.add("decay_rate", Q(r, "pressure_rate", e.rate_unit), "decay rate")
+    gas = integrity.gas_flow_from_decay(r, e.volume, e.atmosphere) if r >= 0 else None
     if gas is not None:
         res.add("gas_flow", Q(gas, "gas_flow"), "gas flow at atmosphere")
     else:
         report.notes.append("pressure rose during the hold: check temperature stability")
-    if limit is not None:
-        try:
-            allowed = units.parse(limit, "pressure_rate", field="--limit")
-            measured, kind = r, "pressure_rate"
-        except InputError:
-            try:
-                allowed = units.parse(limit, "gas_flow", field="--limit")
-            except InputError:
-                raise InputError(
-                    f"--limit: {limit!r} is neither a decay rate nor a gas flow",
-                    field="--limit",
-                    value=limit,
-                    expected="a pressure per time ('0.1 psi/min') or a flow ('2 mL/min')",
-                ) from None
-            measured, kind = (gas if gas is not None else 0.0), "gas_flow"
-        verdict = integrity.judge_decay(max(measured, 0.0), allowed)
-        inputs.add("limit", Q(allowed, kind, typed_unit(limit, kind)), "allowed")
+    if e.limit is not None and e.limit_kind is not None:
+        gas_or_zero = gas if gas is not None else 0.0
+        measured = r if e.limit_kind == "pressure_rate" else gas_or_zero
+        verdict = integrity.judge_decay(max(measured, 0.0), e.limit)
+        inputs.add("limit", Q(e.limit, e.limit_kind, e.limit_unit), "allowed")
         res.add("fraction_of_limit", Q(verdict.fraction_of_limit, "fraction"), "share of limit")
         report.verdict = "PASS" if verdict.passed else "FAIL"
-    if together("ALCR", ("--test-pressure", test_pressure), ("--operating-tmp", operating_tmp)):
-        assert test_pressure is not None and operating_tmp is not None
-        t = units.parse(temperature, "temperature", field="--temperature")
+    if e.alcr is not None:
+        t = e.temperature
         alcr = integrity.air_liquid_conversion_ratio(
-            units.parse(test_pressure, "pressure", field="--test-pressure", positive=True),
-            units.parse(back_pressure, "pressure", field="--back-pressure"),
-            units.parse(operating_tmp, "pressure", field="--operating-tmp", positive=True),
+            e.alcr.test_pressure,
+            e.alcr.back_pressure,
+            e.alcr.operating_tmp,
             water.viscosity(t),
             temperature_k=t,
-            atmospheric_pressure_pa=p_atm,
+            atmospheric_pressure_pa=e.atmosphere,
         )
         res.add("alcr", alcr, "air–liquid conversion ratio")
-        if filtrate_flow is not None and gas is not None and gas > 0:
-            qp = units.parse(filtrate_flow, "flow", field="--filtrate-flow", positive=True)
-            res.add("lrv", integrity.log_removal_value(qp, alcr, gas, vcf), "LRV verified")
+        if e.filtrate_flow is not None and gas is not None and gas > 0:
+            res.add(
+                "lrv",
+                integrity.log_removal_value(e.filtrate_flow, alcr, gas, e.vcf),
+                "LRV verified",
+            )
         report.notes.append(
             "ALCR by the laminar (viscous-flow) defect model, isothermal ideal gas; the site's "
             "validated procedure decides which ALCR model applies"
@@ -159,46 +149,44 @@ def bubble_point(
         "--surface-tension",
         help="Wetting liquid surface tension, e.g. '22.3 mN/m'; default: water at --temperature.",
     ),
-    contact_angle: float = typer.Option(0.0, "--contact-angle", help="Contact angle in degrees."),
-    temperature: str = quantity_option("20 degC", "--temperature", help="Liquid temperature."),
+    contact_angle: str = typer.Option(
+        BUBBLE["contact_angle"],
+        "--contact-angle",
+        help="Contact angle in degrees.",
+        metavar="<float>",
+    ),
+    temperature: str = quantity_option(
+        BUBBLE["temperature"], "--temperature", help="Liquid temperature."
+    ),
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Young–Laplace bubble point from a pore size, or the pore size from a bubble point."""
-    import math
-
-    from ledger import units
+    e = calc_entries.bubble_point(locals())
     from ledger.cli.output import Q, Report
     from ledger.science import integrity, water
 
-    one_of(("--pore-size", pore_size), ("--pressure", pressure))
-    t = units.parse(temperature, "temperature", field="--temperature")
-    if surface_tension is None:
-        gamma = water.surface_tension(t)
-    else:
-        gamma = units.parse(
-            surface_tension, "surface_tension", field="--surface-tension", positive=True
-        )
-    theta = math.radians(contact_angle)
+    gamma = (
+        e.surface_tension if e.surface_tension is not None else water.surface_tension(e.temperature)
+    )
+    theta = e.contact_angle
     report = Report("calc bubble-point")
     inputs = report.section("Inputs")
     inputs.add("surface_tension", Q(gamma, "surface_tension"), "surface tension")
-    inputs.add("contact_angle", contact_angle, "contact angle (°)")
+    inputs.add("contact_angle", e.contact_angle_deg, "contact angle (°)")
     res = report.section("Results")
-    if pore_size is not None:
-        d = units.parse(pore_size, "length", field="--pore-size", positive=True)
-        inputs.add("pore_size", Q(d, "length", "um"), "pore size")
+    if e.pore_size is not None:
+        inputs.add("pore_size", Q(e.pore_size, "length", "um"), "pore size")
         res.add(
             "bubble_point",
-            Q(integrity.bubble_point_pressure(d, gamma, theta), "pressure", "psi"),
+            Q(integrity.bubble_point_pressure(e.pore_size, gamma, theta), "pressure", "psi"),
             "bubble point",
         )
     else:
-        assert pressure is not None
-        p = units.parse(pressure, "pressure", field="--pressure")
-        inputs.add("pressure", Q(p, "pressure", "psi"), "bubble point")
+        assert e.pressure is not None
+        inputs.add("pressure", Q(e.pressure, "pressure", "psi"), "bubble point")
         res.add(
             "pore_size",
-            Q(integrity.pore_diameter_from_bubble_point(p, gamma, theta), "length", "um"),
+            Q(integrity.pore_diameter_from_bubble_point(e.pressure, gamma, theta), "length", "um"),
             "largest pore",
         )
     report.notes.append(

@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import typer
 
-from ledger.cli.calc import app, one_of
+from ledger.cli.calc import app
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.errors import InputError
+from ledger.entries import calc as calc_entries
 
 
 @app.command("diafiltration")
@@ -15,9 +15,11 @@ def diafiltration(
     removal: str | None = quantity_option(
         None, "--removal", help="Removal wanted, e.g. '99.9 %' (a bare number is a fraction)."
     ),
-    diavolumes: float | None = typer.Option(None, "--diavolumes", help="Diavolumes to run."),
+    diavolumes: str | None = typer.Option(
+        None, "--diavolumes", help="Diavolumes to run.", metavar="<float>"
+    ),
     sieving: str = quantity_option(
-        "1",
+        calc_entries.DIAFILTRATION_DEFAULTS["sieving"],
         "--sieving",
         help="Sieving coefficient S = 1 - rejection, as '60 %' or a bare ratio (default 1: "
         "passes freely).",
@@ -25,59 +27,51 @@ def diafiltration(
     volume: str | None = quantity_option(
         None, "--volume", help="Retentate volume held during diafiltration, e.g. '2 L'."
     ),
-    dilution_factor: float | None = typer.Option(
+    dilution_factor: str | None = typer.Option(
         None,
         "--dilution-factor",
         help="Also compare with discontinuous diafiltration diluting by this factor per step.",
+        metavar="<float>",
     ),
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Constant-volume diafiltration: diavolumes, wash-out and buffer volume."""
-    from ledger import units
+    e = calc_entries.diafiltration(locals())
     from ledger.cli.output import Q, Report
     from ledger.science import concentration as conc
 
-    one_of(("--removal", removal), ("--diavolumes", diavolumes))
-    s = units.parse(sieving, "fraction", field="--sieving")
     report = Report("calc diafiltration")
     inputs = report.section("Inputs")
-    inputs.add("sieving", s)
-    if removal is not None:
-        r = units.parse(removal, "fraction", field="--removal")
-        n = conc.diavolumes_for_removal(r, s)
-        inputs.add("removal", Q(r, "fraction"))
+    inputs.add("sieving", e.sieving)
+    if e.removal is not None:
+        n = conc.diavolumes_for_removal(e.removal, e.sieving)
+        inputs.add("removal", Q(e.removal, "fraction"))
     else:
-        assert diavolumes is not None
-        n = diavolumes
+        assert e.diavolumes is not None
+        n = e.diavolumes
         inputs.add("diavolumes", n)
-    remaining = conc.washout_remaining(n, s)
+    remaining = conc.washout_remaining(n, e.sieving)
     res = report.section("Results")
     res.add("diavolumes", n)
     res.add("remaining", Q(remaining, "fraction"), "remaining C/C0")
     res.add("removal", Q(1.0 - remaining, "fraction"))
-    if volume is not None:
-        v = units.parse(volume, "volume", field="--volume", positive=True)
-        inputs.add("volume", Q(v, "volume"))
-        res.add("buffer_volume", Q(conc.buffer_volume(n, v), "volume"), "buffer volume")
-    if dilution_factor is not None:
+    if e.volume is not None:
+        inputs.add("volume", Q(e.volume, "volume"))
+        res.add("buffer_volume", Q(conc.buffer_volume(n, e.volume), "volume"), "buffer volume")
+    if e.dilution_factor is not None:
         target = 1.0 - remaining
-        steps = conc.steps_for_removal(target, dilution_factor, s) if target > 0 else 0
-        disc = res_disc = None
+        steps = conc.steps_for_removal(target, e.dilution_factor, e.sieving) if target > 0 else 0
         if steps:
-            disc = conc.discontinuous_diafiltration(dilution_factor, steps, s)
+            disc = conc.discontinuous_diafiltration(e.dilution_factor, steps, e.sieving)
             res_disc = report.section("Discontinuous")
-            res_disc.add("dilution_factor", dilution_factor, "dilution factor")
+            res_disc.add("dilution_factor", e.dilution_factor, "dilution factor")
             res_disc.add("steps", disc.steps)
             res_disc.add("remaining", Q(disc.remaining, "fraction"), "remaining C/C0")
             res_disc.add("buffer_per_volume", disc.buffer_per_volume, "buffer / retentate volume")
-            if volume is not None:
+            if e.volume is not None:
                 res_disc.add(
                     "buffer_volume",
-                    Q(
-                        disc.buffer_per_volume
-                        * units.parse(volume, "volume", field="--volume", positive=True),
-                        "volume",
-                    ),
+                    Q(disc.buffer_per_volume * e.volume, "volume"),
                     "buffer volume",
                 )
     report.notes.append("constant-volume wash-out C/C0 = exp(-N·S)")
@@ -87,7 +81,9 @@ def diafiltration(
 @app.command("concentration")
 @guarded
 def concentration(
-    factor: float | None = typer.Option(None, "--factor", help="Concentration factor V0/Vf."),
+    factor: str | None = typer.Option(
+        None, "--factor", help="Concentration factor V0/Vf.", metavar="<float>"
+    ),
     initial_volume: str | None = quantity_option(
         None, "--initial-volume", help="Volume before concentration, e.g. '5 L'."
     ),
@@ -95,7 +91,7 @@ def concentration(
         None, "--final-volume", help="Volume after concentration, e.g. '500 mL'."
     ),
     rejection: str = quantity_option(
-        "1",
+        calc_entries.CONCENTRATION_DEFAULTS["rejection"],
         "--rejection",
         help="Observed rejection of the product, as '99.5 %' or a bare ratio (default 1: fully "
         "retained).",
@@ -109,36 +105,19 @@ def concentration(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Concentration factor, final concentration and yield with observed rejection."""
-    from ledger import units
+    e = calc_entries.concentration(locals())
     from ledger.cli.output import Q, Report
     from ledger.science import concentration as conc
 
     report = Report("calc concentration")
     inputs = report.section("Inputs")
-    v0 = None
-    if factor is not None:
-        if initial_volume is not None and final_volume is not None:
-            raise InputError(
-                "give --factor, or --initial-volume with --final-volume, not both",
-                field="--factor",
-                value=factor,
-                expected="one way of stating the factor",
-            )
-        cf = factor
-        if initial_volume is not None:
-            v0 = units.parse(initial_volume, "volume", field="--initial-volume", positive=True)
+    v0 = e.initial_volume
+    if e.factor is not None:
+        cf = e.factor
     else:
-        if initial_volume is None or final_volume is None:
-            raise InputError(
-                "give --factor, or both --initial-volume and --final-volume",
-                field="--factor",
-                value=None,
-                expected="a factor or two volumes",
-            )
-        v0 = units.parse(initial_volume, "volume", field="--initial-volume", positive=True)
-        vf = units.parse(final_volume, "volume", field="--final-volume", positive=True)
-        cf = conc.concentration_factor(v0, vf)
-    r = units.parse(rejection, "fraction", field="--rejection")
+        assert v0 is not None and e.final_volume is not None
+        cf = conc.concentration_factor(v0, e.final_volume)
+    r = e.rejection
     inputs.add("rejection", r)
     res = report.section("Results")
     res.add("factor", cf, "concentration factor")
@@ -149,15 +128,12 @@ def concentration(
     ratio = conc.concentrated_ratio(cf, r)
     res.add("concentration_ratio", ratio, "Cf/C0")
     res.add("yield", Q(conc.concentration_yield(cf, r), "fraction"))
-    c0 = None
-    if initial_concentration is not None:
-        c0 = units.parse(
-            initial_concentration, "concentration", field="--initial-concentration", positive=True
-        )
+    c0 = e.initial_concentration
+    if c0 is not None:
         inputs.add("initial_concentration", Q(c0, "concentration"), "initial concentration")
         res.add("final_concentration", Q(c0 * ratio, "concentration"), "final concentration")
-    if area is not None:
-        a = units.parse(area, "area", field="--area", positive=True)
+    if e.area is not None:
+        a = e.area
         inputs.add("area", Q(a, "area"))
         if v0 is not None:
             res.add(

@@ -9,7 +9,7 @@ import typer
 
 from ledger.cli.calc import app
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.errors import InputError
+from ledger.entries import calc as calc_entries
 
 
 class LifeModel(StrEnum):
@@ -39,18 +39,14 @@ def lifetime(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Reuse-life projection of NWP recovery with a one-sided 95 % bound (ICH Q1E approach)."""
-    from ledger import units
+    e = calc_entries.lifetime(locals())
     from ledger.cli.output import Q, Report, Table
-    from ledger.pointsfile import Column, read_points
     from ledger.science import trending
 
-    lim = units.parse(limit, "fraction", field="--limit", positive=True, bare_ratio=False)
-    pts = read_points(
-        points_file, [Column("cycle", None), Column("recovery", "fraction")], minimum=3
-    )
+    pts, lim = e.points, e.limit
     cycles, recovery = pts.columns["cycle"], pts.columns["recovery"]
     with pts.blame():
-        proj = trending.project_life(cycles, recovery, lim, model.value)
+        proj = trending.project_life(cycles, recovery, lim, e.model)
     report = Report("calc lifetime")
     inputs = report.section("Inputs")
     inputs.add("points_file", str(points_file), "points file")
@@ -80,15 +76,8 @@ def lifetime(
     for line, c, r in zip(pts.lines, cycles, recovery, strict=True):
         table.rows.append([line, c, Q(r, "fraction"), Q(trending.lower_bound(proj, c), "fraction")])
     report.tables.append(table)
-    if baseline_cycles is not None:
-        if not 2 <= baseline_cycles <= len(recovery):
-            raise InputError(
-                f"--baseline-cycles {baseline_cycles} is outside 2..{len(recovery)}",
-                field="--baseline-cycles",
-                value=baseline_cycles,
-                expected=f"a number of points from 2 to {len(recovery)}",
-            )
-        limits = trending.imr_limits(recovery[:baseline_cycles])
+    if e.baseline_cycles is not None:
+        limits = trending.imr_limits(recovery[: e.baseline_cycles])
         chart = report.section("Control chart")
         chart.add("baseline_points", limits.n, "baseline points")
         chart.add("centre", Q(limits.centre, "fraction"))

@@ -9,7 +9,6 @@ import typer
 
 from ledger.cli.calc import GAUGE, app
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.errors import InputError
 
 
 class CorrectionMethod(StrEnum):
@@ -26,11 +25,12 @@ def viscosity(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Viscosity, density and surface tension of liquid water at 1 atm (IAPWS 2008 / 2014)."""
-    from ledger import units
+    from ledger.entries import calc as calc_entries
+
+    t = calc_entries.viscosity(locals()).temperature
     from ledger.cli.output import Q, Report
     from ledger.science import water
 
-    t = units.parse(temperature, "temperature", field="--temperature")
     mu = water.viscosity(t)
     rho = water.density(t)
     report = Report("calc viscosity")
@@ -89,28 +89,14 @@ def nwp(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Normalized water permeability (NWP) from a clean-water flux test."""
-    from ledger import units
     from ledger.cli.output import Q, Report, Table
+    from ledger.entries.water import nwp_calc
+    from ledger.rules.water_test import intercept_suspect
     from ledger.science import permeability as perm
     from ledger.science import water
 
-    a = units.parse(area, "area", field="--area", positive=True)
-    t_ref = units.parse(reference_temperature, "temperature", field="--reference-temperature")
-    u = (
-        None
-        if u_constant is None
-        else units.parse(
-            u_constant, "u_constant", field="--u-constant", default_unit="K", positive=True
-        )
-    )
-    method = correction.value
-    if method == "exponential" and u is None:
-        raise InputError(
-            "--correction exponential needs --u-constant (K), e.g. --u-constant '2640 K'",
-            field="--u-constant",
-            value=None,
-            expected="a constant in K",
-        )
+    e = nwp_calc({**locals(), "correction": correction.value})
+    a, t_ref, u, method = e.area, e.reference_temperature, e.u_constant, e.correction
     report = Report("calc nwp")
     inputs = report.section("Inputs")
     inputs.add("area", Q(a, "area"))
@@ -119,43 +105,13 @@ def nwp(
     if u is not None:
         inputs.add("u_constant", Q(u, "u_constant"), "U")
     res = report.section("Results")
-    if points_file is None:
-        if permeate_flow is None or feed is None or retentate is None or temperature is None:
-            missing = [
-                opt
-                for opt, v in (
-                    ("--permeate-flow", permeate_flow),
-                    ("--feed", feed),
-                    ("--retentate", retentate),
-                    ("--temperature", temperature),
-                )
-                if v is None
-            ]
-            raise InputError(
-                f"missing {', '.join(missing)} (or give --points-file)",
-                field=missing[0],
-                value=None,
-                expected="a value for each, or a points file",
-            )
-        q = units.parse(permeate_flow, "flow", field="--permeate-flow")
-        pf = units.parse(feed, "pressure", field="--feed")
-        pr = units.parse(retentate, "pressure", field="--retentate")
-        pp = units.parse(permeate, "pressure", field="--permeate")
-        t = units.parse(temperature, "temperature", field="--temperature")
-        tmp = perm.transmembrane_pressure(pf, pr, pp)
-        if tmp <= 0:
-            raise InputError(
-                f"TMP from --feed, --retentate and --permeate is {tmp / 1e5:.4g} bar; "
-                "expected a positive TMP (feed and retentate above permeate)",
-                field="--feed",
-                value=tmp,
-                expected="a positive TMP",
-            )
+    if e.points is None:
+        q, pf, pr, pp, t = e.permeate_flow, e.feed, e.retentate, e.permeate, e.temperatures[0]
         point = perm.normalized_permeability(q, a, pf, pr, pp, t, t_ref, method, u)  # type: ignore[arg-type]
         for key, value in (
-            ("permeate_flow", Q(q, "flow")),
-            ("feed", Q(pf, "pressure")),
-            ("retentate", Q(pr, "pressure")),
+            ("permeate_flow", Q(q, "flow")),  # type: ignore[arg-type]
+            ("feed", Q(pf, "pressure")),  # type: ignore[arg-type]
+            ("retentate", Q(pr, "pressure")),  # type: ignore[arg-type]
             ("permeate", Q(pp, "pressure")),
             ("temperature", Q(t, "temperature")),
         ):
@@ -168,62 +124,10 @@ def nwp(
         res.add("nwp", Q(point.nwp, "permeability"), "NWP at Tref")
         nwp_value = point.nwp
     else:
-        from ledger.pointsfile import Column, read_points
-
-        pts = read_points(
-            points_file,
-            [
-                Column("permeate_flow", "flow"),
-                Column("tmp", "pressure", required=False),
-                Column("feed", "pressure", required=False),
-                Column("retentate", "pressure", required=False),
-                Column("permeate", "pressure", required=False),
-                Column("temperature", "temperature", required=False),
-            ],
-            minimum=2,
-        )
-        n = len(pts)
-        if pts.has("tmp"):
-            tmps = pts.columns["tmp"]
-        elif pts.has("feed") and pts.has("retentate"):
-            pperm = pts.columns.get("permeate", [0.0] * n)
-            tmps = [
-                perm.transmembrane_pressure(f, r, p)
-                for f, r, p in zip(
-                    pts.columns["feed"], pts.columns["retentate"], pperm, strict=True
-                )
-            ]
-        else:
-            raise InputError(
-                "the points file needs a 'tmp' column, or 'feed' and 'retentate' columns",
-                field="tmp",
-                value=None,
-                expected="tmp [unit] or feed [unit] and retentate [unit]",
-                source=pts.source,
-                line=1,
-            )
-        if pts.has("temperature"):
-            temps = pts.columns["temperature"]
-        elif temperature is not None:
-            temps = [units.parse(temperature, "temperature", field="--temperature")] * n
-        else:
-            raise InputError(
-                "no temperature: add a 'temperature [degC]' column or give --temperature",
-                field="--temperature",
-                value=None,
-                expected="a temperature",
-            )
-        for line, tmp in zip(pts.lines, tmps, strict=True):
-            if tmp <= 0:
-                raise InputError(
-                    f"TMP is {tmp / 1e5:.4g} bar; expected a positive TMP",
-                    field="tmp",
-                    value=tmp,
-                    expected="a positive TMP",
-                    source=pts.source,
-                    line=line,
-                )
-        fluxes = [perm.flux(qp, a) for qp in pts.columns["permeate_flow"]]
+        readings = e.points.readings
+        tmps = [r.tmp for r in readings]
+        temps = e.temperatures
+        fluxes = [perm.flux(r.permeate_flow, a) for r in readings]
         slope = perm.nwp_from_points(fluxes, tmps, temps, t_ref, method, u)  # type: ignore[arg-type]
         table = Table(
             "Points",
@@ -235,11 +139,9 @@ def nwp(
                 ("normalized_flux", "flux at Tref"),
             ],
         )
-        for line, tmp, j, t, jn in zip(
-            pts.lines, tmps, fluxes, temps, slope.normalized_flux, strict=True
-        ):
+        for r, j, t, jn in zip(readings, fluxes, temps, slope.normalized_flux, strict=True):
             table.rows.append(
-                [line, Q(tmp, "pressure"), Q(j, "flux"), Q(t, "temperature"), Q(jn, "flux")]
+                [r.line, Q(r.tmp, "pressure"), Q(j, "flux"), Q(t, "temperature"), Q(jn, "flux")]
             )
         report.tables.append(table)
         inputs.add("points_file", str(points_file), "points file")
@@ -248,14 +150,14 @@ def nwp(
         res.add("intercept_ratio", Q(slope.intercept_ratio, "fraction"), "intercept / mean flux")
         res.add("r_squared", slope.r_squared, "r²")
         res.add("points", slope.n)
-        if abs(slope.intercept_ratio) > 0.1:
+        if intercept_suspect(slope.intercept_ratio):
             report.notes.append(
                 "the intercept exceeds 10 % of the mean flux: check the pressure zero, "
                 "membrane compaction or residual fouling"
             )
         nwp_value = slope.nwp
-    if baseline is not None:
-        b = units.parse(baseline, "permeability", field="--baseline")
+    if e.baseline is not None:
+        b = e.baseline
         rec = perm.recovery(nwp_value, b)
         res.add("recovery", Q(rec, "fraction"), "recovery vs baseline")
         mu_ref = water.viscosity(t_ref)

@@ -1,0 +1,193 @@
+"""Run entries: planning a run (``run plan``), importing its skid log (``run import``), QC
+results (``run qc``), the activity time of a start or finish, and ``log summarize``'s phases."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from datetime import datetime
+from typing import TYPE_CHECKING, Any
+
+from ledger.entries.fields import Field, Spec, label, when
+from ledger.errors import InputError
+
+if TYPE_CHECKING:
+    from ledger.runs.actuals import PhaseWindow
+
+
+def pairs(items: Sequence[str], name: str) -> dict[str, str]:
+    """``NAME=VALUE`` items (``--input``, ``--result``, ``--phase``) as a dict; each name once."""
+    out: dict[str, str] = {}
+    for item in items:
+        key, sep, value = item.partition("=")
+        if not sep or not key.strip() or not value.strip():
+            raise InputError(
+                f"{label(name)} {item!r} is not NAME=VALUE",
+                field=name,
+                value=item,
+                expected="NAME=VALUE, e.g. initial_volume='1.2 L'",
+            )
+        if key.strip() in out:
+            raise InputError(
+                f"{label(name)} {key.strip()} is given twice",
+                field=name,
+                value=item,
+                expected="each name once",
+            )
+        out[key.strip()] = value.strip()
+    return out
+
+
+def phase_windows(items: Sequence[str]) -> list[PhaseWindow]:
+    """``--phase NAME=START/END`` (ISO 8601 with offset) as phase windows."""
+    from ledger.logbook.times import parse_time
+    from ledger.runs.actuals import PhaseWindow
+
+    out = []
+    for name, span in pairs(items, "phase").items():
+        start, sep, end = span.partition("/")
+        if not sep:
+            raise InputError(
+                f"--phase {name}={span!r} is not START/END",
+                field="phase",
+                value=span,
+                expected="NAME=START/END in ISO 8601 with offset",
+            )
+        t0 = parse_time(start, field="phase")
+        t1 = parse_time(end, field="phase")
+        if t1 <= t0:
+            raise InputError(
+                f"--phase {name}: the end is not after the start",
+                field="phase",
+                value=span,
+                expected="END after START",
+            )
+        out.append(PhaseWindow(name, t0, t1))
+    return out
+
+
+def read_scouting(path: str) -> list[tuple[float, float]]:
+    """A scouting run's flux against concentration: (kg/m³, m/s) pairs, 2 rows or more."""
+    from ledger.pointsfile import Column, read_points
+
+    pts = read_points(
+        path, [Column("concentration", "concentration"), Column("flux", "flux")], minimum=2
+    )
+    return list(zip(pts.columns["concentration"], pts.columns["flux"], strict=True))
+
+
+RUN_PLAN = Spec(
+    "run plan",
+    (
+        Field("template", required=True),
+        Field("module", required=True),
+        Field("product", required=True),
+        Field("lot", required=True),
+        Field("scouting"),
+        Field("override_reason"),
+    ),
+)
+
+
+@dataclass(frozen=True)
+class PlanEntry:
+    template: str
+    module: str
+    product: str
+    lot: str
+    inputs: dict[str, str]  # checked against the template's inputs by the planner
+    scouting: list[tuple[float, float]] | None
+    override_reason: str | None
+
+
+def run_plan(raw: Mapping[str, Any]) -> PlanEntry:
+    """Check a run plan's fields; the template's own inputs are checked when it is planned."""
+    v = RUN_PLAN.parse(raw)
+    given = pairs(list(raw.get("inputs") or ()), "input")
+    scouting = read_scouting(v["scouting"]) if v["scouting"] is not None else None
+    return PlanEntry(
+        v["template"], v["module"], v["product"], v["lot"], given, scouting, v["override_reason"]
+    )
+
+
+RUN_IMPORT = Spec(
+    "run import",
+    (
+        Field("run", "integer", required=True),
+        Field("file", required=True),
+        Field("mapping", required=True),
+    ),
+)
+
+
+@dataclass(frozen=True)
+class ImportEntry:
+    run: int
+    file: str
+    mapping: str
+    phases: list[PhaseWindow]
+
+
+def run_import(raw: Mapping[str, Any]) -> ImportEntry:
+    """Check a skid-log import: the run, the file, its mapping and any phase windows."""
+    v = RUN_IMPORT.parse(raw)
+    return ImportEntry(v["run"], v["file"], v["mapping"], phase_windows(raw.get("phase") or ()))
+
+
+def qc_results(raw: Mapping[str, Any]) -> dict[str, str]:
+    """``--result NAME=VALUE`` items; each value is checked against its attribute later."""
+    return pairs(list(raw.get("results") or ()), "result")
+
+
+RUN_STEP = Spec("run", (Field("run", "integer", required=True), Field("activity_time", "datetime")))
+
+
+def activity(raw: Mapping[str, Any]) -> tuple[int, datetime | None]:
+    """The run number and optional late-entry time of ``run start`` or ``run finish``."""
+    v = RUN_STEP.parse(raw)
+    return v["run"], when(v)
+
+
+LOG_SUMMARY = Spec(
+    "log summarize",
+    (
+        Field("file", required=True),
+        Field("mapping", required=True),
+        Field("limits"),
+        Field("area", "area", positive=True),
+        Field("fibers", "integer"),
+        Field("lumen_diameter", "length", positive=True),
+    ),
+)
+
+
+@dataclass(frozen=True)
+class LogSummaryEntry:
+    file: str
+    mapping: str
+    limits: str | None
+    area_m2: float | None
+    fibers: int | None
+    lumen_diameter_m: float | None
+    phases: list[PhaseWindow]
+
+
+def log_summary(raw: Mapping[str, Any]) -> LogSummaryEntry:
+    """Check ``log summarize``'s fields: the files, the module's geometry and phase windows."""
+    v = LOG_SUMMARY.parse(raw)
+    if v["fibers"] is not None and v["fibers"] < 1:
+        raise InputError(
+            f"--fibers {v['fibers']}: must be at least 1",
+            field="fibers",
+            value=v["fibers"],
+            expected="a whole number of 1 or more",
+        )
+    return LogSummaryEntry(
+        v["file"],
+        v["mapping"],
+        v["limits"],
+        v["area"],
+        v["fibers"],
+        v["lumen_diameter"],
+        phase_windows(raw.get("phase") or ()),
+    )

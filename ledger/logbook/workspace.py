@@ -1,0 +1,80 @@
+"""Open the logbook for one command: the database at its schema, the acting user, one
+transaction. Front ends call these with the database they were given and get a session to
+pass to a service; they never open a database themselves."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import TYPE_CHECKING, Any, TypeVar
+
+if TYPE_CHECKING:
+    from sqlalchemy import Engine
+    from sqlmodel import Session
+
+    from ledger.store.tables import UserAccount
+
+T = TypeVar("T")
+
+
+def open_ledger(db: str | None, *, create: bool = False) -> Engine:
+    """The engine of an existing database at the current schema revision (``create``: any)."""
+    from ledger.store.engine import connect, resolve_url
+    from ledger.store.schema import require_current
+
+    engine = connect(resolve_url(db), create=create)
+    if not create:
+        require_current(engine)
+    return engine
+
+
+def write(
+    db: str | None,
+    login: str,
+    password: Callable[[], str],
+    work: Callable[[Session, UserAccount], T],
+) -> T:
+    """Authenticate ``login`` (its own small transaction, so a failed password stays counted),
+    then run ``work`` as one transaction: all of it is written, or nothing."""
+    from ledger.logbook.auth import authenticate
+    from ledger.store.engine import transaction
+
+    engine = open_ledger(db)
+    actor = authenticate(engine, login, password())
+    with transaction(engine) as session:
+        return work(session, actor)
+
+
+def sign_in(engine: Engine, login: str, password: str) -> UserAccount:
+    """The user whose ID and password these are (a failed attempt counts toward lockout)."""
+    from ledger.logbook.auth import authenticate
+
+    return authenticate(engine, login, password)
+
+
+def read(db: str | None, work: Callable[[Session], T]) -> T:
+    """Run ``work`` on a session of the database (read-only by convention)."""
+    from ledger.store.engine import transaction
+
+    with transaction(open_ledger(db)) as session:
+        return work(session)
+
+
+def authenticated_read(
+    db: str | None, login: str, password: Callable[[], str], work: Callable[[Session, Any], T]
+) -> T:
+    """``read`` as an authenticated user (for reads that a site restricts)."""
+    return write(db, login, password, work)
+
+
+def database_label(engine: Engine) -> str:
+    """The database's URL with its password and any secret parameter masked, to show a user."""
+    from ledger.store.engine import shown_url
+
+    return shown_url(engine)
+
+
+def stored_revision(engine: Engine) -> str | None:
+    """The schema revision a database holds (None: a new, empty database)."""
+    from ledger.store.schema import stored_revision as revision
+
+    return revision(engine)

@@ -1,0 +1,1 @@
+"""Entries: fields as typed in, checked SI values out."""

@@ -1,0 +1,1 @@
+"""Hostile input (parsers, identifiers, secrets): a LedgerError, never a traceback."""
