@@ -32,7 +32,7 @@ _WHY = {
 
 
 def _shown(text: str) -> str:
-    return text if len(text) <= _SHOWN else text[: _SHOWN - 3] + "..."
+    return text if len(text) <= _SHOWN else "..." + text[-(_SHOWN - 3) :]
 
 
 def _refuse(
