@@ -10,7 +10,7 @@ from sqlmodel import Session, select
 
 from ledger.errors import InputError, RefusedError
 from ledger.logbook.auth import DECIDERS, RECORDERS, require_role
-from ledger.logbook.required import existing, optional, positive, required, unique
+from ledger.logbook.required import new_identifier, optional, positive, required
 from ledger.rules.names import shown
 from ledger.rules.sequence import refusal
 from ledger.science.water import T_MAX, T_MIN
@@ -127,17 +127,17 @@ def check_type(spec: TypeSpec) -> TypeSpec:
 def add_type(session: Session, actor: UserAccount, spec: TypeSpec) -> ModuleType:
     require_role(actor, DECIDERS, "define module types and their acceptance limits")
     spec = check_type(spec)
-    found = existing(session, ModuleType.code, spec.code)
-    taken = InputError(
-        f"module type {shown(found or spec.code)} exists",
-        field="code",
-        value=spec.code,
-        expected="a new type code (codes differing only in case are the same)",
-    )
-    if found is not None:
-        raise taken
+
+    def taken(found: str) -> InputError:
+        return InputError(
+            f"module type {shown(found)} exists",
+            field="code",
+            value=spec.code,
+            expected="a new type code (codes differing only in case are the same)",
+        )
+
     values: dict[str, Any] = dict(spec.__dict__)
-    with unique("module_type", "code", taken):
+    with new_identifier(session, ModuleType.code, spec.code, taken):
         return Journal(session, actor.login).create(ModuleType(**values))
 
 
@@ -191,15 +191,16 @@ def add_module(
     )
     note = optional("note", note, "a note on the module")
     mtype = get_type(session, type_code)
-    found = existing(session, Module.serial, serial)
-    taken = InputError(
-        f"module {shown(found or serial)} is already registered",
-        field="serial",
-        value=serial,
-        expected="a serial not yet in the logbook (serials differing only in case are the same)",
-    )
-    if found is not None:
-        raise taken
+
+    def taken(found: str) -> InputError:
+        return InputError(
+            f"module {shown(found)} is already registered",
+            field="serial",
+            value=serial,
+            expected="a serial not yet in the logbook (serials differing only in case are the "
+            "same)",
+        )
+
     module = Module(
         serial=serial,
         type_id=row_id(mtype.id),
@@ -208,7 +209,7 @@ def add_module(
         note=note,
         status="commissioning",
     )
-    with unique("module", "serial", taken):
+    with new_identifier(session, Module.serial, serial, taken):
         return Journal(session, actor.login).create(module)
 
 

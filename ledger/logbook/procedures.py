@@ -8,7 +8,7 @@ from sqlmodel import Session, select
 
 from ledger.errors import InputError
 from ledger.logbook.auth import DECIDERS, require_role
-from ledger.logbook.required import existing, positive, required, unique
+from ledger.logbook.required import new_identifier, positive, required
 from ledger.rules.cleaning import Procedure
 from ledger.rules.names import shown
 from ledger.science.water import T_MAX, T_MIN
@@ -86,16 +86,16 @@ def check_procedure(p: ProcedureSpec) -> ProcedureSpec:
 def add_procedure(session: Session, actor: UserAccount, spec: ProcedureSpec) -> CleaningProcedure:
     require_role(actor, DECIDERS, "define cleaning procedures")
     spec = check_procedure(spec)
-    found = existing(session, CleaningProcedure.code, spec.code)
-    taken = InputError(
-        f"cleaning procedure {shown(found or spec.code)} exists",
-        field="code",
-        value=spec.code,
-        expected="a new procedure code (codes differing only in case are the same)",
-    )
-    if found is not None:
-        raise taken
-    with unique("cleaning_procedure", "code", taken):
+
+    def taken(found: str) -> InputError:
+        return InputError(
+            f"cleaning procedure {shown(found)} exists",
+            field="code",
+            value=spec.code,
+            expected="a new procedure code (codes differing only in case are the same)",
+        )
+
+    with new_identifier(session, CleaningProcedure.code, spec.code, taken):
         return Journal(session, actor.login).create(CleaningProcedure(**spec.__dict__))
 
 

@@ -3,7 +3,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from typing import Any, Literal
 
@@ -56,6 +56,20 @@ def existing(session: Session, column: Any, value: str) -> str | None:
         query = query.where(func.lower(column) == value.lower())
     key = names.fold(value)
     return next((found for found in session.exec(query) if names.fold(found) == key), None)
+
+
+@contextmanager
+def new_identifier(
+    session: Session, column: Any, value: str, taken: Callable[[str], InputError]
+) -> Iterator[None]:
+    """Create a record under a new identifier inside this block: refused with ``taken(found)``
+    when ``value`` is in ``column`` already, ignoring case, and with ``taken(value)`` when a
+    concurrent writer wins the race to the unique constraint."""
+    found = existing(session, column, value)
+    if found is not None:
+        raise taken(found)
+    with unique(column.property.columns[0].table.name, column.key, taken(value)):
+        yield
 
 
 @contextmanager

@@ -14,7 +14,7 @@ from ledger.logbook.auth import (
     hash_password,
     require_role,
 )
-from ledger.logbook.required import existing, required, unique
+from ledger.logbook.required import new_identifier, required
 from ledger.rules.names import shown
 from ledger.store.audit import Journal
 from ledger.store.tables import ROLES, Setting, UserAccount
@@ -67,20 +67,21 @@ def add_user(
     login = check_login(login)
     check_role(role)
     full_name = required("name", full_name, "the person's printed name")
-    taken = InputError(
-        f"user ID {shown(login)} exists (or existed): IDs are never reused",
-        field="login",
-        value=login,
-        expected="a new user ID",
-    )
-    if existing(session, UserAccount.login, login) is not None:
-        raise taken
+
+    def taken(found: str) -> InputError:
+        return InputError(
+            f"user ID {shown(login)} exists (or existed): IDs are never reused",
+            field="login",
+            value=login,
+            expected="a new user ID",
+        )
+
     user = UserAccount(
         login=login, full_name=full_name, role=role, password_hash=hash_password(password)
     )
     # Two administrators adding the same ID at once: the second insert breaks the unique
     # constraint (PostgreSQL) and gets the same answer as a lookup would have given.
-    with unique("user_account", "login", taken):
+    with new_identifier(session, UserAccount.login, login, taken):
         return Journal(session, actor.login).create(user)
 
 

@@ -14,7 +14,7 @@ import pytest
 from sqlmodel import Session, func, select
 
 from ledger.errors import InputError
-from ledger.logbook import modules, users
+from ledger.logbook import modules, required, users
 from ledger.logbook.modules import TypeSpec
 from ledger.rules import names
 from ledger.store.engine import connect, resolve_url, transaction
@@ -41,7 +41,6 @@ def _lock_free_lookup(session: Session, column: Any, value: str) -> str | None:
 def _race(
     engine: Any,
     monkeypatch: pytest.MonkeyPatch,
-    service: Any,
     work: Callable[[Session], object],
     *,
     locked: bool = True,
@@ -54,7 +53,7 @@ def _race(
     (and always on SQLite, BEGIN IMMEDIATE) the wait times out and the writers queue.
     """
     barrier = threading.Barrier(WRITERS)
-    lookup = service.existing if locked else _lock_free_lookup
+    lookup = required.existing if locked else _lock_free_lookup
 
     def look_then_wait(session: Session, column: Any, value: str) -> str | None:
         found = lookup(session, column, value)
@@ -62,7 +61,7 @@ def _race(
             barrier.wait(timeout=3)
         return found
 
-    monkeypatch.setattr(service, "existing", look_then_wait)
+    monkeypatch.setattr(required, "existing", look_then_wait)
     outcomes: list[str] = []
 
     def writer() -> None:
@@ -93,7 +92,7 @@ def test_four_simultaneous_user_adds_of_one_login(
     def add(s: Session) -> object:
         return users.add_user(s, admin, "op.same", "Sam Example", "operator", "operator-pass-1")
 
-    outcomes = _race(engine, monkeypatch, users, add, locked=locked)
+    outcomes = _race(engine, monkeypatch, add, locked=locked)
     refusal = ("InputError: user ID 'op.same' exists (or existed): IDs are never reused; "
                "expected a new user ID")  # fmt: skip
     assert sorted(outcomes) == [refusal] * (WRITERS - 1) + ["created"], outcomes
@@ -125,7 +124,7 @@ def test_four_simultaneous_module_adds_of_one_serial_in_different_case(
             serial = next(serials)
         return modules.add_module(s, op, serial, "HF-750")
 
-    outcomes = _race(engine, monkeypatch, modules, add)
+    outcomes = _race(engine, monkeypatch, add)
     assert outcomes.count("created") == 1, outcomes
     assert all(o.startswith("InputError: module ") and "is already registered" in o
                for o in outcomes if o != "created"), outcomes  # fmt: skip
@@ -156,8 +155,7 @@ def test_the_unique_constraint_answers_when_the_lookup_missed(
 
     with transaction(engine) as s:
         add(s)
-    monkeypatch.setattr(users, "existing", lambda *_: None)
-    monkeypatch.setattr(modules, "existing", lambda *_: None)
+    monkeypatch.setattr(required, "existing", lambda *_: None)
     with pytest.raises(InputError) as caught, transaction(engine) as s:
         add(s)
     assert caught.value.field in ("login", "code")
