@@ -14,22 +14,12 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-from ledger.entries.fields import Field, Spec, Values, exactly_one, together
+from ledger.entries.fields import Field, Spec, exactly_one, together
 from ledger.errors import InputError
 
 if TYPE_CHECKING:
     from ledger.pointsfile import Points
     from ledger.science.trending import Model
-
-
-def parse_with_defaults(
-    spec: Spec, raw: Mapping[str, object], defaults: Mapping[str, str] | None = None
-) -> Values:
-    """``spec.parse(raw)``, a field left out (None or blank) taking its default."""
-    given = {
-        k: x for k, x in raw.items() if x is not None and not (isinstance(x, str) and not x.strip())
-    }
-    return spec.parse({**(defaults or {}), **given})
 
 
 def typed_unit(text: str | None) -> str | None:
@@ -56,7 +46,7 @@ class ViscosityEntry:
 
 def viscosity(raw: Mapping[str, object]) -> ViscosityEntry:
     """Check the inputs of ``calc viscosity``."""
-    v = parse_with_defaults(VISCOSITY, raw)
+    v = VISCOSITY.parse(raw)
     return ViscosityEntry(temperature=v["temperature"])
 
 
@@ -93,7 +83,7 @@ class ShearEntry:
 
 def shear(raw: Mapping[str, object]) -> ShearEntry:
     """Check the inputs of ``calc shear``: a feed flow or a target shear, not both."""
-    v = parse_with_defaults(SHEAR, raw, SHEAR_DEFAULTS)
+    v = SHEAR.parse(raw, SHEAR_DEFAULTS)
     exactly_one(v, "feed_flow", "target_shear")
     return ShearEntry(
         fibers=v["fibers"],
@@ -136,7 +126,7 @@ class DiafiltrationEntry:
 
 def diafiltration(raw: Mapping[str, object]) -> DiafiltrationEntry:
     """Check the inputs of ``calc diafiltration``: a removal or diavolumes, not both."""
-    v = parse_with_defaults(DIAFILTRATION, raw, DIAFILTRATION_DEFAULTS)
+    v = DIAFILTRATION.parse(raw, DIAFILTRATION_DEFAULTS)
     exactly_one(v, "removal", "diavolumes")
     return DiafiltrationEntry(
         removal=v["removal"],
@@ -180,7 +170,7 @@ class ConcentrationEntry:
 
 def concentration(raw: Mapping[str, object]) -> ConcentrationEntry:
     """Check the inputs of ``calc concentration``: a factor, or the volumes before and after."""
-    v = parse_with_defaults(CONCENTRATION, raw, CONCENTRATION_DEFAULTS)
+    v = CONCENTRATION.parse(raw, CONCENTRATION_DEFAULTS)
     volumes = v.given("initial_volume", "final_volume")
     if v["factor"] is not None:
         if len(volumes) == 2:
@@ -239,7 +229,7 @@ def optimum(raw: Mapping[str, object]) -> OptimumEntry:
     """Check the inputs of ``calc optimum`` and read its flux-against-concentration points."""
     from ledger.pointsfile import Column, read_points
 
-    v = parse_with_defaults(OPTIMUM, raw)
+    v = OPTIMUM.parse(raw)
     together(v, "time and buffer", "product_mass", "diavolumes", "area")
     pts = read_points(
         v["points_file"],
@@ -285,7 +275,7 @@ def lifetime(raw: Mapping[str, object]) -> LifetimeEntry:
     """Check the inputs of ``calc lifetime`` and read its recovery-per-cycle points."""
     from ledger.pointsfile import Column, read_points
 
-    v = parse_with_defaults(LIFETIME, raw, LIFETIME_DEFAULTS)
+    v = LIFETIME.parse(raw, LIFETIME_DEFAULTS)
     model = next((m for m in LIFE_MODELS if m == str(v["model"])), None)
     if model is None:
         raise InputError(

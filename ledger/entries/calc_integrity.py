@@ -11,7 +11,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-from ledger.entries.calc import parse_with_defaults, typed_unit
+from ledger.entries.calc import typed_unit
 from ledger.entries.fields import Field, Spec, exactly_one, together
 from ledger.errors import InputError
 
@@ -83,7 +83,7 @@ def decay(raw: Mapping[str, object]) -> DecayEntry:
     from ledger.entries.integrity import read_decay_readings
 
     try:
-        v = parse_with_defaults(DECAY, raw, DECAY_DEFAULTS)
+        v = DECAY.parse(raw, DECAY_DEFAULTS)
     except InputError as err:
         if err.field != "limit":
             raise
@@ -154,7 +154,7 @@ class BubblePointEntry:
 
 def bubble_point(raw: Mapping[str, object]) -> BubblePointEntry:
     """Check the inputs of ``calc bubble-point``: a pore size or a pressure, not both."""
-    v = parse_with_defaults(BUBBLE_POINT, raw, BUBBLE_POINT_DEFAULTS)
+    v = BUBBLE_POINT.parse(raw, BUBBLE_POINT_DEFAULTS)
     exactly_one(v, "pore_size", "pressure")
     return BubblePointEntry(
         pore_size=v["pore_size"],

@@ -206,8 +206,9 @@ class Spec:
     def field(self, name: str) -> Field:
         return next(f for f in self.fields if f.name == name)
 
-    def parse(self, raw: Mapping[str, object]) -> Values:
-        """Checked values from ``raw`` (keys that are not fields of this entry are ignored).
+    def parse(self, raw: Mapping[str, object], defaults: Mapping[str, str] | None = None) -> Values:
+        """Checked values from ``raw`` (keys that are not fields of this entry are ignored);
+        a field left out (None, or blank text) takes its text from ``defaults``.
 
         Every given field is parsed, even one the chosen mode will not use, so a malformed
         value is never silently ignored.
@@ -218,6 +219,8 @@ class Spec:
             text = raw.get(f.name)
             if isinstance(text, str) and f.kind != "text" and not text.strip():
                 text = None  # an empty web form field is a field left out
+            if text is None and defaults:
+                text = defaults.get(f.name)
             if text is None:
                 if f.required:
                     missing.append(f.name)

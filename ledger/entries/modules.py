@@ -58,8 +58,7 @@ def module_type(raw: Mapping[str, object]) -> TypeSpec:
     """Check a module-type entry (SI)."""
     from ledger.logbook.modules import TypeSpec
 
-    given = {k: x for k, x in raw.items() if x is not None}
-    v = MODULE_TYPE.parse({**TYPE_DEFAULTS, **given})
+    v = MODULE_TYPE.parse(raw, TYPE_DEFAULTS)
     return TypeSpec(
         code=v["code"].strip(),
         membrane=v["membrane"],

@@ -304,7 +304,7 @@ class NwpCalcEntry:
 def nwp_calc(raw: Mapping[str, object]) -> NwpCalcEntry:
     """Check the NWP calculator's inputs."""
     defaults = {"reference_temperature": "20 degC", "correction": "viscosity"}
-    v = NWP_CALC.parse({**defaults, **{k: x for k, x in raw.items() if x is not None}})
+    v = NWP_CALC.parse(raw, defaults)
     method = str(v["correction"])
     if method not in CORRECTIONS:
         raise InputError(
