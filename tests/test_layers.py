@@ -60,6 +60,10 @@ def test_cli_start_up_path_has_no_heavy_imports() -> None:
     # `fluxledger --help` must stay close to bare typer (DEVELOPERS.md): no numpy, pint, pandas.
     mods = _loaded_after("import ledger.cli.main")
     assert not {"numpy", "pint", "pandas", "scipy", "sqlalchemy", "reportlab"} & mods
+    # Entries load with the command that uses them, not when the commands are registered.
+    assert not {m for m in mods if m.startswith("ledger.entries.")} - {
+        "ledger.entries.calc_defaults"
+    }
 
 
 # Each layer may use the ones below it only (DEVELOPERS.md).

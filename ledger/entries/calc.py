@@ -14,6 +14,12 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
+from ledger.entries.calc_defaults import (
+    CONCENTRATION_DEFAULTS,
+    DIAFILTRATION_DEFAULTS,
+    LIFETIME_DEFAULTS,
+    SHEAR_DEFAULTS,
+)
 from ledger.entries.fields import Field, Spec, exactly_one, together
 from ledger.errors import InputError
 
@@ -63,7 +69,6 @@ SHEAR = Spec(
         Field("temperature", "temperature"),
     ),
 )
-SHEAR_DEFAULTS = {"temperature": "20 degC"}
 
 
 @dataclass(frozen=True)
@@ -107,7 +112,6 @@ DIAFILTRATION = Spec(
         Field("dilution_factor", "number"),
     ),
 )
-DIAFILTRATION_DEFAULTS = {"sieving": "1"}
 
 
 @dataclass(frozen=True)
@@ -150,7 +154,6 @@ CONCENTRATION = Spec(
         Field("area", "area", positive=True),
     ),
 )
-CONCENTRATION_DEFAULTS = {"rejection": "1"}
 
 
 @dataclass(frozen=True)
@@ -256,7 +259,6 @@ LIFETIME = Spec(
         Field("baseline_cycles", "integer"),
     ),
 )
-LIFETIME_DEFAULTS = {"model": "linear"}
 LIFE_MODELS: tuple[Model, ...] = ("linear", "exponential")
 
 

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 from ledger.entries.calc import typed_unit
+from ledger.entries.calc_defaults import BUBBLE_POINT_DEFAULTS, DECAY_DEFAULTS
 from ledger.entries.fields import Field, Spec, exactly_one, together
 from ledger.errors import InputError
 
@@ -38,12 +39,6 @@ DECAY = Spec(
         Field("temperature", "temperature"),
     ),
 )
-DECAY_DEFAULTS = {
-    "atmosphere": "1 atm",
-    "back_pressure": "0 psi",
-    "vcf": "1.0",
-    "temperature": "20 degC",
-}
 # The unit a decay rate is shown in when neither --rate nor --limit gives one.
 RATE_UNIT = "mbar/min"
 
@@ -135,7 +130,6 @@ BUBBLE_POINT = Spec(
         Field("temperature", "temperature"),
     ),
 )
-BUBBLE_POINT_DEFAULTS = {"contact_angle": "0.0", "temperature": "20 degC"}
 
 
 @dataclass(frozen=True)

@@ -8,7 +8,6 @@ import typer
 
 from ledger.cli.calc import app
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.entries import calc as calc_entries
 
 
 @app.command("optimum")
@@ -32,6 +31,8 @@ def optimum(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Gel-polarization fit J = k·ln(Cg/Cb) and the diafiltration optimum Cb = Cg/e."""
+    from ledger.entries import calc as calc_entries
+
     e = calc_entries.optimum(locals())
     from ledger.cli.output import Q, Report, Table
     from ledger.science import gel

@@ -6,7 +6,7 @@ import typer
 
 from ledger.cli.calc import app
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.entries import calc as calc_entries
+from ledger.entries import calc_defaults
 
 
 @app.command("shear")
@@ -24,13 +24,15 @@ def shear(
         None, "--length", help="Effective fiber length for the pressure drop, e.g. '30 cm'."
     ),
     temperature: str = quantity_option(
-        calc_entries.SHEAR_DEFAULTS["temperature"],
+        calc_defaults.SHEAR_DEFAULTS["temperature"],
         "--temperature",
         help="Fluid temperature (water properties).",
     ),
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Wall shear rate, pressure drop and Reynolds number in the fibers (laminar flow)."""
+    from ledger.entries import calc as calc_entries
+
     e = calc_entries.shear(locals())
     from ledger.cli.output import Q, Report
     from ledger.science import hydraulics

@@ -8,10 +8,10 @@ import typer
 
 from ledger.cli.calc import app
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.entries import calc_integrity as calc_entries
+from ledger.entries import calc_defaults
 
-DECAY = calc_entries.DECAY_DEFAULTS
-BUBBLE = calc_entries.BUBBLE_POINT_DEFAULTS
+DECAY = calc_defaults.DECAY_DEFAULTS
+BUBBLE = calc_defaults.BUBBLE_POINT_DEFAULTS
 
 
 @app.command("decay")
@@ -67,6 +67,8 @@ def decay(
 
     Exits 1 when a --limit is given and the test fails it.
     """
+    from ledger.entries import calc_integrity as calc_entries
+
     e = calc_entries.decay(locals())
     from ledger.cli.output import Q, Report, Table
     from ledger.science import integrity, water
@@ -161,6 +163,8 @@ def bubble_point(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Young–Laplace bubble point from a pore size, or the pore size from a bubble point."""
+    from ledger.entries import calc_integrity as calc_entries
+
     e = calc_entries.bubble_point(locals())
     from ledger.cli.output import Q, Report
     from ledger.science import integrity, water

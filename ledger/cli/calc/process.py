@@ -6,7 +6,7 @@ import typer
 
 from ledger.cli.calc import app
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.entries import calc as calc_entries
+from ledger.entries import calc_defaults
 
 
 @app.command("diafiltration")
@@ -19,7 +19,7 @@ def diafiltration(
         None, "--diavolumes", help="Diavolumes to run.", metavar="<float>"
     ),
     sieving: str = quantity_option(
-        calc_entries.DIAFILTRATION_DEFAULTS["sieving"],
+        calc_defaults.DIAFILTRATION_DEFAULTS["sieving"],
         "--sieving",
         help="Sieving coefficient S = 1 - rejection, as '60 %' or a bare ratio (default 1: "
         "passes freely).",
@@ -36,6 +36,8 @@ def diafiltration(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Constant-volume diafiltration: diavolumes, wash-out and buffer volume."""
+    from ledger.entries import calc as calc_entries
+
     e = calc_entries.diafiltration(locals())
     from ledger.cli.output import Q, Report
     from ledger.science import concentration as conc
@@ -91,7 +93,7 @@ def concentration(
         None, "--final-volume", help="Volume after concentration, e.g. '500 mL'."
     ),
     rejection: str = quantity_option(
-        calc_entries.CONCENTRATION_DEFAULTS["rejection"],
+        calc_defaults.CONCENTRATION_DEFAULTS["rejection"],
         "--rejection",
         help="Observed rejection of the product, as '99.5 %' or a bare ratio (default 1: fully "
         "retained).",
@@ -105,6 +107,8 @@ def concentration(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Concentration factor, final concentration and yield with observed rejection."""
+    from ledger.entries import calc as calc_entries
+
     e = calc_entries.concentration(locals())
     from ledger.cli.output import Q, Report
     from ledger.science import concentration as conc

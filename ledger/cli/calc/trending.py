@@ -9,7 +9,6 @@ import typer
 
 from ledger.cli.calc import app
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.entries import calc as calc_entries
 
 
 class LifeModel(StrEnum):
@@ -39,6 +38,8 @@ def lifetime(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Reuse-life projection of NWP recovery with a one-sided 95 % bound (ICH Q1E approach)."""
+    from ledger.entries import calc as calc_entries
+
     e = calc_entries.lifetime(locals())
     from ledger.cli.output import Q, Report, Table
     from ledger.science import trending
