@@ -9,6 +9,7 @@ import typer
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
 from ledger.cli.describe import SITE_NOTE, finish
 from ledger.cli.session import DB_OPTION, PASSWORD_STDIN, USER_OPTION, read, write
+from ledger.entries.defaults import TYPE_DEFAULTS as TYPE
 
 types_app = typer.Typer(
     help="Module types: geometry, membrane and the site's limits.", no_args_is_help=True
@@ -55,19 +56,25 @@ def type_add(
         "starts, e.g. '72 h' (default: the storage limit).",
     ),
     reference_temperature: str = quantity_option(
-        "20 degC", "--reference-temperature", help="T_ref of NWP (default 20 degC)."
+        TYPE["reference_temperature"],
+        "--reference-temperature",
+        help="T_ref of NWP (default 20 degC).",
     ),
     recovery_min: str = quantity_option(
-        "80 %", "--recovery-min", help="Post-clean recovery minimum (default 80 %)."
+        TYPE["recovery_min"], "--recovery-min", help="Post-clean recovery minimum (default 80 %)."
     ),
     recovery_alert: str = quantity_option(
-        "90 %", "--recovery-alert", help="Alert below (default 90 %)."
+        TYPE["recovery_alert"], "--recovery-alert", help="Alert below (default 90 %)."
     ),
     damage_ratio: str = quantity_option(
-        "120 %", "--damage-ratio", help="NWP above this share of baseline suggests damage (120 %)."
+        TYPE["damage_ratio"],
+        "--damage-ratio",
+        help="NWP above this share of baseline suggests damage (120 %).",
     ),
     preuse_band: str = quantity_option(
-        "10 %", "--preuse-band", help="Pre-use NWP band around the last post-clean (±10 %)."
+        TYPE["preuse_band"],
+        "--preuse-band",
+        help="Pre-use NWP band around the last post-clean (±10 %).",
     ),
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,

@@ -14,7 +14,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-from ledger.entries.calc_defaults import (
+from ledger.entries.defaults import (
     CONCENTRATION_DEFAULTS,
     DIAFILTRATION_DEFAULTS,
     LIFETIME_DEFAULTS,

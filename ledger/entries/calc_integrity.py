@@ -12,7 +12,7 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 from ledger.entries.calc import typed_unit
-from ledger.entries.calc_defaults import BUBBLE_POINT_DEFAULTS, DECAY_DEFAULTS
+from ledger.entries.defaults import BUBBLE_POINT_DEFAULTS, DECAY_DEFAULTS
 from ledger.entries.fields import Field, Spec, exactly_one, together
 from ledger.errors import InputError
 

@@ -8,6 +8,7 @@ from dataclasses import dataclass
 from datetime import date
 from typing import TYPE_CHECKING
 
+from ledger.entries.defaults import TYPE_DEFAULTS
 from ledger.entries.fields import Field, Spec
 
 if TYPE_CHECKING:
@@ -44,14 +45,6 @@ MODULE_TYPE = Spec(
         _limit("preuse_band", "fraction"),
     ),
 )
-# Common practice, no single source; a site states its own validated values.
-TYPE_DEFAULTS = {
-    "reference_temperature": "20 degC",
-    "recovery_min": "80 %",
-    "recovery_alert": "90 %",
-    "damage_ratio": "120 %",
-    "preuse_band": "10 %",
-}
 
 
 def module_type(raw: Mapping[str, object]) -> TypeSpec:

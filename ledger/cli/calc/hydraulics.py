@@ -6,7 +6,7 @@ import typer
 
 from ledger.cli.calc import app
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.entries import calc_defaults
+from ledger.entries import defaults as entry_defaults
 
 
 @app.command("shear")
@@ -24,7 +24,7 @@ def shear(
         None, "--length", help="Effective fiber length for the pressure drop, e.g. '30 cm'."
     ),
     temperature: str = quantity_option(
-        calc_defaults.SHEAR_DEFAULTS["temperature"],
+        entry_defaults.SHEAR_DEFAULTS["temperature"],
         "--temperature",
         help="Fluid temperature (water properties).",
     ),

@@ -8,10 +8,10 @@ import typer
 
 from ledger.cli.calc import app
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.entries import calc_defaults
+from ledger.entries import defaults as entry_defaults
 
-DECAY = calc_defaults.DECAY_DEFAULTS
-BUBBLE = calc_defaults.BUBBLE_POINT_DEFAULTS
+DECAY = entry_defaults.DECAY_DEFAULTS
+BUBBLE = entry_defaults.BUBBLE_POINT_DEFAULTS
 
 
 @app.command("decay")

@@ -6,7 +6,7 @@ import typer
 
 from ledger.cli.calc import app
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.entries import calc_defaults
+from ledger.entries import defaults as entry_defaults
 
 
 @app.command("diafiltration")
@@ -19,7 +19,7 @@ def diafiltration(
         None, "--diavolumes", help="Diavolumes to run.", metavar="<float>"
     ),
     sieving: str = quantity_option(
-        calc_defaults.DIAFILTRATION_DEFAULTS["sieving"],
+        entry_defaults.DIAFILTRATION_DEFAULTS["sieving"],
         "--sieving",
         help="Sieving coefficient S = 1 - rejection, as '60 %' or a bare ratio (default 1: "
         "passes freely).",
@@ -93,7 +93,7 @@ def concentration(
         None, "--final-volume", help="Volume after concentration, e.g. '500 mL'."
     ),
     rejection: str = quantity_option(
-        calc_defaults.CONCENTRATION_DEFAULTS["rejection"],
+        entry_defaults.CONCENTRATION_DEFAULTS["rejection"],
         "--rejection",
         help="Observed rejection of the product, as '99.5 %' or a bare ratio (default 1: fully "
         "retained).",

@@ -91,7 +91,7 @@ def nwp(
     """Normalized water permeability (NWP) from a clean-water flux test."""
     from ledger.cli.output import Q, Report, Table
     from ledger.entries.water import nwp_calc
-    from ledger.rules.water_test import intercept_suspect
+    from ledger.rules.water_test import INTERCEPT_RATIO_MAX, intercept_suspect
     from ledger.science import permeability as perm
     from ledger.science import water
 
@@ -152,8 +152,8 @@ def nwp(
         res.add("points", slope.n)
         if intercept_suspect(slope.intercept_ratio):
             report.notes.append(
-                "the intercept exceeds 10 % of the mean flux: check the pressure zero, "
-                "membrane compaction or residual fouling"
+                f"the intercept exceeds {INTERCEPT_RATIO_MAX * 100:g} % of the mean flux: check "
+                "the pressure zero, membrane compaction or residual fouling"
             )
         nwp_value = slope.nwp
     if e.baseline is not None:
