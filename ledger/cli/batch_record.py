@@ -314,17 +314,10 @@ def verify(
     """Check a record file against the database: seal, file content, revision, signatures and
     audit trail. Exit 1 naming each problem."""
     from ledger.cli.output import Report
-    from ledger.records.verify import verify_file
+    from ledger.records.verify import MAX_RECORD_BYTES, verify_file
+    from ledger.userfiles import read_user_file
 
-    try:
-        data = file.read_bytes()
-    except OSError as exc:
-        raise InputError(
-            f"cannot read {file}: {exc.strerror}",
-            field="file",
-            value=str(file),
-            expected="a readable PDF file",
-        ) from None
+    data = read_user_file(file, "file", MAX_RECORD_BYTES)
     result = read(db, lambda s: verify_file(s, data, trust=trust))
     report = Report("record verify", verdict="verified" if result.ok else "PROBLEMS FOUND")
     sec = report.section("File")

@@ -132,6 +132,10 @@ def _first_difference(a: bytes, b: bytes) -> int:
     return next((i for i in range(n) if a[i] != b[i]), n)
 
 
+# A batch record is a few hundred KiB; anything far larger is not one of ours.
+MAX_RECORD_BYTES = 256 << 20
+
+
 def verify_file(session: Session, data: bytes, *, trust: Sequence[Path] = ()) -> Report:
     """Check a batch-record PDF (sealed or not) against the database; see the module doc."""
     from ledger.records.pdf import render, stamp_of

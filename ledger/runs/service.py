@@ -226,16 +226,11 @@ def import_log(
     require_role(actor, RECORDERS, "import skid logs")
     run = get_run(session, run_id, lock=True)
     _allow(run, "import")
+    from ledger.runs.skidlog import MAX_BYTES
+    from ledger.userfiles import read_user_file
+
     path = Path(path)
-    try:
-        content = path.read_bytes()
-    except OSError as exc:
-        raise InputError(
-            f"cannot read skid log {path}: {exc.strerror}",
-            field="file",
-            value=str(path),
-            expected="a readable CSV file",
-        ) from None
+    content = read_user_file(path, "file", MAX_BYTES)
     digest = hashlib.sha256(content).hexdigest()
     existing = session.exec(
         select(SkidLogFile).where(

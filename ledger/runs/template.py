@@ -232,16 +232,10 @@ def find(ref: str) -> Template:
 
 def load(path: str | Path) -> Template:
     """Read and validate a template file."""
-    path = Path(path)
-    try:
-        raw = path.read_bytes()
-    except OSError as exc:
-        raise InputError(
-            f"cannot read template {path}: {exc.strerror}",
-            field="template",
-            value=str(path),
-            expected="a readable template file",
-        ) from None
+    from ledger import tomlfile
+    from ledger.userfiles import read_user_file
+
+    raw = read_user_file(path, "template", tomlfile.MAX_BYTES)
     return parse(raw, str(path))
 
 
