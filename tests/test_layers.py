@@ -61,9 +61,7 @@ def test_cli_start_up_path_has_no_heavy_imports() -> None:
     mods = _loaded_after("import ledger.cli.main")
     assert not {"numpy", "pint", "pandas", "scipy", "sqlalchemy", "reportlab"} & mods
     # Entries load with the command that uses them, not when the commands are registered.
-    assert not {m for m in mods if m.startswith("ledger.entries.")} - {
-        "ledger.entries.defaults"
-    }
+    assert not {m for m in mods if m.startswith("ledger.entries.")} - {"ledger.entries.defaults"}
 
 
 # Each layer may use the ones below it only (DEVELOPERS.md).
