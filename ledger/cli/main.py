@@ -1,24 +1,46 @@
-"""Entry point of the ``fluxledger`` command. Heavy imports stay inside the commands."""
+"""Entry point of the ``fluxledger`` command. Heavy imports stay inside the commands.
+
+A process runs one command, so ``main`` imports only the command group named on its command
+line (``fluxledger module list`` loads ``ledger.cli.modules`` and nothing of ``runs`` or
+``calc``); help, an unknown name or a bare ``fluxledger`` load every group. Importing ``app``
+from here (the tests, the demo) gives the whole tree.
+"""
 
 from __future__ import annotations
+
+import sys
+from collections.abc import Callable, Sequence
+from importlib import import_module
+from typing import Any
 
 import typer
 
 from ledger import __version__
-from ledger.cli.common import guarded
 
-app = typer.Typer(
-    name="fluxledger",
-    help=(
-        "Module history, fit-for-reuse decisions and batch records for hollow-fiber TFF.\n\n"
-        "Acceptance limits come from your site's validated procedures and its quality unit; "
-        "this tool supports their decisions and does not replace them."
-    ),
-    no_args_is_help=True,
-    pretty_exceptions_enable=False,
-    rich_markup_mode=None,
-    add_completion=False,
+HELP = (
+    "Module history, fit-for-reuse decisions and batch records for hollow-fiber TFF.\n\n"
+    "Acceptance limits come from your site's validated procedures and its quality unit; "
+    "this tool supports their decisions and does not replace them."
 )
+
+# Command name -> (module under ledger.cli, attribute, "group" or "command"), in help order.
+COMMANDS: dict[str, tuple[str, str, str]] = {
+    "init": ("setup", "init", "command"),
+    "module-type": ("modules", "types_app", "group"),
+    "module": ("modules", "app", "group"),
+    "test": ("logbook", "test_app", "group"),
+    "care": ("logbook", "care_app", "group"),
+    "use": ("logbook", "use_app", "group"),
+    "void": ("logbook", "void", "command"),
+    "fitness": ("fitness", "fitness", "command"),
+    "audit": ("audit", "app", "group"),
+    "user": ("users", "app", "group"),
+    "calc": ("calc", "app", "group"),
+    "run": ("runs", "app", "group"),
+    "log": ("logs", "app", "group"),
+    "record": ("batch_record", "app", "group"),
+    "demo": ("demo", "demo", "command"),
+}
 
 
 def _version(value: bool) -> None:
@@ -27,7 +49,6 @@ def _version(value: bool) -> None:
         raise typer.Exit()
 
 
-@app.callback()
 def root(
     version: bool = typer.Option(
         False, "--version", callback=_version, is_eager=True, help="Print the version and exit."
@@ -39,38 +60,59 @@ def root(
     reset_stdin()
 
 
-def _register() -> None:
-    from ledger.cli import audit, calc, demo, fitness, logbook, modules, setup, users
+def build(only: str | None = None) -> typer.Typer:
+    """The command tree: every command, or only the one named ``only`` (a key of COMMANDS)."""
+    from ledger.cli.coercion import install
+    from ledger.cli.common import guarded
 
-    app.command("init")(setup.init)
-    app.add_typer(modules.types_app, name="module-type")
-    app.add_typer(modules.app, name="module")
-    app.add_typer(logbook.test_app, name="test")
-    app.add_typer(logbook.care_app, name="care")
-    app.add_typer(logbook.use_app, name="use")
-    app.command("void")(logbook.void)
-    app.command("fitness")(fitness.fitness)
-    app.add_typer(audit.app, name="audit")
-    app.add_typer(users.app, name="user")
-    app.add_typer(calc.app, name="calc")
-    from ledger.cli import runs as run_commands
+    install()
+    tree = typer.Typer(
+        name="fluxledger",
+        help=HELP,
+        no_args_is_help=True,
+        pretty_exceptions_enable=False,
+        rich_markup_mode=None,
+        add_completion=False,
+    )
+    tree.callback()(root)
+    for name, (module, attribute, kind) in COMMANDS.items():
+        if only is not None and name != only:
+            continue
+        target: Any = getattr(import_module(f"ledger.cli.{module}"), attribute)
+        if kind == "group":
+            tree.add_typer(target, name=name)
+        else:
+            wrap: Callable[[Any], Any] = guarded if name == "demo" else (lambda f: f)
+            tree.command(name)(wrap(target))
+    return tree
 
-    app.add_typer(run_commands.app, name="run")
-    from ledger.cli import logs
 
-    app.add_typer(logs.app, name="log")
-    from ledger.cli import batch_record
+def named_command(argv: Sequence[str]) -> str | None:
+    """The command a command line names, when it names one of COMMANDS; None for help,
+    --version, nothing or an unknown name (those need the whole tree)."""
+    for token in argv:
+        if token.startswith("-"):
+            return None  # a root option (--help, --version) comes before any command
+        return token if token in COMMANDS else None
+    return None
 
-    app.add_typer(batch_record.app, name="record")
-    app.command("demo")(guarded(demo.demo))
+
+_full: typer.Typer | None = None
 
 
-_register()
+def __getattr__(name: str) -> Any:
+    """``app``: the whole command tree, built once on first use."""
+    global _full
+    if name == "app":
+        if _full is None:
+            _full = build()
+        return _full
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 def main() -> None:
     """Console-script entry point."""
-    app(prog_name="fluxledger")
+    build(named_command(sys.argv[1:]))(prog_name="fluxledger")
 
 
 if __name__ == "__main__":  # pragma: no cover
