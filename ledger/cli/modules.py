@@ -30,7 +30,12 @@ def type_add(
     ),
     fibers: int = typer.Option(..., "--fibers", help="Number of fibers."),
     length: str = quantity_option(..., "--length", help="Effective fiber length, '30 cm'."),
-    area: str = quantity_option(..., "--area", help="Membrane area, '565 cm^2'."),
+    area: str | None = quantity_option(
+        None,
+        "--area",
+        help="Membrane area, '565 cm^2' (default: fibers × π × lumen diameter × length; a "
+        "stated area must agree with that within 15 %).",
+    ),
     decay_limit: str = quantity_option(
         ..., "--decay-limit", help="Pressure-decay limit, e.g. '0.3 psi/min'."
     ),

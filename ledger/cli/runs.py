@@ -36,16 +36,32 @@ def _value(v: Any) -> Any:
 @app.command("templates")
 @guarded
 def list_templates(as_json: bool = JSON_OPTION) -> None:
-    """List the master-record templates shipped with fluxledger."""
-    from ledger.cli.output import Report, Table
-    from ledger.runs.template import shipped
+    """List the master-record templates shipped with fluxledger and the inputs each asks for
+    (an input without a default must be given to `run plan`)."""
+    from ledger.cli.output import Q, Report, Table
+    from ledger.runs.template import catalogue
 
     report = Report("run templates")
-    table = Table("Templates", [("id", "ID"), ("version", "version"), ("title", "title"),
-                                ("sha256", "SHA-256"), ("file", "file")])  # fmt: skip
-    for t in shipped():
-        table.rows.append([t.id, t.version, t.title, t.sha256, Path(t.source).name])
+    table = Table("Templates", [("id", "ID"), ("version", "version"), ("product", "product"),
+                                ("title", "title"), ("sha256", "SHA-256"), ("file", "file"),
+                                ("inputs", "inputs")],
+                  json_only=frozenset({"sha256", "file", "inputs"}))  # fmt: skip
     report.tables.append(table)
+    for t in catalogue():
+        inputs, rows = [], []
+        for i in t.inputs:
+            number = i.default is None or i.kind == "number"
+            default = i.default if number else Q(i.default, i.kind)  # type: ignore[arg-type]
+            inputs.append({"name": i.name, "kind": i.kind, "unit": i.unit,
+                           "required": i.required, "default": default,
+                           "title": i.title})  # fmt: skip
+            rows.append([i.name, i.kind, i.unit or "—", "required" if i.required else default,
+                         i.title])  # fmt: skip
+        table.rows.append([t.id, t.version, t.product, t.title, t.sha256, t.file, inputs])
+        if not as_json:  # JSON holds them in each template's row
+            columns = [("name", "input"), ("kind", "kind"), ("unit", "unit"),
+                       ("default", "default"), ("title", "what")]  # fmt: skip
+            report.tables.append(Table(f"Inputs of {t.id}", columns, rows))
     report.print(as_json)
 
 
@@ -68,6 +84,12 @@ def plan(
     override_reason: str | None = typer.Option(
         None, "--override-reason", help="Plan on a module that is NOT FIT, and why (recorded)."
     ),
+    product_override_reason: str | None = typer.Option(
+        None,
+        "--product-override-reason",
+        help="Plan with a template written for another product than --product, and why "
+        "(recorded in the plan and the audit trail).",
+    ),
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
@@ -84,11 +106,14 @@ def plan(
         password_stdin,
         lambda s, a: plan_run(
             s, a, e.template, e.module, e.product, e.lot, e.inputs, scouting=e.scouting,
-            override_reason=e.override_reason,
+            override_reason=e.override_reason, product_override_reason=e.product_override_reason,
         ),
     )  # fmt: skip
     if not as_json:
         typer.echo(f"planned run {run.id}: {run.template_id} v{run.template_version} on {module}")
+        if e.product_override_reason:
+            typer.echo(f"template of another product used for {run.product}: "
+                       f"{e.product_override_reason}")  # fmt: skip
     _show(db, run.id, as_json)  # type: ignore[arg-type]
 
 

@@ -28,7 +28,7 @@ MODULE_TYPE = Spec(
         _limit("lumen_diameter", "length", True),
         Field("fibers", "integer", required=True),
         _limit("length", "length", True),
-        _limit("area", "area", True),
+        _limit("area", "area"),  # left out: the inner lumen area of the fibers
         _limit("decay_limit", "pressure_rate", True),
         _limit("test_pressure", "pressure", True),
         Field("reuse_limit", "integer", required=True),
@@ -48,7 +48,8 @@ MODULE_TYPE = Spec(
 
 
 def module_type(raw: Mapping[str, object]) -> TypeSpec:
-    """Check a module-type entry (SI)."""
+    """Check a module-type entry (SI). Without an area the service computes the inner lumen
+    area (fibers × π × lumen diameter × length); a stated one is checked against it."""
     from ledger.logbook.modules import TypeSpec
 
     v = MODULE_TYPE.parse(raw, TYPE_DEFAULTS)

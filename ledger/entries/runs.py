@@ -85,6 +85,7 @@ RUN_PLAN = Spec(
         Field("lot", required=True),
         Field("scouting"),
         Field("override_reason"),
+        Field("product_override_reason"),
     ),
 )
 
@@ -98,6 +99,7 @@ class PlanEntry:
     inputs: dict[str, str]  # checked against the template's inputs by the planner
     scouting: list[tuple[float, float]] | None
     override_reason: str | None
+    product_override_reason: str | None = None  # a template of another product, and why
 
 
 def run_plan(raw: Mapping[str, Any]) -> PlanEntry:
@@ -106,8 +108,9 @@ def run_plan(raw: Mapping[str, Any]) -> PlanEntry:
     given = pairs(list(raw.get("inputs") or ()), "input")
     scouting = read_scouting(v["scouting"]) if v["scouting"] is not None else None
     return PlanEntry(
-        v["template"], v["module"], v["product"], v["lot"], given, scouting, v["override_reason"]
-    )
+        v["template"], v["module"], v["product"], v["lot"], given, scouting, v["override_reason"],
+        v["product_override_reason"],
+    )  # fmt: skip
 
 
 RUN_IMPORT = Spec(

@@ -11,8 +11,10 @@ from sqlmodel import Session, select
 from ledger.errors import InputError, RefusedError
 from ledger.logbook.auth import DECIDERS, RECORDERS, require_role
 from ledger.logbook.required import new_identifier, optional, positive, required
+from ledger.rules.geometry import area_message, check_area
 from ledger.rules.names import shown
 from ledger.rules.sequence import refusal
+from ledger.science.hydraulics import lumen_area
 from ledger.science.water import T_MAX, T_MIN
 from ledger.store.audit import Journal
 from ledger.store.tables import Hold, Module, ModuleType, UserAccount
@@ -28,7 +30,7 @@ class TypeSpec:
     lumen_diameter_m: float
     fiber_count: int
     effective_length_m: float
-    area_m2: float
+    area_m2: float | None  # None: the inner lumen area (fibers × π × lumen diameter × length)
     decay_limit_pa_s: float
     integrity_test_pressure_pa: float
     reuse_limit_cycles: int
@@ -46,11 +48,11 @@ class TypeSpec:
 
 
 def check_type(spec: TypeSpec) -> TypeSpec:
-    """``spec`` with its texts cleaned by their rules; InputError on any value out of range."""
+    """``spec`` with its texts cleaned by their rules and its area settled (see
+    :func:`settle_area`); InputError on any value out of range."""
     for field in (
         "lumen_diameter_m",
         "effective_length_m",
-        "area_m2",
         "decay_limit_pa_s",
         "integrity_test_pressure_pa",
         "storage_limit_s",
@@ -63,6 +65,7 @@ def check_type(spec: TypeSpec) -> TypeSpec:
             value=spec.fiber_count,
             expected="a whole number of 1 or more",
         )
+    spec = settle_area(spec)
     if spec.reuse_limit_cycles < 1:
         raise InputError(
             "the reuse limit must be at least 1 cycle",
@@ -122,6 +125,30 @@ def check_type(spec: TypeSpec) -> TypeSpec:
         pore_rating=required("pore_rating", spec.pore_rating, "the rating, e.g. 750 kDa"),
         supplier=optional("supplier", spec.supplier, "the supplier's name", kind="name"),
     )
+
+
+def settle_area(spec: TypeSpec) -> TypeSpec:
+    """``spec`` with its area (m²): the stated one when it agrees with the inner lumen area
+    within ``rules.geometry.AREA_TOLERANCE``, else InputError; the lumen area when none is
+    stated. The geometry (count, diameter, length) must be checked before."""
+    lumen = lumen_area(spec.fiber_count, spec.lumen_diameter_m, spec.effective_length_m)
+    if spec.area_m2 is None:
+        return replace(spec, area_m2=lumen)
+    positive("area_m2", spec.area_m2, "a value greater than zero")
+    check = check_area(spec.area_m2, lumen)
+    if not check.agrees:
+        geometry = (
+            f"{spec.fiber_count} fibers × π × {spec.lumen_diameter_m * 1e3:.4g} mm × "
+            f"{spec.effective_length_m * 1e2:.4g} cm"
+        )
+        raise InputError(
+            area_message(check, geometry),
+            field="area_m2",
+            value=spec.area_m2,
+            expected=f"an area within {check.tolerance * 100:g} % of {lumen:.4g} m², or none "
+            "(the lumen area is then used)",
+        )
+    return spec
 
 
 def add_type(session: Session, actor: UserAccount, spec: TypeSpec) -> ModuleType:

@@ -102,6 +102,8 @@ class Plan:
     steps: list[dict[str, Any]]  # operation, phase, title, signatures, text (rendered)
     advice: Advice | None = None
     notes: list[str] = field(default_factory=list)
+    # Planned for another product than the template's, and why (None: the same product).
+    product_override_reason: str | None = None
 
     def value(self, name: str) -> Planned:
         return next(v for v in self.values if v.name == name)
@@ -144,40 +146,74 @@ def display(value: float, unit: str, kind: str | None) -> float:
     return float(q.to(units._clean_unit(unit)).magnitude)
 
 
+class InputsError(InputError):
+    """Every missing or wrong ``--input`` of one plan at once; ``problems`` holds each (its
+    ``field`` is ``input``, its ``value`` what was typed or the input's name) and the message
+    lists one per line."""
+
+    def __init__(self, template_id: str, problems: Sequence[InputError]) -> None:
+        first = problems[0]
+        if len(problems) == 1:
+            message = str(first)
+        else:
+            lines = "\n".join(f"  {p}" for p in problems)
+            message = f"{len(problems)} inputs of {template_id} are missing or wrong:\n{lines}"
+        super().__init__(message, field=first.field, value=first.value)
+        self.problems = tuple(problems)
+
+
 def parse_inputs(template: Template, given: Mapping[str, str]) -> dict[str, float]:
-    """The inputs in SI: typed values (``name -> "2 L"``) over the template's defaults."""
-    unknown = sorted(set(given) - set(template.inputs))
-    if unknown:
-        raise InputError(
-            f"--input {unknown[0]}: {template.id} has no input {unknown[0]!r}",
-            field="input",
-            value=unknown[0],
-            expected="one of " + ", ".join(template.inputs),
+    """The inputs in SI: typed values (``name -> "2 L"``) over the template's defaults.
+
+    Every unknown, missing and malformed input is reported together, as one InputsError.
+    """
+    problems: list[InputError] = []
+    known = ", ".join(template.inputs)
+    for name in sorted(set(given) - set(template.inputs)):
+        problems.append(
+            InputError(
+                f"--input {name}: {template.id} has no input {name!r}",
+                field="input",
+                value=name,
+                expected=f"one of {known}",
+            )
         )
     out: dict[str, float] = {}
     for name, spec in template.inputs.items():
         text = given.get(name, spec.default)
         if text is None:
-            raise InputError(
-                f"--input {name}=...: {spec.title} is required by {template.id}",
-                field="input",
-                value=name,
-                expected=f"--input {name}=<{spec.kind or 'number'}>",
-            )
-        where = f"--input {name}"
-        if spec.kind is None:
-            number, unit = units.split_number(text, field=where, expected="a plain number")
-            if unit:
-                raise InputError(
-                    f"{where}: {text!r} should be a plain number",
+            problems.append(
+                InputError(
+                    f"--input {name}=...: {spec.title} is required by {template.id}",
                     field="input",
-                    value=text,
-                    expected="a plain number",
+                    value=name,
+                    expected=f"--input {name}=<{spec.kind or 'number'}>",
                 )
-            out[name] = number
-        else:
-            out[name] = units.parse(text, spec.kind, field=where)
+            )
+            continue
+        try:
+            out[name] = _input_value(name, spec.kind, text)
+        except InputError as exc:
+            exc.field = "input"  # the option; the message names which input
+            problems.append(exc)
+    if problems:
+        raise InputsError(template.id, problems)
     return out
+
+
+def _input_value(name: str, kind: str | None, text: str) -> float:
+    where = f"--input {name}"
+    if kind is not None:
+        return units.parse(text, kind, field=where)
+    number, unit = units.split_number(text, field=where, expected="a plain number")
+    if unit:
+        raise InputError(
+            f"{where}: {text!r} should be a plain number",
+            field="input",
+            value=text,
+            expected="a plain number",
+        )
+    return number
 
 
 def make_plan(

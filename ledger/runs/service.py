@@ -97,14 +97,38 @@ def plan_run(
     *,
     scouting: Sequence[tuple[float, float]] | None = None,
     override_reason: str | None = None,
+    product_override_reason: str | None = None,
 ) -> Run:
     """Plan a run on a module. A module that is not fit needs an engineer's or QA's override
-    with a reason; a failing plan check (module loading) refuses the plan."""
+    with a reason; so does a template written for another product (the reason is kept in the
+    plan record and the audit event); a failing plan check (module loading) refuses the plan."""
+    from ledger.rules import planning
+
     require_role(actor, DECIDERS, "plan runs")
     product = required("product", product, "the product of the run", kind="identifier")
     lot = required("lot", lot, "the batch or lot of the run", kind="identifier")
     override_reason = optional("override_reason", override_reason, "why the run is planned")
+    product_override_reason = optional(
+        "product_override_reason", product_override_reason,
+        "why the template of another product is used",
+    )  # fmt: skip
     tmpl = templates.find(template_ref)
+    mismatch = planning.product_mismatch(tmpl.id, tmpl.product, product)
+    if mismatch and not product_override_reason:
+        raise RefusedError(
+            f"{mismatch}; plan anyway only with --product-override-reason",
+            field="product",
+            value=product,
+        )
+    if product_override_reason and not mismatch:
+        raise InputError(
+            f"a product override reason was given but template {tmpl.id} is for {product}"
+            if tmpl.product
+            else f"a product override reason was given but template {tmpl.id} names no product",
+            field="product_override_reason",
+            value=product_override_reason,
+            expected="no product override for a template of the run's product",
+        )
     module = get_module(session, serial)
     mtype = session.get(ModuleType, module.type_id)
     assert mtype is not None
@@ -128,6 +152,7 @@ def plan_run(
     plan = make_plan(
         tmpl, module_facts(module, mtype), inputs, product=product, lot=lot, scouting=scouting
     )
+    plan.product_override_reason = product_override_reason
     bad = [c for c in plan.checks if c.verdict == "FAIL"]
     if bad:
         raise RefusedError(
@@ -148,7 +173,13 @@ def plan_run(
             plan=plan.to_record(),
             override_reason=override_reason,
         ),
-        reason="run planned" + (f" despite NOT FIT: {override_reason}" if override_reason else ""),
+        reason="run planned"
+        + (f" despite NOT FIT: {override_reason}" if override_reason else "")
+        + (
+            f"; template of product {tmpl.product} used for {product}: {product_override_reason}"
+            if product_override_reason
+            else ""
+        ),
     )
 
 

@@ -213,6 +213,64 @@ def shipped() -> list[Template]:
     return sorted((load(p) for p in shipped_dir().glob("*.toml")), key=lambda t: t.id)
 
 
+@dataclass(frozen=True)
+class InputInfo:
+    """One input of a template as a planner types it: its kind (``number`` for a plain
+    number), the unit it is shown in, and its default (SI; None: the planner must give it)."""
+
+    name: str
+    title: str
+    kind: str
+    unit: str
+    default_text: str | None
+    default: float | None
+
+    @property
+    def required(self) -> bool:
+        return self.default_text is None
+
+
+@dataclass(frozen=True)
+class CatalogueEntry:
+    """A shipped template: what it is, for which product, and the inputs it asks for."""
+
+    id: str
+    version: str
+    title: str
+    product: str | None
+    sha256: str
+    file: str
+    inputs: tuple[InputInfo, ...]
+
+
+def input_info(spec: Input) -> InputInfo:
+    """What ``run templates`` shows of one input; its default is parsed into SI."""
+    kind = spec.kind or "number"
+    unit = units.KINDS[kind].display if kind in units.KINDS else ""
+    default: float | None = None
+    if spec.default is not None:
+        where = f"inputs.{spec.name}.default"
+        if kind == "number":
+            default = units.split_number(spec.default, field=where, expected="a number")[0]
+        else:
+            default = units.parse(spec.default, kind, field=where)
+    return InputInfo(spec.name, spec.title, kind, unit, spec.default, default)
+
+
+def catalogue() -> list[CatalogueEntry]:
+    """Every shipped template with its inputs (required ones first, each group in file
+    order), sorted by ID."""
+    out = []
+    for t in shipped():
+        infos = [input_info(i) for i in t.inputs.values()]
+        infos.sort(key=lambda i: not i.required)
+        file = Path(t.source).name
+        out.append(
+            CatalogueEntry(t.id, t.version, t.title, t.product, t.sha256, file, tuple(infos))
+        )
+    return out
+
+
 def find(ref: str) -> Template:
     """A template by file path, or by the ID of a shipped template."""
     path = Path(ref)

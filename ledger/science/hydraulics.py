@@ -139,3 +139,17 @@ def module_hydraulics(
         density=rho,
         temperature=t,
     )
+
+
+def lumen_area(fibers: int, lumen_diameter_m: float, length_m: float) -> float:
+    """Inner (lumen-side) membrane area of a hollow-fiber module (m²): N·π·D·L.
+
+    The wall of each fiber is a cylinder of inner diameter D over its effective length L; the
+    ends potted in the headers carry no flow and are left out (L is the effective length).
+    """
+    return (
+        _fibers(fibers)
+        * math.pi
+        * positive("lumen_id", lumen_diameter_m)
+        * positive("length", length_m)
+    )
