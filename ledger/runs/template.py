@@ -639,18 +639,28 @@ class _Reader:
         if unit.strip() in ("", "1"):
             return None
         ureg = units.registry()
-        try:
-            dim = ureg.Quantity(1.0, units._clean_unit(unit)).dimensionality
-        except Exception:  # pint raises many types for malformed unit text
-            raise self.fail(
-                key, f"unknown unit {unit!r}", unit, "a unit pint understands"
-            ) from None
+        dim = self.unit_quantity(key, unit).dimensionality
         for kind in _KIND_ORDER:
             k = units.KINDS[kind]
             probe = ureg.Quantity(1.0, k.si) if k.si else ureg.Quantity(1.0)
             if probe.dimensionality == dim:
                 return kind if kind != "fraction" else None
         raise self.fail(key, f"the unit {unit!r} is of no kind fluxledger knows", unit)
+
+    def unit_quantity(self, key: str, unit: str) -> Any:
+        """One ``unit`` as a pint quantity (1 of it; a plain 1 for no unit). The text passes
+        the units grammar first, so no expression pint would evaluate for ever reaches it."""
+        ureg = units.registry()
+        if not unit.strip():
+            return ureg.Quantity(1.0)
+        expected = "a unit pint understands, e.g. psi, L/(m^2*h), degC"
+        try:
+            clean = units.check_unit_text(unit, field=key, shown=unit, expected=expected)
+            return ureg.Quantity(1.0, clean)
+        except InputError as exc:
+            raise self.fail(key, exc.message.removeprefix(f"{key}: "), unit, expected) from None
+        except Exception:  # pint raises many types for malformed unit text
+            raise self.fail(key, f"unknown unit {unit!r}", unit, expected) from None
 
     def inputs(self, raw: Any) -> dict[str, Input]:
         out: dict[str, Input] = {}
@@ -749,11 +759,10 @@ class _Reader:
         return result if isinstance(result, pint.Quantity) else ureg.Quantity(result)
 
     def same_dimension(self, key: str, expr: Expr, unit: str) -> None:
-        ureg = units.registry()
         got = self.dimension_of(key, expr)
         if got is None:
             return
-        want = ureg.Quantity(1.0, units._clean_unit(unit)) if unit.strip() else ureg.Quantity(1.0)
+        want = self.unit_quantity(key, unit)
         if got.dimensionality != want.dimensionality:
             raise self.fail(
                 key,
@@ -885,7 +894,7 @@ class _Reader:
         ureg = units.registry()
         si = units.KINDS[kind].si if kind else ""
         want = ureg.Quantity(1.0, si) if si else ureg.Quantity(1.0)
-        have = ureg.Quantity(1.0, units._clean_unit(unit)) if unit.strip() else ureg.Quantity(1.0)
+        have = self.unit_quantity(key, unit)
         if want.dimensionality != have.dimensionality:
             raise self.fail(
                 key,

@@ -150,3 +150,18 @@ def test_key_lines_know_nothing_of_keys_that_are_not_written() -> None:
     assert lines.find("commented") is None
     assert lines.find("(top level)") is None
     assert lines.find("x") is None
+
+
+@pytest.mark.parametrize(
+    "unit",
+    ["10**10**10", "psi#x", "mg\x00", "L/m^2" + "*m" * 400, "mg\u202e"],
+)
+def test_a_hostile_unit_is_refused_at_its_line_before_pint_sees_it(unit: str) -> None:
+    # pint evaluates numbers in unit text exactly: "10**10**10" would never finish, so the
+    # units grammar (ledger.units.check_unit_text) must refuse it first
+    text = LNP.replace('unit = "mg"', f"unit = {unit!r}".replace("'", '"'), 1)
+    with pytest.raises(InputError) as err:
+        template.parse(text.encode(), "unit.toml")
+    problems = getattr(err.value, "problems", [err.value])
+    assert any(p.line == line_of(LNP, 'unit = "mg"') for p in problems), str(err.value)
+    assert "unit" in str(err.value)
