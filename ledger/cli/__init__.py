@@ -1,1 +1,1 @@
-"""The ``fluxledger`` command line: parse arguments, call the library, print (rich or JSON)."""
+"""The ``fluxledger`` command line: parse arguments, call the library, print (plain-text tables or JSON)."""

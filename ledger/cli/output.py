@@ -150,43 +150,37 @@ class Report:
         return out
 
     def print(self, as_json: bool) -> None:
-        """Print the report to stdout: JSON or rich tables."""
+        """Print the report to stdout: JSON or plain-text tables (ledger.cli.textgrid)."""
         if as_json:
             sys.stdout.write(json.dumps(self.to_json(), indent=2, ensure_ascii=False) + "\n")
             return
-        from rich.console import Console
-        from rich.markup import escape
-        from rich.table import Table as RichTable
+        from ledger.cli.textgrid import fold, grid, terminal_width
 
-        console = Console(highlight=False)
+        lines: list[str] = []
         for s in self.sections:
-            table = RichTable(title=s.title, title_justify="left", show_header=False, box=None)
-            table.add_column(style="bold", overflow="fold")
-            table.add_column(overflow="fold")
-            for key, label, value in s.rows:
-                table.add_row(escape(label), escape(_word(key, human(value))))
-            console.print(table)
-            console.print()
+            lines.append(s.title)
+            rows = [[label, _word(key, human(value))] for key, label, value in s.rows]
+            lines.extend("  " + line for line in grid(None, rows, width=terminal_width() - 2))
+            lines.append("")
         for t in self.tables:
-            table = RichTable(title=t.title, title_justify="left")
             shown = [i for i, (key, _) in enumerate(t.columns) if key not in t.json_only]
-            for i in shown:
-                label = t.columns[i][1]
-                first = t.rows[0][i] if t.rows else None
-                if isinstance(first, datetime):
-                    table.add_column(label, no_wrap=True, min_width=16)
-                    continue
-                texty = isinstance(first, str | list)
-                # fold, never cut: a long limit wraps onto a second line instead of "0.05–0.…"
-                table.add_column(label, justify="left" if texty else "right", overflow="fold")
-            for row in t.rows:
-                table.add_row(*(escape(_word(t.columns[i][0], human(row[i]))) for i in shown))
-            console.print(table)
-            console.print()
+            firsts = [next((r[i] for r in t.rows if r[i] is not None), None) for i in shown]
+            lines.append(t.title)
+            lines.extend(
+                grid(
+                    [t.columns[i][1] for i in shown],
+                    [[_word(t.columns[i][0], human(row[i])) for i in shown] for row in t.rows],
+                    # numbers right, text left; a time is never folded
+                    right=[_numeric(f) for f in firsts],
+                    keep=[isinstance(f, datetime) for f in firsts],
+                )
+            )
+            lines.append("")
         if self.verdict is not None:
-            console.print(f"[bold]Verdict:[/bold] {escape(self.verdict)}")
+            lines.append(f"Verdict: {printable(self.verdict)}")
         for note in self.notes:
-            console.print(f"note: {escape(printable(note))}")
+            lines.extend(fold(f"note: {printable(note)}", terminal_width()))
+        sys.stdout.write("\n".join(lines) + "\n")
 
 
 # Columns whose values are stable identifiers in JSON ("on_hold") and words on a terminal.
@@ -196,6 +190,10 @@ WORD_KEYS = frozenset({"status", "status_before", "status_after", "stage", "new_
 def _word(key: str, text: str) -> str:
     """A status identifier as people read it: ``on_hold`` -> ``on hold``."""
     return text.replace("_", " ") if key in WORD_KEYS else text
+
+
+def _numeric(value: Any) -> bool:
+    return isinstance(value, Q | int | float) and not isinstance(value, bool)
 
 
 def _key(title: str) -> str:
