@@ -256,6 +256,7 @@ def _header(path: Path) -> list[str]:
 
 
 def _check_columns(path: Path, header: list[str], mapping: Mapping) -> None:
+    _check_duplicates(path, header)
     wanted = [("time.column", mapping.time_column)] + [
         (f"channels.{n}.column", c.column) for n, c in mapping.channels.items()
     ]
@@ -269,6 +270,24 @@ def _check_columns(path: Path, header: list[str], mapping: Mapping) -> None:
                 source=str(path),
                 line=1,
             )
+
+
+def _check_duplicates(path: Path, header: list[str]) -> None:
+    """Refuse a header naming one column twice (pyarrow would silently read the first)."""
+    first: dict[str, int] = {}
+    for position, name in enumerate(header, start=1):
+        if not name.strip():
+            continue  # unnamed columns are never mapped; several may be blank
+        if name in first:
+            raise InputError(
+                f"the header names column {name!r} twice, as columns {first[name]} and "
+                f"{position}; expected each column name once",
+                field="header",
+                value=name,
+                source=str(path),
+                line=1,
+            )
+        first[name] = position
 
 
 def _unparseable(path: Path, header: list[str], exc: Exception) -> InputError:

@@ -376,3 +376,13 @@ def test_unusable_log_paths_name_the_field(name: str, says: str) -> None:
 def test_a_directory_is_not_a_log(tmp_path: Path) -> None:
     err = fails(tmp_path)
     assert err.field == "file" and "it is a directory" in str(err)
+
+
+@pytest.mark.parametrize("header", [HEADER + ",PT-01", HEADER + ",Spare"])
+def test_a_column_named_twice_names_both_positions(tmp_path: Path, header: str) -> None:
+    path = write(tmp_path / "log.csv", [r + ",1" for r in rows(3)], header=header)
+    err = fails(path)
+    name = header.rsplit(",", 1)[1]
+    first = HEADER.split(",").index(name) + 1
+    assert err.line == 1 and err.value == name
+    assert f"columns {first} and 7" in str(err)
