@@ -1,1 +1,1 @@
-"""The ``fluxledger`` command line: parse arguments, call the library, print (plain-text tables or JSON)."""
+"""The ``fluxledger`` command line: parse arguments, call the library, print (text or JSON)."""

@@ -26,7 +26,11 @@ MEANS = (
 @app.command("summarize")
 @guarded
 def summarize(
-    file: Path = typer.Argument(..., help="The skid's CSV data log (read, never changed)."),
+    file: list[Path] = typer.Argument(
+        ...,
+        help="The skid's data log: CSV in any common dialect, or an .xlsx workbook; several "
+        "files of one run are read in the order given and joined (read, never changed).",
+    ),
     mapping: Path = typer.Option(..., "--mapping", help="TOML mapping of the file's columns."),
     limits: Path | None = typer.Option(
         None, "--limits", help="TOML file of [[range]] tables: channel, low/high, phase, name."
@@ -78,6 +82,10 @@ def _print(s: Any, *, with_limits: bool) -> None:
     head = report.section("Skid log")
     head.add("file", s.source)
     head.add("sha256", f"{s.sha256[:16]}…" if s.sha256 else None, "SHA-256")
+    for f in s.files:
+        if len(s.files) > 1:
+            head.add(f"file {f['name']}", f"{f['rows']} rows, sha256 {(f['sha256'] or '')[:16]}…")
+        head.add(f"read as ({f['name']})" if len(s.files) > 1 else "read as", _dialect(f))
     head.add("rows", s.rows)
     head.add("start", f"{_when(s.start)} UTC")
     head.add("end", f"{_when(s.end)} UTC")
@@ -146,10 +154,29 @@ def _print(s: Any, *, with_limits: bool) -> None:
         report.notes.append("no excursions: every sample is within its range")
     for what, why in _grouped(s.not_computed):
         report.notes.append(f"not computed: {what}: {why}")
+    report.notes.extend(f"warning: {w}" for w in s.warnings)
     report.notes.extend(f"assumption: {a}" for a in s.assumptions)
     if with_limits:
         report.notes.append(SITE_NOTE)
     report.print(False)
+
+
+def _dialect(f: dict[str, Any]) -> str:
+    """How the file was read, with what was detected rather than given in the mapping."""
+    d = f.get("dialect")
+    if not d:
+        return "—"
+    if d["encoding"] == "xlsx":
+        text = f"workbook, sheet {d['sheet']!r}, header row {d['header_line']}"
+    else:
+        sep = {",": "comma", ";": "semicolon", "\t": "tab"}.get(d["delimiter"], d["delimiter"])
+        mark = "decimal comma" if d["decimal"] == "," else "decimal point"
+        text = f"{d['encoding']}, {sep}, {mark}, header line {d['header_line']}"
+    if d["units_row"]:
+        text += ", units row checked"
+    if d["detected"]:
+        text += f" (detected: {', '.join(d['detected'])})"
+    return text
 
 
 def _grouped(items: list[Any]) -> list[tuple[str, str]]:

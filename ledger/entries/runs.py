@@ -154,7 +154,6 @@ def activity(raw: Mapping[str, Any]) -> tuple[int, datetime | None]:
 LOG_SUMMARY = Spec(
     "log summarize",
     (
-        Field("file", required=True),
         Field("mapping", required=True),
         Field("limits"),
         Field("area", "area", positive=True),
@@ -166,7 +165,7 @@ LOG_SUMMARY = Spec(
 
 @dataclass(frozen=True)
 class LogSummaryEntry:
-    file: str
+    file: list[str]  # one or more files of one run, in order
     mapping: str
     limits: str | None
     area_m2: float | None
@@ -177,7 +176,10 @@ class LogSummaryEntry:
 
 def log_summary(raw: Mapping[str, Any]) -> LogSummaryEntry:
     """Check ``log summarize``'s fields: the files, the module's geometry and phase windows."""
-    v = LOG_SUMMARY.parse(raw)
+    v = LOG_SUMMARY.parse({k: w for k, w in raw.items() if k != "file"})
+    files = [str(f) for f in (raw.get("file") or ())]
+    if not files:
+        raise InputError("no skid log file given", field="file", expected="one or more files")
     if v["fibers"] is not None and v["fibers"] < 1:
         raise InputError(
             f"--fibers {v['fibers']}: must be at least 1",
@@ -186,7 +188,7 @@ def log_summary(raw: Mapping[str, Any]) -> LogSummaryEntry:
             expected="a whole number of 1 or more",
         )
     return LogSummaryEntry(
-        v["file"],
+        files,
         v["mapping"],
         v["limits"],
         v["area"],

@@ -44,7 +44,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from ledger.runs.skidlog import SkidLog
+from ledger.runs.skidlog import SkidLog, phase_warnings
 
 END_WINDOW_S = 30.0  # s of a phase's start or end for the retentate-volume estimates
 FLUX_WINDOW_S = 60.0  # s of a phase's start or end for the flux estimates
@@ -165,6 +165,8 @@ class Summary:
     excursions: list[Excursion]
     not_computed: list[NotComputed]
     assumptions: list[str]
+    files: list[dict[str, Any]] = field(default_factory=list)  # skidlog.LogFile.to_record()
+    warnings: list[str] = field(default_factory=list)  # phases the log and mapping disagree on
 
     def scope(self, phase: str | None) -> Actuals | None:
         """The run (``phase`` None) or the first phase of that name."""
@@ -225,6 +227,8 @@ class Summary:
             ],
             not_computed=[NotComputed(**n) for n in d["not_computed"]],
             assumptions=list(d["assumptions"]),
+            files=list(d.get("files") or []),
+            warnings=list(d.get("warnings") or []),
         )
 
 
@@ -361,7 +365,9 @@ def segments(log: SkidLog, windows: Sequence[PhaseWindow] | None) -> list[tuple[
     change = np.flatnonzero(codes[1:] != codes[:-1]) + 1
     starts = np.concatenate(([0], change))
     ends = np.concatenate((change, [n]))
-    return [(str(log.phases[a]), int(a), int(b)) for a, b in zip(starts, ends, strict=True)]
+    # a step the mapping ignores ("" after [phases]) belongs to no phase
+    spans = [(str(log.phases[a]), int(a), int(b)) for a, b in zip(starts, ends, strict=True)]
+    return [span for span in spans if span[0]]
 
 
 @dataclass
@@ -637,6 +643,8 @@ def summarize(
         excursions=_excursions(log, ch, ranges, spans),
         not_computed=missing,
         assumptions=[*log.assumptions, *_window_notes(w, log.median_step_s)],
+        files=[f.to_record() for f in log.files],
+        warnings=phase_warnings(log, ()) if windows is None else [],
     )
 
 
@@ -675,6 +683,8 @@ def summary_json(s: Summary) -> dict[str, Any]:
 
     return {
         "file": s.source,
+        "files": s.files,
+        "warnings": s.warnings,
         "sha256": s.sha256,
         "rows": s.rows,
         "start": s.start.isoformat(),

@@ -108,22 +108,25 @@ def find_header(lines: list[str], time_column: str, delimiter: str | None) -> in
 
 
 def detect_delimiter(lines: list[str], header: int, source: str) -> str:
-    """The delimiter among , ; tab that splits the header and the lines after it into the
-    same number (over one) of fields."""
-    tried = []
+    """The delimiter among , ; tab that splits the header into several fields and most of the
+    lines after it into as many (a malformed line is then reported by the reader with its
+    line number); two that do equally well, or none, cannot be decided."""
     body = lines[header : header + 1 + SAMPLE_LINES]
+    scores: dict[str, int] = {}
     for d in DELIMITERS:
-        counts = {len(r) for r in _rows(body, d)}
-        if len(counts) == 1 and counts.pop() > 1:
-            tried.append(d)
-    if len(tried) == 1:
-        return tried[0]
+        rows = _rows(body, d)
+        if not rows or len(rows[0]) < 2:
+            continue
+        scores[d] = sum(1 for r in rows[1:] if len(r) == len(rows[0]))
+    best = sorted(scores, key=lambda d: -scores[d])
+    if len(best) == 1 or (len(best) > 1 and scores[best[0]] > scores[best[1]]):
+        return best[0]
     raise InputError(
         "cannot tell the delimiter: "
         + (
-            f"{' and '.join(repr(d) for d in tried)} both split every line evenly"
-            if tried
-            else "none of ',', ';' or tab splits the lines into the same number of fields"
+            f"{' and '.join(repr(d) for d in best)} split the lines equally well"
+            if best
+            else "none of ',', ';' or tab splits the header into several fields"
         )
         + "; set [file] delimiter in the mapping",
         field="file.delimiter",

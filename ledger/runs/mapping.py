@@ -9,6 +9,7 @@ reading a log never calls pint per row.
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 from dataclasses import dataclass
 from datetime import UTC, datetime
@@ -30,7 +31,15 @@ CHANNEL_KINDS: dict[str, str | None] = {
     "temperature": "temperature",
     "phase": None,
 }
-TIME_KEYS = ("column", "format", "timezone", "max_gap")
+TIME_KEYS = ("column", "date_column", "format", "timezone", "max_gap")
+FILE_KEYS = ("delimiter", "decimal", "encoding", "header_line", "units_row", "sheet")
+DELIMITERS = {",": ",", ";": ";", "\t": "\t", "tab": "\t"}
+DECIMALS = (".", ",")
+ENCODINGS = {"utf-8": "utf-8", "utf8": "utf-8", "utf-8-sig": "utf-8-sig", "utf-16": "utf-16",
+             "cp1252": "cp1252", "windows-1252": "cp1252", "latin-1": "latin-1",
+             "iso-8859-1": "latin-1"}  # fmt: skip
+IGNORE = "ignore"  # the [phases] key whose labels belong to no phase
+MAX_LABELS = 1000  # step labels in [phases]
 CHANNEL_KEYS = ("column", "unit", "density")
 MAX_FORMAT = 100  # characters in a time format
 DEFAULT_DENSITY = 1000.0  # kg/m³ (1.0 g/mL): assumed for a balance when the mapping gives none
@@ -49,8 +58,23 @@ class ChannelMap:
 
 
 @dataclass(frozen=True)
+class FileOptions:
+    """What the mapping's optional ``[file]`` table states; None where it is silent (the
+    reader then detects it)."""
+
+    delimiter: str | None = None
+    decimal: str | None = None
+    encoding: str | None = None
+    header_line: int | None = None  # 1-based
+    units_row: bool | None = None
+    sheet: str | None = None
+
+
+@dataclass(frozen=True)
 class Mapping:
-    """A parsed mapping; ``text`` and ``sha256`` keep exactly what was read."""
+    """A parsed mapping; ``text`` and ``sha256`` keep exactly what was read. ``phase_labels``
+    maps a skid's step label to the template phase it belongs to (empty: labels are phase
+    names as they are); ``ignored_labels`` belong to no phase."""
 
     source: str
     text: str
@@ -60,6 +84,10 @@ class Mapping:
     timezone: str
     max_gap_s: float | None
     channels: dict[str, ChannelMap]
+    date_column: str | None = None
+    file: FileOptions = FileOptions()
+    phase_labels: dict[str, str] = dataclasses.field(default_factory=dict)
+    ignored_labels: frozenset[str] = frozenset()
 
 
 def load_mapping(path: str | Path) -> Mapping:
@@ -91,8 +119,11 @@ def parse_mapping(text: str, source: str) -> Mapping:
     """Validate a mapping's TOML text; ``source`` (the file name) is named in every error."""
     data = parse_toml(text, source, "mapping", "a TOML mapping with [time] and [channels] tables")
     for key in data:
-        if key not in ("time", "channels"):
-            raise _fail(source, key, "unknown table", key, "the tables [time] and [channels]")
+        if key not in ("time", "channels", "file", "phases"):
+            raise _fail(
+                source, key, "unknown table", key,
+                "the tables [time], [channels] and the optional [file] and [phases]",
+            )  # fmt: skip
     time = data.get("time")
     if not isinstance(time, dict) or "column" not in time:
         raise _fail(source, "time.column", "is missing", None, 'the time column, e.g. "Timestamp"')
@@ -100,6 +131,14 @@ def parse_mapping(text: str, source: str) -> Mapping:
         if key not in TIME_KEYS:
             raise _fail(source, f"time.{key}", "unknown key", key, ", ".join(TIME_KEYS))
     time_column = _text(source, "time.column", time["column"], 'e.g. column = "Timestamp"')
+    date_column = None
+    if "date_column" in time:
+        date_column = _text(
+            source, "time.date_column", time["date_column"], 'the date column, e.g. "Date"'
+        )
+        if date_column == time_column:
+            raise _fail(source, "time.date_column", "is the time column itself", date_column,
+                        "another column, holding the date")  # fmt: skip
     tz = _timezone(source, time.get("timezone", "UTC"))
     fmt = time.get("format")
     if fmt is not None:
@@ -107,11 +146,14 @@ def parse_mapping(text: str, source: str) -> Mapping:
     max_gap = None
     if "max_gap" in time:
         max_gap = _quantity(source, "time.max_gap", time["max_gap"], "time", positive=True)
+    labels, ignored = _phases(source, data["phases"]) if "phases" in data else ({}, frozenset())
     raw = data.get("channels", {})
     if not isinstance(raw, dict):
         raise _fail(source, "channels", "expected a table", raw, "[channels]")
     channels: dict[str, ChannelMap] = {}
     used = {time_column: "time.column"}
+    if date_column is not None:
+        used[date_column] = "time.date_column"
     for name, spec in raw.items():
         cmap = _channel(source, name, spec)
         key = f"channels.{name}.column"
@@ -134,7 +176,86 @@ def parse_mapping(text: str, source: str) -> Mapping:
         timezone=tz,
         max_gap_s=max_gap,
         channels=channels,
+        date_column=date_column,
+        file=_file(source, data.get("file", {})),
+        phase_labels=labels,
+        ignored_labels=ignored,
     )
+
+
+def _file(source: str, raw: object) -> FileOptions:
+    """The ``[file]`` table: each key checked against what the reader can do."""
+    if not isinstance(raw, dict):
+        raise _fail(source, "file", "expected a table", raw, "[file]")
+    for key in raw:
+        if key not in FILE_KEYS:
+            raise _fail(source, f"file.{key}", "unknown key", key, ", ".join(FILE_KEYS))
+    got: dict[str, object] = {}
+    if "delimiter" in raw:
+        d = raw["delimiter"]
+        if not isinstance(d, str) or d not in DELIMITERS:
+            raise _fail(source, "file.delimiter", f"{d!r} is not a delimiter the reader takes",
+                        d, '",", ";" or "\\t"')  # fmt: skip
+        got["delimiter"] = DELIMITERS[d]
+    if "decimal" in raw:
+        m = raw["decimal"]
+        if m not in DECIMALS:
+            raise _fail(source, "file.decimal", f"{m!r} is not a decimal mark", m, '"." or ","')
+        got["decimal"] = m
+    if "encoding" in raw:
+        e = raw["encoding"]
+        if not isinstance(e, str) or e.strip().lower() not in ENCODINGS:
+            raise _fail(source, "file.encoding", f"{e!r} is not an encoding the reader takes",
+                        e, "utf-8, utf-8-sig, utf-16, cp1252 or latin-1")  # fmt: skip
+        got["encoding"] = ENCODINGS[e.strip().lower()]
+    if "header_line" in raw:
+        h = raw["header_line"]
+        if not isinstance(h, int) or isinstance(h, bool) or not 1 <= h <= 10_000:
+            raise _fail(source, "file.header_line", f"{h!r} is not a line number", h,
+                        "the 1-based line of the header, 1 to 10000")  # fmt: skip
+        got["header_line"] = h
+    if "units_row" in raw:
+        u = raw["units_row"]
+        if not isinstance(u, bool):
+            raise _fail(source, "file.units_row", f"{u!r} is not true or false", u,
+                        "true when a row of units sits under the header")  # fmt: skip
+        got["units_row"] = u
+    if "sheet" in raw:
+        got["sheet"] = _text(source, "file.sheet", raw["sheet"], 'a sheet name, e.g. "Data"')
+    if got.get("delimiter") == "," and got.get("decimal") == ",":
+        raise _fail(source, "file.decimal", "a decimal comma needs another delimiter", ",",
+                    'delimiter = ";" or "\\t" with decimal = ","')  # fmt: skip
+    return FileOptions(**got)  # type: ignore[arg-type]
+
+
+def _phases(source: str, raw: object) -> tuple[dict[str, str], frozenset[str]]:
+    """The ``[phases]`` table: template phase -> the skid's step labels; ``ignore`` lists
+    labels that belong to no phase. A label under two keys is an error naming both."""
+    if not isinstance(raw, dict):
+        raise _fail(source, "phases", "expected a table", raw, '[phases] with uf1 = ["CONC1"]')
+    labels: dict[str, str] = {}
+    ignored: set[str] = set()
+    seen: dict[str, str] = {}
+    for phase, given in raw.items():
+        key = f"phases.{phase}"
+        if isinstance(given, str):
+            given = [given]
+        if not isinstance(given, list) or not given or len(given) > MAX_LABELS:
+            raise _fail(source, key, f"expected a list of step labels, got {given!r}", given,
+                        '["CONC1", "CONC 1"]')  # fmt: skip
+        for label in given:
+            if not isinstance(label, str) or not label.strip():
+                raise _fail(source, key, f"{label!r} is not a step label", label,
+                            "the label as the skid writes it")  # fmt: skip
+            if label in seen:
+                raise _fail(source, key, f"the label {label!r} is also under {seen[label]}",
+                            label, "each label under one phase (or ignore)")  # fmt: skip
+            seen[label] = key
+            if phase == IGNORE:
+                ignored.add(label)
+            else:
+                labels[label] = phase
+    return labels, frozenset(ignored)
 
 
 def _channel(source: str, name: str, spec: object) -> ChannelMap:

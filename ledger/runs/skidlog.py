@@ -16,18 +16,23 @@ ledger.units.SI_MIN..SI_MAX. All of it is vectorized (numpy), with no Python obj
 from __future__ import annotations
 
 import csv
+import dataclasses
 import hashlib
+import io
+import itertools
 import threading
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from datetime import UTC, datetime, timedelta
 from pathlib import Path
-from typing import Any
+from typing import Any, Protocol
 
 import numpy as np
 from numpy.typing import NDArray
 
 from ledger import units
 from ledger.errors import InputError
+from ledger.runs.dialect import Dialect, check_units_row, decode, detect_encoding, sniff
 from ledger.runs.mapping import CHANNEL_KINDS, DEFAULT_DENSITY, ChannelMap, Mapping
 from ledger.userfiles import check_user_file
 
@@ -38,6 +43,35 @@ MAX_BYTES = 1 << 30  # 1 GiB: a 24 h log at 1 Hz is about 10 MB
 MAX_TIME_TEXT = 64  # characters in one timestamp
 _NS_MAX = 2**63 - 1  # int64 nanoseconds; -2**63 is pandas' NaT
 _PER_UNIT_NS = {"s": 10**9, "ms": 10**6, "us": 10**3, "ns": 1}
+
+
+@dataclass(frozen=True)
+class LogFile:
+    """One file of a log: its name, SHA-256 (None when not hashed), data rows and dialect."""
+
+    name: str
+    sha256: str | None
+    rows: int
+    dialect: Dialect | None
+
+    def to_record(self) -> dict[str, Any]:
+        d = self.dialect
+        return {
+            "name": self.name,
+            "sha256": self.sha256,
+            "rows": self.rows,
+            "dialect": None
+            if d is None
+            else {
+                "encoding": d.encoding,
+                "delimiter": d.delimiter,
+                "decimal": d.decimal,
+                "header_line": d.header_line,
+                "units_row": d.units_row,
+                "sheet": d.sheet,
+                "detected": list(d.detected),
+            },
+        }
 
 
 @dataclass
@@ -55,6 +89,9 @@ class SkidLog:
     density_kg_m3: float = DEFAULT_DENSITY  # of the permeate, for a balance
     median_step_s: float | None = None  # median sample interval; worked out when not given
     phase_codes: NDArray[np.intp] | None = None  # equal codes = equal labels; worked out
+    dialect: Dialect | None = None  # of the (first) file
+    unmapped_labels: list[str] = field(default_factory=list)  # step labels [phases] lacks
+    files: list[LogFile] = field(default_factory=list)  # in the order they were joined
 
     def __post_init__(self) -> None:
         if self.median_step_s is None:
@@ -97,21 +134,59 @@ class _Digest(threading.Thread):
         return self.value
 
 
+@dataclass
+class _Text:
+    """The CSV as the reader sees it: the file itself (the common dialect: UTF-8, commas,
+    decimal points, header on line 1), or its text transcoded to UTF-8 in memory with any
+    preamble and units row taken out. ``line(k)`` is the file's own line of body line k."""
+
+    path: Path
+    dialect: Dialect
+    body: bytes | None = None  # None: read the file itself
+    units: list[str] | None = None  # the units row's cells
+
+    def line(self, body_line: int) -> int:
+        first = self.dialect.header_line - 1
+        return first + body_line + (1 if self.dialect.units_row and body_line >= 2 else 0)
+
+    def open(self) -> Any:
+        """A text stream of the body (header first), for the csv module."""
+        if self.body is None:
+            return self.path.open(newline="", encoding="utf-8-sig")
+        return io.TextIOWrapper(io.BytesIO(self.body), encoding="utf-8", newline="")
+
+    def buffer(self) -> Any:
+        """What pandas reads: the path, or the body's bytes."""
+        return self.path if self.body is None else io.BytesIO(self.body)
+
+    def reader(self, f: Any) -> Any:
+        return csv.reader(f, delimiter=self.dialect.delimiter)
+
+
+class _Namer(Protocol):
+    """Names where data row i of a column is in the file (a CSV line or a sheet row)."""
+
+    def cell(self, row: int, column: str) -> tuple[int, str | None]: ...
+
+    def error(self, row: int, column: str, message: str) -> InputError: ...
+
+
 class _Where:
     """Names file lines: the physical line of data row i and the text of one of its cells.
 
     Only used once something is wrong, so it may read the file again with the csv module.
     """
 
-    def __init__(self, path: Path, header: list[str]) -> None:
-        self.path = path
+    def __init__(self, text: _Text, header: list[str]) -> None:
+        self.text = text
+        self.path = text.path
         self.header = header
 
     def cell(self, row: int, column: str) -> tuple[int, str | None]:
         index = self.header.index(column)
         try:
-            with self.path.open(newline="", encoding="utf-8-sig") as f:
-                reader = csv.reader(f)
+            with self.text.open() as f:
+                reader = self.text.reader(f)
                 next(reader, None)
                 seen = -1
                 for record in reader:
@@ -119,12 +194,13 @@ class _Where:
                         continue
                     seen += 1
                     if seen == row:
-                        return reader.line_num, record[index] if index < len(record) else None
+                        line = self.text.line(reader.line_num)
+                        return line, record[index] if index < len(record) else None
         # a cell over the csv module's size limit, bytes that are not UTF-8, the file gone:
         # the error is still named, at the line counted without blank lines
         except (OSError, UnicodeDecodeError, csv.Error):
             pass
-        return row + 2, None
+        return self.text.line(row + 2), None
 
     def error(self, row: int, column: str, message: str) -> InputError:
         """An InputError at data row ``row``; "{text}" in ``message`` becomes the cell's text."""
@@ -142,10 +218,21 @@ class _Where:
 def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> SkidLog:
     """Read the log at ``path`` through ``mapping``; ``digest`` records its SHA-256."""
     path = check_user_file(path, "file", MAX_BYTES, as_source=True)
-    header = _header(path)
-    where = _Where(path, header)
-    _check_columns(path, header, mapping)
-    frame, failure = _read(path, header, mapping)
+    where: _Namer
+    if _is_workbook(path):
+        from ledger.runs.workbook import read_sheet
+
+        frame, dialect, where = read_sheet(path, mapping)
+        failure = None
+    else:
+        text = _text_of(path, mapping)
+        dialect = text.dialect
+        header = _header(text)
+        where = _Where(text, header)
+        _check_columns(text, header, mapping)
+        if text.units is not None:
+            _check_units(text, header, mapping)
+        frame, failure = _read(text, header, mapping)
     # Hash on another thread while this one converts: hashlib releases the GIL, and pyarrow,
     # which used both cores for the parse, is done.
     hashing = _Digest(path) if digest else None
@@ -155,16 +242,18 @@ def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> Skid
             "the file has a header but no data rows",
             field="rows",
             source=str(path),
-            line=2,
+            line=where.cell(0, mapping.time_column)[0],
             expected="one data row per sample",
         )
-    ns = _times(frame[mapping.time_column], mapping, where)
+    ns = _times(_joined_times(frame, mapping), mapping, where)
     channels: dict[str, NDArray[np.float64]] = {}
     phases = codes = None
+    unmapped: list[str] = []
     for name, cmap in mapping.channels.items():
         col = frame[cmap.column]
         if name == "phase":
             phases, codes = _labels(col, cmap.column, where)
+            phases, codes, unmapped = _translate(phases, codes, mapping)
             continue
         values = _numbers(col, cmap.column, where)
         with np.errstate(over="ignore", under="ignore"):
@@ -175,7 +264,7 @@ def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> Skid
         channels[name] = si
     del frame
     if failure is not None:  # read as text, every cell passed: say what pandas said
-        raise _unparseable(path, header, failure)
+        raise _unparseable(text, header, failure)
     t = (ns - ns[0]).astype(np.float64) / 1e9
     median = _check_gaps(t, mapping, where)
     assumptions = []
@@ -186,9 +275,10 @@ def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> Skid
             assumptions.append("permeate density 1.0 g/mL assumed (the mapping gives none)")
         else:
             density = given
+    sha256 = hashing.result() if hashing else None
     return SkidLog(
         source=str(path),
-        sha256=hashing.result() if hashing else None,
+        sha256=sha256,
         rows=n,
         start=EPOCH + timedelta(microseconds=int(ns[0]) // 1000),
         time_s=t,
@@ -198,10 +288,13 @@ def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> Skid
         density_kg_m3=density,
         median_step_s=median,
         phase_codes=codes,
+        dialect=dialect,
+        unmapped_labels=unmapped,
+        files=[LogFile(path.name, sha256, n, dialect)],
     )
 
 
-def _read(path: Path, header: list[str], mapping: Mapping) -> tuple[Any, Exception | None]:
+def _read(text: _Text, header: list[str], mapping: Mapping) -> tuple[Any, Exception | None]:
     """The mapped columns, their types as pyarrow infers them (so that "true" or "12 psi" in
     a number column stays text and is refused below, not cast to a number).
 
@@ -212,26 +305,150 @@ def _read(path: Path, header: list[str], mapping: Mapping) -> tuple[Any, Excepti
     import pandas as pd
 
     wanted = [mapping.time_column] + [c.column for c in mapping.channels.values()]
+    if mapping.date_column:
+        wanted.append(mapping.date_column)
     # (phase labels need no "str" dtype: pandas would cast the column again, and _labels
     # takes labels of any type)
     dtypes = {}
-    if mapping.time_format:
+    if mapping.time_format or mapping.date_column:
         dtypes[mapping.time_column] = "str"  # or pyarrow would guess ISO 8601 itself
+    if mapping.date_column:
+        dtypes[mapping.date_column] = "str"
+    d = text.dialect
+    options: dict[str, Any] = {"engine": "pyarrow", "usecols": wanted}
+    if d.delimiter != ",":
+        options["sep"] = d.delimiter
+    if d.decimal != ".":
+        options["decimal"] = d.decimal
     try:
-        return pd.read_csv(path, engine="pyarrow", usecols=wanted, dtype=dtypes), None
+        return pd.read_csv(text.buffer(), dtype=dtypes, **options), None
     # pandas and pyarrow report bad cells and malformed CSV with several error types
     except Exception as exc:
         try:
-            text = pd.read_csv(path, engine="pyarrow", usecols=wanted, dtype="str")
+            return pd.read_csv(text.buffer(), dtype="str", **options), exc
         except Exception:
-            raise _unparseable(path, header, exc) from None
-        return text, exc
+            raise _unparseable(text, header, exc) from None
 
 
-def _header(path: Path) -> list[str]:
+def _joined_times(frame: Any, mapping: Mapping) -> Any:
+    """The time column, or date and time joined by one space when they are apart."""
+    col = frame[mapping.time_column]
+    if not mapping.date_column:
+        return col
+    date = frame[mapping.date_column]
+    return date.str.strip().str.cat(col.str.strip(), sep=" ")
+
+
+def _is_workbook(path: Path) -> bool:
+    """An Excel workbook (.xlsx/.xlsm): by its name or its zip signature."""
+    if path.suffix.lower() in (".xlsx", ".xlsm"):
+        return True
     try:
-        with path.open(newline="", encoding="utf-8-sig") as f:
-            header = next(csv.reader(f), None)
+        with path.open("rb") as f:
+            return f.read(4) == b"PK\x03\x04"
+    except OSError:
+        return False
+
+
+SAMPLE_BYTES = 1 << 16  # the start of a file that the dialect is worked out from
+
+
+def _text_of(path: Path, mapping: Mapping) -> _Text:
+    """The file's dialect (the mapping's [file] keys, the rest detected) and, unless it is
+    the common one, its body transcoded to UTF-8 without preamble or units row."""
+    given = mapping.file
+    try:
+        with path.open("rb") as f:
+            head = f.read(SAMPLE_BYTES)
+    except OSError as exc:
+        raise InputError(
+            f"cannot read the skid log: {exc.strerror}", field="file", value=str(path),
+            source=str(path), expected="a readable CSV file",
+        ) from None  # fmt: skip
+    if not head.strip():
+        raise InputError("the file is empty", field="header", source=str(path), line=1,
+                         expected="a header line of column names, then data rows")  # fmt: skip
+    sample = head
+    if given.encoding is None and len(head) == SAMPLE_BYTES:
+        sample = _whole_lines(head)
+    dialect, _ = sniff(
+        sample, mapping.time_column, str(path),
+        encoding=given.encoding, delimiter=given.delimiter, decimal=given.decimal,
+        header_line=given.header_line, units_row=given.units_row,
+    )  # fmt: skip
+    if dialect.plain:
+        return _Text(path, dialect)
+    data = path.read_bytes()
+    if dialect.encoding in ("utf-8", "utf-8-sig") and given.encoding is None:
+        # the sample was UTF-8; the rest of the file may not be
+        try:
+            whole = data.decode(dialect.encoding)
+        except UnicodeDecodeError:
+            dialect = dataclasses.replace(dialect, encoding=detect_encoding(data, str(path)))
+            whole = decode(data, dialect.encoding, str(path))
+    else:
+        whole = decode(data, dialect.encoding, str(path))
+    lines = whole.splitlines(keepends=True)
+    h = dialect.header_line - 1
+    units = None
+    rest = lines[h + 1 :]
+    if dialect.units_row and rest:
+        units = next(csv.reader([rest[0]], delimiter=dialect.delimiter), [])
+        rest = rest[1:]
+    body = "".join(lines[h : h + 1] + rest).lstrip("\ufeff").encode("utf-8")
+    return _Text(path, dialect, body, units)
+
+
+def _whole_lines(head: bytes) -> bytes:
+    """``head`` up to its last line break (a sample never ends inside a character)."""
+    cut = head.rfind(b"\n")
+    return head[: cut + 1] if cut > 0 else head
+
+
+def _check_units(text: _Text, header: list[str], mapping: Mapping) -> None:
+    """The units row against the mapping's units (a different unit names both)."""
+    mapped = {
+        c.column: (c.unit, CHANNEL_KINDS[c.channel] or "")
+        for c in mapping.channels.values()
+        if c.unit is not None
+    }
+    check_units_row(header, text.units or [], mapped, str(text.path), text.dialect.header_line + 1)
+
+
+def _translate(
+    names: NDArray[np.object_], codes: NDArray[np.intp], mapping: Mapping
+) -> tuple[NDArray[np.object_], NDArray[np.intp], list[str]]:
+    """Step labels as template phases through the mapping's [phases] ("" for an ignored
+    label, which belongs to no phase); labels it does not list stay as they are and are
+    returned, so the importer can warn about them."""
+    if not mapping.phase_labels and not mapping.ignored_labels:
+        return names, codes, []
+    import pandas as pd
+
+    uniques, first = np.unique(codes, return_index=True)
+    labels = [str(names[i]) for i in first]
+    translated = []
+    unmapped = []
+    for label in labels:
+        if label in mapping.ignored_labels:
+            translated.append("")
+        elif label in mapping.phase_labels:
+            translated.append(mapping.phase_labels[label])
+        else:
+            translated.append(label)
+            unmapped.append(label)
+    lookup = np.empty(int(uniques.max()) + 1, dtype=object)
+    lookup[uniques] = translated
+    out = lookup[codes]
+    new_codes, _ = pd.factorize(out)
+    return out, new_codes.astype(np.intp, copy=False), unmapped
+
+
+def _header(text: _Text) -> list[str]:
+    path = text.path
+    try:
+        with text.open() as f:
+            header = next(text.reader(f), None)
     except OSError as exc:
         raise InputError(
             f"cannot read the skid log: {exc.strerror}",
@@ -242,24 +459,30 @@ def _header(path: Path) -> list[str]:
         ) from None
     except (UnicodeDecodeError, csv.Error) as exc:
         raise InputError(
-            f"the header is not CSV text in UTF-8 ({exc})", field="header", source=str(path), line=1
+            f"the header is not CSV text in {text.dialect.encoding} ({exc})",
+            field="header",
+            source=str(path),
+            line=text.dialect.header_line,
         ) from None
     if not header or not any(h.strip() for h in header):
         raise InputError(
             "the file is empty",
             field="header",
             source=str(path),
-            line=1,
+            line=text.dialect.header_line,
             expected="a header line of column names, then data rows",
         )
-    return header
+    return [h.strip() for h in header] if text.body is not None else header
 
 
-def _check_columns(path: Path, header: list[str], mapping: Mapping) -> None:
-    _check_duplicates(path, header)
+def _check_columns(text: _Text, header: list[str], mapping: Mapping) -> None:
+    path = text.path
+    _check_duplicates(path, header, text.dialect.header_line)
     wanted = [("time.column", mapping.time_column)] + [
         (f"channels.{n}.column", c.column) for n, c in mapping.channels.items()
     ]
+    if mapping.date_column:
+        wanted.append(("time.date_column", mapping.date_column))
     for key, column in wanted:
         if column not in header:
             raise InputError(
@@ -268,11 +491,11 @@ def _check_columns(path: Path, header: list[str], mapping: Mapping) -> None:
                 field=column,
                 value=column,
                 source=str(path),
-                line=1,
+                line=text.dialect.header_line,
             )
 
 
-def _check_duplicates(path: Path, header: list[str]) -> None:
+def _check_duplicates(path: Path, header: list[str], line: int = 1) -> None:
     """Refuse a header naming one column twice (pyarrow would silently read the first)."""
     first: dict[str, int] = {}
     for position, name in enumerate(header, start=1):
@@ -285,16 +508,17 @@ def _check_duplicates(path: Path, header: list[str]) -> None:
                 field="header",
                 value=name,
                 source=str(path),
-                line=1,
+                line=line,
             )
         first[name] = position
 
 
-def _unparseable(path: Path, header: list[str], exc: Exception) -> InputError:
+def _unparseable(text: _Text, header: list[str], exc: Exception) -> InputError:
     """Find the first line whose field count differs from the header's (csv module)."""
+    path = text.path
     try:
-        with path.open(newline="", encoding="utf-8-sig") as f:
-            reader = csv.reader(f)
+        with text.open() as f:
+            reader = text.reader(f)
             next(reader, None)
             for record in reader:
                 if record and len(record) != len(header):
@@ -302,15 +526,17 @@ def _unparseable(path: Path, header: list[str], exc: Exception) -> InputError:
                         f"the line has {len(record)} fields; the header has {len(header)}",
                         field="line",
                         source=str(path),
-                        line=reader.line_num,
+                        line=text.line(reader.line_num),
                     )
     except (UnicodeDecodeError, csv.Error) as err:
-        return InputError(f"not CSV text in UTF-8 ({err})", field="file", source=str(path))
+        return InputError(
+            f"not CSV text in {text.dialect.encoding} ({err})", field="file", source=str(path)
+        )
     first = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
     return InputError(f"cannot parse the CSV: {first}", field="file", source=str(path))
 
 
-def _numbers(col: Any, column: str, where: _Where) -> NDArray[np.float64]:
+def _numbers(col: Any, column: str, where: _Namer) -> NDArray[np.float64]:
     import pandas as pd
 
     types = pd.api.types
@@ -338,7 +564,7 @@ def _numbers(col: Any, column: str, where: _Where) -> NDArray[np.float64]:
     return values
 
 
-def _check_si(si: NDArray[np.float64], cmap: ChannelMap, where: _Where) -> None:
+def _check_si(si: NDArray[np.float64], cmap: ChannelMap, where: _Namer) -> None:
     """Refuse a value whose SI conversion is not finite or outside units.SI_MIN..SI_MAX."""
     magnitude = np.abs(si)
     outside = (magnitude < units.SI_MIN) | (magnitude > units.SI_MAX)
@@ -354,7 +580,7 @@ def _check_si(si: NDArray[np.float64], cmap: ChannelMap, where: _Where) -> None:
         )
 
 
-def _labels(col: Any, column: str, where: _Where) -> tuple[NDArray[np.object_], NDArray[np.intp]]:
+def _labels(col: Any, column: str, where: _Namer) -> tuple[NDArray[np.object_], NDArray[np.intp]]:
     import pandas as pd
 
     codes, uniques = pd.factorize(col)
@@ -364,7 +590,7 @@ def _labels(col: Any, column: str, where: _Where) -> tuple[NDArray[np.object_], 
     return names[codes], codes.astype(np.intp, copy=False)
 
 
-def _check_gaps(t: NDArray[np.float64], mapping: Mapping, where: _Where) -> float:
+def _check_gaps(t: NDArray[np.float64], mapping: Mapping, where: _Namer) -> float:
     if t.size < 2:
         return 0.0
     steps = np.diff(t)
@@ -383,18 +609,18 @@ def _check_gaps(t: NDArray[np.float64], mapping: Mapping, where: _Where) -> floa
     return median
 
 
-def _times(col: Any, mapping: Mapping, where: _Where) -> NDArray[np.int64]:
+def _times(col: Any, mapping: Mapping, where: _Namer) -> NDArray[np.int64]:
     """Timestamps as int64 nanoseconds since the epoch (UTC), strictly increasing."""
     import pandas as pd
 
     column = mapping.time_column
-    if mapping.time_format:
+    if pd.api.types.is_datetime64_any_dtype(col.dtype):
+        parsed = col  # pyarrow recognized ISO 8601 itself, or a workbook held date cells
+        wanted = "a time"
+    elif mapping.time_format:
         _check_length(col, column, where)
         parsed = _strptime(col, mapping.time_format, mapping.source)
         wanted = f"a time in the format {mapping.time_format!r}"
-    elif pd.api.types.is_datetime64_any_dtype(col.dtype):
-        parsed = col  # pyarrow recognized ISO 8601 itself
-        wanted = "an ISO 8601 time"
     else:
         _check_length(col, column, where)
         parsed = _iso(col, column, where)
@@ -424,7 +650,7 @@ def _times(col: Any, mapping: Mapping, where: _Where) -> NDArray[np.int64]:
     return ns
 
 
-def _check_range(utc: Any, column: str, where: _Where) -> None:
+def _check_range(utc: Any, column: str, where: _Namer) -> None:
     """Refuse a time outside int64 nanoseconds (1677-09-21 to 2262-04-11, UTC); pandas may
     hold such times in seconds or microseconds but could not convert them."""
     per_ns = _PER_UNIT_NS[utc.unit]
@@ -440,7 +666,7 @@ def _check_range(utc: Any, column: str, where: _Where) -> None:
         )
 
 
-def _check_length(col: Any, column: str, where: _Where) -> None:
+def _check_length(col: Any, column: str, where: _Namer) -> None:
     """Refuse a timestamp over MAX_TIME_TEXT characters before any pattern is applied."""
     lengths = col.astype("str").str.len().to_numpy()
     long = lengths > MAX_TIME_TEXT
@@ -481,7 +707,7 @@ def _strptime(col: Any, fmt: str, source: str) -> Any:
     return pd.Series(parsed.to_pandas(), index=col.index)
 
 
-def _iso(col: Any, column: str, where: _Where) -> Any:
+def _iso(col: Any, column: str, where: _Namer) -> Any:
     """ISO 8601 text that pyarrow did not recognize (e.g. mixed offsets): pandas parses it."""
     import pandas as pd
 
@@ -502,7 +728,7 @@ def _iso(col: Any, column: str, where: _Where) -> Any:
     return pd.to_datetime(col, format="ISO8601", errors="coerce", utc=bool(aware_np.any()))
 
 
-def _localize(index: Any, mapping: Mapping, where: _Where) -> Any:
+def _localize(index: Any, mapping: Mapping, where: _Namer) -> Any:
     """Place local times in the mapping's zone; the fall-back hour by the order of samples."""
     tz = mapping.timezone
     try:
@@ -524,3 +750,87 @@ def _localize(index: Any, mapping: Mapping, where: _Where) -> Any:
             f"the local time {{text}} {why}; write "
             "times with their UTC offset, or check time.timezone",
         ) from None
+
+
+def read_logs(paths: Sequence[str | Path], mapping: Mapping, *, digest: bool = True) -> SkidLog:
+    """Several files of one run, read in the order given and joined into one log. A file that
+    starts before the one before it ends is refused naming both; the step between files is
+    checked like any other (the mapping's max_gap, else 5 x the median interval)."""
+    if not paths:
+        raise InputError("no skid log file given", field="file", expected="one or more files")
+    logs = [read_log(p, mapping, digest=digest) for p in paths]
+    if len(logs) == 1:
+        return logs[0]
+    first = logs[0]
+    times = [first.time_s]
+    for before, log in itertools.pairwise(logs):
+        ends = before.start + timedelta(seconds=float(before.time_s[-1]))
+        if log.start <= ends:
+            raise InputError(
+                f"{Path(log.source).name} starts at {log.start.isoformat()}, before "
+                f"{Path(before.source).name} ends at {ends.isoformat()}; expected files of one "
+                "run in time order that do not overlap",
+                field="file", value=log.source, source=log.source,
+                expected="the files in time order",
+            )  # fmt: skip
+        times.append(log.time_s + (log.start - first.start).total_seconds())
+    t = np.concatenate(times)
+    steps = np.diff(t)
+    median = float(np.median(steps))
+    allowed = mapping.max_gap_s if mapping.max_gap_s is not None else GAP_FACTOR * median
+    joins = np.cumsum([len(x) for x in times[:-1]]) - 1
+    for k, j in enumerate(joins):
+        if steps[j] > allowed:
+            how = (
+                "time.max_gap" if mapping.max_gap_s is not None else f"{GAP_FACTOR:g} x the median"
+            )
+            raise InputError(
+                f"{Path(logs[k + 1].source).name} starts {steps[j]:g} s after "
+                f"{Path(logs[k].source).name} ends, a gap over {allowed:g} s ({how}; "
+                "time.max_gap in the mapping allows more)",
+                field="file", value=logs[k + 1].source, source=logs[k + 1].source,
+            )  # fmt: skip
+    channels = {
+        name: np.concatenate([log.channels[name] for log in logs]) for name in first.channels
+    }
+    phases = None
+    if first.phases is not None:
+        phases = np.concatenate([log.phases for log in logs if log.phases is not None])
+    files = [f for log in logs for f in log.files]
+    joined = hashlib.sha256("\n".join(f.sha256 or "" for f in files).encode()).hexdigest()
+    unmapped = sorted({label for log in logs for label in log.unmapped_labels})
+    return SkidLog(
+        source=" + ".join(log.source for log in logs),
+        sha256=joined if digest else None,
+        rows=int(t.size),
+        start=first.start,
+        time_s=t,
+        channels=channels,
+        phases=phases,
+        assumptions=first.assumptions,
+        density_kg_m3=first.density_kg_m3,
+        median_step_s=median,
+        dialect=first.dialect,
+        unmapped_labels=unmapped,
+        files=files,
+    )
+
+
+def phase_warnings(log: SkidLog, template_phases: Sequence[str]) -> list[str]:
+    """What an importer should say at once: a template phase with no samples in the log, and
+    a step label of the log that belongs to no phase (neither mapped nor ignored)."""
+    present = set() if log.phases is None else {str(p) for p in np.unique(log.phases.astype(str))}
+    present.discard("")
+    out = [
+        f"template phase {p!r} has no samples in the log (map the skid's step label to it "
+        "in the mapping's [phases])"
+        for p in template_phases
+        if p not in present
+    ]
+    stray = sorted(present - set(template_phases)) if template_phases else log.unmapped_labels
+    out += [
+        f"step label {label!r} belongs to no template phase (list it under a phase or under "
+        "ignore in the mapping's [phases])"
+        for label in stray
+    ]
+    return out

@@ -10,25 +10,27 @@ from ledger.errors import InputError
 from ledger.runs.actuals import Geometry, PhaseWindow, Summary, summarize
 from ledger.runs.limits import load_limits
 from ledger.runs.mapping import load_mapping
-from ledger.runs.skidlog import read_log
+from ledger.runs.skidlog import read_logs
 
 
 def summarize_file(
-    file: str | Path,
+    file: str | Path | Sequence[str | Path],
     mapping: str | Path,
     *,
     limits: str | Path | None = None,
     geometry: Geometry | None = None,
     phases: Sequence[PhaseWindow] = (),
 ) -> tuple[Summary, bool]:
-    """The summary of one log, and whether limits were checked.
+    """The summary of one log (one file, or several of one run read in order and joined),
+    and whether limits were checked.
 
     An error in a file names that file (and line) and no field: a column or key that shares
     an option's name ("phase") must not be shown as that option.
     """
     try:
         ranges = load_limits(limits) if limits else []
-        log = read_log(file, load_mapping(mapping))
+        files = [file] if isinstance(file, str | Path) else list(file)
+        log = read_logs(files, load_mapping(mapping))
     except InputError as err:
         raise InputError(
             err.message, value=err.value, expected=err.expected, source=err.source, line=err.line

@@ -342,6 +342,8 @@ def test_summary_json_follows_the_agreed_schema() -> None:
     d = summary_json(demo_summary())
     assert set(d) == {
         "file",
+        "files",
+        "warnings",
         "sha256",
         "rows",
         "start",
