@@ -401,6 +401,10 @@ def _text_of(path: Path, mapping: Mapping) -> _Text:
 
 def _whole_lines(head: bytes) -> bytes:
     """``head`` up to its last line break (a sample never ends inside a character)."""
+    if head.startswith((b"\xff\xfe", b"\xfe\xff")):  # UTF-16: two bytes a character
+        text = head[: len(head) - len(head) % 2].decode("utf-16", errors="ignore")
+        cut = text.rfind("\n")
+        return (text[: cut + 1] if cut > 0 else text).encode("utf-16")
     cut = head.rfind(b"\n")
     return head[: cut + 1] if cut > 0 else head
 
