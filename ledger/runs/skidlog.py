@@ -255,6 +255,9 @@ def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> Skid
             phases, codes = _labels(col, cmap.column, where)
             phases, codes, unmapped = _translate(phases, codes, mapping)
             continue
+        if dialect.decimal == "," and not _is_numeric(col):
+            # pyarrow kept the column as text (a bad cell): read its other cells as numbers
+            col = col.astype("str").str.replace(",", ".", regex=False).where(col.notna())
         values = _numbers(col, cmap.column, where)
         with np.errstate(over="ignore", under="ignore"):
             si = np.multiply(values, cmap.scale)
@@ -328,6 +331,12 @@ def _read(text: _Text, header: list[str], mapping: Mapping) -> tuple[Any, Except
             return pd.read_csv(text.buffer(), dtype="str", **options), exc
         except Exception:
             raise _unparseable(text, header, exc) from None
+
+
+def _is_numeric(col: Any) -> bool:
+    import pandas as pd
+
+    return bool(pd.api.types.is_numeric_dtype(col.dtype))
 
 
 def _joined_times(frame: Any, mapping: Mapping) -> Any:
