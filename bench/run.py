@@ -116,7 +116,6 @@ def _not_benchmarked() -> list[Row]:
     """Speed targets of the design that no benchmark here measures yet."""
     why = "no benchmark measures it yet"
     return [
-        skipped_row("Workbook import / its reader's bare read", why, "<= 3x baseline"),
         skipped_row("Web pages with the demo fleet, p95", why, "< 100 ms"),
         skipped_row("Web fleet page with 1,000 modules", why, "< 1 s"),
     ]
@@ -177,6 +176,7 @@ def main(argv: list[str] | None = None) -> int:
         import skidlog  # bench/skidlog.py
 
         _section(rows, "Skid-log import", lambda: skidlog.run(repeats, memory_rows=memory_rows))
+        _section(rows, "Skid-log dialects", lambda: skidlog.dialects(repeats))
     if not args.skip_records:
         import records  # bench/records.py
 

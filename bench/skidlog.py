@@ -193,6 +193,75 @@ def run(repeats: int = 15, rows: int = 86_400, memory_rows: int = 1_000_000) -> 
     return out
 
 
+def dialects(repeats: int = 15, rows: int = 86_400) -> list[Row]:
+    """The same 24 h log exported with semicolons and decimal commas, and as an .xlsx
+    workbook (tests/reference/dialect_writers.py rewrites it), each against its reader's
+    own bare read: pandas.read_csv(sep=";", decimal=",", engine="pyarrow") of the CSV, and
+    python-calamine's read of the sheet into Python rows."""
+    import pandas as pd
+    from python_calamine import CalamineWorkbook
+
+    from ledger.runs.actuals import summarize
+    from ledger.runs.mapping import load_mapping
+    from ledger.runs.skidlog import read_log
+
+    sys.path.insert(0, str(ROOT))
+    from tests.reference import dialect_writers
+
+    geometry, ranges = _case_objects(rows)
+    out: list[Row] = []
+    with tempfile.TemporaryDirectory(prefix="fluxledger-bench-dialects-") as tmp:
+        folder = Path(tmp)
+        csv, mapping_path = _write(rows, folder)
+        mapping = load_mapping(mapping_path)
+        header, body = dialect_writers.read(csv)
+        (semi,), _ = dialect_writers.semicolon_decimal_comma(folder, header, body, "", {})
+        # the workbook holds text times (ISO 8601 with offset, as in the CSV)
+        book = folder / "log.xlsx"
+        _workbook(book, header, body)
+        medians = alternate(
+            {
+                "semi_base": lambda: pd.read_csv(semi, sep=";", decimal=",", engine="pyarrow"),
+                "semi": lambda: summarize(read_log(semi, mapping), geometry, ranges),
+                "book_base": lambda: (
+                    CalamineWorkbook.from_path(str(book)).get_sheet_by_index(0).to_python()
+                ),
+                "book": lambda: summarize(read_log(book, mapping), geometry, ranges),
+            },
+            max(3, repeats // 3),
+        )
+    # the design sets a target for the workbook; the semicolon export is shown for comparison
+    for key, label, target in (
+        ("semi", 'Skid-log import, ";" and decimal comma / read_csv(sep=";", decimal=",")', None),
+        ("book", "Workbook import + actuals / python-calamine's bare read of the sheet", 3.0),
+    ):
+        m, b = medians[key][0], medians[f"{key}_base"][0]
+        goal = f" (target <= {target:g}x)" if target else " (no target of its own)"
+        print(f"  {label}: {m * 1e3:.0f} ms against {b * 1e3:.0f} ms, {m / b:.2f}x{goal}")
+        note = f"{rows:,}-row 1 Hz log, SHA-256 on; medians"
+        if target is None:
+            out.append(Row(label, m * 1e3, "ms", b * 1e3, note=note))
+        else:
+            out.append(Row(label, m * 1e3, "ms", b * 1e3, f"<= {target:g}x baseline",
+                           m / b <= target, note=note))  # fmt: skip
+    return out
+
+
+def _workbook(path: Path, header: list[str], body: list[list[str]]) -> None:
+    import xlsxwriter
+
+    book = xlsxwriter.Workbook(str(path), {"constant_memory": True})
+    sheet = book.add_worksheet("Data")
+    sheet.write_row(0, 0, header)
+    for n, r in enumerate(body, start=1):
+        for k, c in enumerate(r):
+            try:
+                sheet.write_number(n, k, float(c))
+            except ValueError:
+                sheet.write_string(n, k, c)
+    book.close()
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--repeats", type=int, default=15, help="timed calls of each (>= 7)")

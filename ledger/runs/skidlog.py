@@ -385,9 +385,15 @@ def _text_of(path: Path, mapping: Mapping) -> _Text:
         encoding=given.encoding, delimiter=given.delimiter, decimal=given.decimal,
         header_line=given.header_line, units_row=given.units_row,
     )  # fmt: skip
-    if dialect.plain:
-        return _Text(path, dialect)
+    utf8 = dialect.encoding in ("utf-8", "utf-8-sig")
+    if dialect.plain or (utf8 and dialect.header_line == 1 and not dialect.units_row):
+        return _Text(path, dialect)  # pyarrow reads the file itself, with its delimiter
     data = path.read_bytes()
+    if utf8 and b"\r" not in data[:SAMPLE_BYTES]:
+        try:
+            return _utf8_body(path, dialect, data)
+        except UnicodeDecodeError:
+            pass  # not UTF-8 after all: detect again below
     if dialect.encoding in ("utf-8", "utf-8-sig") and given.encoding is None:
         # the sample was UTF-8; the rest of the file may not be
         try:
@@ -406,6 +412,26 @@ def _text_of(path: Path, mapping: Mapping) -> _Text:
         rest = rest[1:]
     body = "".join(lines[h : h + 1] + rest).lstrip("\ufeff").encode("utf-8")
     return _Text(path, dialect, body, units)
+
+
+def _utf8_body(path: Path, dialect: Dialect, data: bytes) -> _Text:
+    """A UTF-8 body cut out of the bytes (no decoding of the whole file): from the header
+    line on, without the units row. UnicodeDecodeError if the file is not UTF-8 after all."""
+    start = 0
+    for _ in range(dialect.header_line - 1):
+        start = data.index(b"\n", start) + 1
+    header_end = data.index(b"\n", start) + 1 if b"\n" in data[start:] else len(data)
+    rest = header_end
+    units = None
+    if dialect.units_row and rest < len(data):
+        units_end = data.find(b"\n", rest)
+        units_end = len(data) if units_end < 0 else units_end + 1
+        row = data[rest:units_end].decode("utf-8").rstrip("\r\n")
+        units = next(csv.reader([row], delimiter=dialect.delimiter), [])
+        rest = units_end
+    data[header_end:].decode("utf-8")  # the whole body must be UTF-8, or detect again
+    head = data[start:header_end].decode("utf-8").lstrip("\ufeff").encode("utf-8")
+    return _Text(path, dialect, head + data[rest:], units)
 
 
 def _whole_lines(head: bytes) -> bytes:
