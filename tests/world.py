@@ -196,6 +196,12 @@ class World:
             "--rinse-conductivity", "1.4 uS/cm", *more,
         )  # fmt: skip
 
+    def wide_log_tolerance(self) -> None:
+        """Let skid logs reach 6 h outside their run: test flows start a run now and import a
+        log written for the two hours before (the rule itself is tested at its default)."""
+        self.ok(self.as_user("eng.ray", "run", "log-tolerance", "--tolerance", "6 h", "--reason",
+                             "test flow: the log is written for the hours before the run"))  # fmt: skip
+
     def ready(self, serial: str = "QMB-0142") -> None:
         """Register a module and commission it (baseline + integrity): available."""
         self.add_module(serial)
@@ -232,6 +238,8 @@ def build(url: str) -> World:
             "init", "--admin", "sysadm", "--name", "Ida Brandt", "--password-stdin", input=f"{pw}\n"
         )
     )
+    if url.startswith("postgresql"):  # reads need a signed-in user there unless turned off
+        w.ok(w.as_user("sysadm", "user", "reads-need-login", "off", "--reason", "test world"))
     for login, role in ROLES.items():
         w.ok(
             w.as_user(

@@ -242,7 +242,9 @@ def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
     write_log(skid_log, run_start)
     runs = tomllib.loads((samples / "run_history.toml").read_text(encoding="utf-8"))
     seal = _demo_seal(out)
+    plan_at = now - timedelta(days=0.12)  # after the pre-use test, before the start
     more = {"skid_log": _shown(skid_log), "run_start": run_start.isoformat(timespec="seconds"),
+            "plan_at": plan_at.isoformat(timespec="seconds"),
             "run_end": run_end.isoformat(timespec="seconds"), "out": _shown(out),
             "seal_key": _shown(seal.p12), "seal_cert": _shown(seal.cert)}  # fmt: skip
     steps += _scenario_steps(runs["steps"], users, samples, now, more)

@@ -254,7 +254,9 @@ def use_end(
 
 @guarded
 def void(
-    kind: str = typer.Argument(..., help="water-test, integrity-test, cleaning, storage or use."),
+    kind: str = typer.Argument(
+        ..., help="water-test, integrity-test, cleaning, storage, use or skid-log."
+    ),
     record_id: int = typer.Argument(..., help="The record's ID (see module show)."),
     reason: str = typer.Option(..., "--reason", help="Why the record is wrong."),
     user: str = USER_OPTION,

@@ -8,7 +8,7 @@ from typing import Any
 
 import typer
 
-from ledger.cli.common import JSON_OPTION, guarded
+from ledger.cli.common import JSON_OPTION, guarded, quantity_option
 from ledger.cli.describe import SITE_NOTE
 from ledger.cli.session import ACTIVITY_TIME, DB_OPTION, PASSWORD_STDIN, USER_OPTION, read
 from ledger.cli.session import write as write_as
@@ -90,6 +90,7 @@ def plan(
         help="Plan with a template written for another product than --product, and why "
         "(recorded in the plan and the audit trail).",
     ),
+    activity_time: str | None = ACTIVITY_TIME,
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
@@ -107,6 +108,7 @@ def plan(
         lambda s, a: plan_run(
             s, a, e.template, e.module, e.product, e.lot, e.inputs, scouting=e.scouting,
             override_reason=e.override_reason, product_override_reason=e.product_override_reason,
+            planned_at=e.planned_at,
         ),
     )  # fmt: skip
     if not as_json:
@@ -321,8 +323,11 @@ def import_log(
     else:
         line = (f"run {run}: {record.file_name} was already imported (sha256 "
                 f"{record.sha256[:12]}); nothing written")  # fmt: skip
+    warnings = list((record.actuals or {}).get("warnings") or [])
+    if warnings and not as_json:
+        line += "".join(f"\nwarning: {w}" for w in warnings)
     finish_line("run import", line, as_json, run=run, written=new, file_name=record.file_name,
-                rows=record.rows, sha256=record.sha256)  # fmt: skip
+                rows=record.rows, sha256=record.sha256, warnings=warnings)  # fmt: skip
 
 
 @app.command("qc")
@@ -416,6 +421,48 @@ def finish(
     number, at = activity(locals())
     r = write_as(db, user, password_stdin, lambda s, a: finish_run(s, a, number, activity_at=at))
     finish_line("run finish", f"run {run} finished; module awaits cleaning", as_json, run=r.id,
+                status=r.status)  # fmt: skip
+
+
+@app.command("log-tolerance")
+@guarded
+def log_tolerance(
+    tolerance: str = quantity_option(
+        ..., "--tolerance", help="How far a skid log may reach outside its run, e.g. '10 min'."
+    ),
+    reason: str = typer.Option(..., "--reason", help="Why the tolerance changes."),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Set how far (at most 24 h) a skid log's times may fall outside its run's start and
+    finish before `run import` refuses it (engineer or QA; audited; default 10 min)."""
+    from ledger.entries.runs import log_tolerance as entry
+    from ledger.runs.service import set_log_tolerance
+
+    seconds, why = entry(locals())
+    write_as(db, user, password_stdin, lambda s, a: set_log_tolerance(s, a, seconds, why))
+    finish_line("run log-tolerance", f"skid logs may now fall {seconds / 60:g} min outside their "
+                "run", as_json, tolerance_s=seconds)  # fmt: skip
+
+
+@app.command("abort")
+@guarded
+def abort(
+    run: int = RUN,
+    reason: str = typer.Option(..., "--reason", help="Why the run is aborted."),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Abort a run before review (engineer or QA): a run in progress ends its module's use,
+    which then awaits cleaning; the run is kept and its record prints as aborted."""
+    from ledger.runs.service import abort_run
+
+    r = write_as(db, user, password_stdin, lambda s, a: abort_run(s, a, run, reason))
+    finish_line("run abort", f"run {run} aborted: {reason}", as_json, run=r.id,
                 status=r.status)  # fmt: skip
 
 

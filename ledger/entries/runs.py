@@ -86,6 +86,7 @@ RUN_PLAN = Spec(
         Field("scouting"),
         Field("override_reason"),
         Field("product_override_reason"),
+        Field("activity_time", "datetime"),
     ),
 )
 
@@ -100,6 +101,7 @@ class PlanEntry:
     scouting: list[tuple[float, float]] | None
     override_reason: str | None
     product_override_reason: str | None = None  # a template of another product, and why
+    planned_at: datetime | None = None  # entered late: when the run was planned
 
 
 def run_plan(raw: Mapping[str, Any]) -> PlanEntry:
@@ -109,7 +111,7 @@ def run_plan(raw: Mapping[str, Any]) -> PlanEntry:
     scouting = read_scouting(v["scouting"]) if v["scouting"] is not None else None
     return PlanEntry(
         v["template"], v["module"], v["product"], v["lot"], given, scouting, v["override_reason"],
-        v["product_override_reason"],
+        v["product_override_reason"], v["activity_time"],
     )  # fmt: skip
 
 
@@ -196,3 +198,15 @@ def log_summary(raw: Mapping[str, Any]) -> LogSummaryEntry:
         v["lumen_diameter"],
         phase_windows(raw.get("phase") or ()),
     )
+
+
+LOG_TOLERANCE = Spec(
+    "run log-tolerance",
+    (Field("tolerance", "time", required=True), Field("reason", required=True)),
+)
+
+
+def log_tolerance(raw: Mapping[str, Any]) -> tuple[float, str]:
+    """The skid-log tolerance (s) and the reason it changes."""
+    v = LOG_TOLERANCE.parse(raw)
+    return v["tolerance"], v["reason"]

@@ -10,6 +10,7 @@ from ledger.errors import InputError, RefusedError
 from ledger.logbook.auth import DECIDERS, require_role
 from ledger.logbook.modules import get_module
 from ledger.logbook.required import required
+from ledger.rules import runs as run_rules
 from ledger.rules.names import shown
 from ledger.rules.sequence import refusal
 from ledger.store.audit import Journal
@@ -18,6 +19,8 @@ from ledger.store.tables import (
     IntegrityTest,
     Module,
     ModuleUse,
+    Run,
+    SkidLogFile,
     Storage,
     UserAccount,
     Voidable,
@@ -30,6 +33,7 @@ VOIDABLE: dict[str, type[Voidable]] = {
     "cleaning": Cleaning,
     "storage": Storage,
     "use": ModuleUse,
+    "skid-log": SkidLogFile,  # of a run in progress or finished; the run's status decides
 }
 
 
@@ -60,6 +64,14 @@ def void_record(
             value=record_id,
         )
     reason = required("reason", reason, "why the record is wrong", kind="text")
+    if isinstance(record, SkidLogFile):
+        run = session.get(Run, record.run_id)
+        assert run is not None
+        message = run_rules.refusal("void_log", run.status, f"run {run.id}")
+        if message:
+            raise RefusedError(message, field="id", value=record_id)
+        Journal(session, actor.login).void(record, reason)
+        return record
     module = session.get(Module, record.module_id)  # type: ignore[attr-defined]
     assert module is not None
     get_module(session, module.serial, lock=True)

@@ -85,6 +85,9 @@ def assemble(
 ) -> c.Context:
     """The context of ``run_id``; revision 0 is a draft of the live data (no cut-off)."""
     run = runs.get_run(session, run_id)
+    if run.status == "aborted" and revision == 0:
+        reason = (f"ABORTED on {iso(run.aborted_at)} by {run.aborted_by}: {run.abort_reason}; "
+                  "not a released batch record")  # fmt: skip
     module = session.get(Module, run.module_id)
     assert module is not None
     mtype = session.get(ModuleType, module.type_id)
@@ -117,11 +120,11 @@ def assemble(
         module_area=show(mtype.area_m2, "m^2", "area"),
         cycle=cycle,
         planned_by=run.created_by,
-        planned_at=_at(run.created_at),
+        planned_at=_at(run.planned_at or run.created_at),
         started_at=iso(run.started_at),
         finished_at=iso(run.finished_at),
         submitted_at=iso(run.submitted_at),
-        skid_log=(f"{log.file_name} ({log.rows:,} rows, SHA-256 {log.sha256})" if log else None),
+        skid_log=_log_line(session, run_id, log, as_of),
         override_reason=run.override_reason,
     )
     qc_rows = _qc_rows(session, run_id, as_of)
@@ -198,6 +201,22 @@ def signature_rows(
 
 def _closed(d: Deviation, as_of: datetime | None) -> bool:
     return d.closed_at is not None and (as_of is None or d.closed_at <= as_of)
+
+
+def _log_line(
+    session: Session, run_id: int, log: SkidLogFile | None, as_of: datetime | None
+) -> str | None:
+    """The skid log in use, then every voided one with who voided it, when and why (a
+    voided log stays in the record's history)."""
+    parts = [f"{log.file_name} ({log.rows:,} rows, SHA-256 {log.sha256})"] if log else []
+    for old in session.exec(select(SkidLogFile).where(SkidLogFile.run_id == run_id)).all():
+        if old.voided_at is None or (as_of is not None and old.voided_at > as_of):
+            continue
+        parts.append(
+            f"voided: {old.file_name} (SHA-256 {old.sha256[:16]}…) by {old.voided_by} on "
+            f"{iso(old.voided_at)}: {old.void_reason}"
+        )
+    return "; ".join(parts) or None
 
 
 def _skid_log(session: Session, run_id: int, as_of: datetime | None) -> SkidLogFile | None:

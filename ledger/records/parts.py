@@ -92,9 +92,14 @@ def identity(ctx: Context, content_sha256: str) -> list[Any]:
         layout.markup(f"<b>Revision {h.revision}</b> — {esc(h.revision_reason)}", s.body),
     ]
     if h.revision == 0:
+        text = (
+            f"<b>ABORTED</b>: {esc(h.revision_reason)}"
+            if h.status == "aborted"
+            else "<b>DRAFT</b> (revision 0): printed before the run was submitted; not a "
+            "released batch record."
+        )
         banner = Table([[layout.markup(
-            "<b>DRAFT</b> (revision 0): printed before the run was submitted; not a released "
-            "batch record.", s.body.clone("d", textColor=layout.colors.Color(0.6, 0.08, 0.08)))]],
+            text, s.body.clone("d", textColor=layout.colors.Color(0.6, 0.08, 0.08)))]],
             colWidths=[layout.FRAME_W])  # fmt: skip
         banner.setStyle(
             TS(

@@ -31,6 +31,7 @@ from ledger.store.tables import (
     ModuleType,
     QcResult,
     Run,
+    Setting,
     SkidLogFile,
     UserAccount,
     WaterFluxTest,
@@ -98,6 +99,7 @@ def plan_run(
     scouting: Sequence[tuple[float, float]] | None = None,
     override_reason: str | None = None,
     product_override_reason: str | None = None,
+    planned_at: datetime | None = None,
 ) -> Run:
     """Plan a run on a module. A module that is not fit needs an engineer's or QA's override
     with a reason; so does a template written for another product (the reason is kept in the
@@ -133,6 +135,7 @@ def plan_run(
     mtype = session.get(ModuleType, module.type_id)
     assert mtype is not None
     journal = Journal(session, actor.login)
+    planned_at, _ = activity_time(planned_at, journal.at)
     judged = verdict(facts(session, module, product, now=journal.at))
     failing = [r for r in judged.reasons if r.outcome == "fail"]
     if failing and not (override_reason and override_reason.strip()):
@@ -172,6 +175,7 @@ def plan_run(
             inputs=dict(inputs),
             plan=plan.to_record(),
             override_reason=override_reason,
+            planned_at=planned_at,
         ),
         reason="run planned"
         + (f" despite NOT FIT: {override_reason}" if override_reason else "")
@@ -193,6 +197,15 @@ def start_run(
     mtype = session.get(ModuleType, module.type_id) if module else None
     assert module is not None and mtype is not None
     at, _ = activity_time(activity_at, Journal(session, actor.login).at)
+    planned = sequence.planned_time(run.planned_at, run.created_at)
+    if at < planned:
+        raise InputError(
+            f"{label(run)} cannot start at {at.isoformat()}, before it was planned "
+            f"({planned.isoformat()})",
+            field="activity_time",
+            value=at.isoformat(),
+            expected=f"a time at or after {planned.isoformat()}",
+        )
     cleaning = latest.cleaning(session, run.module_id)
     cleaned_at = cleaning.activity_at if cleaning else None
     pre = latest.water(session, run.module_id, "pre_use")
@@ -274,13 +287,28 @@ def import_log(
             return existing, False
         raise RefusedError(
             f"{label(run)} already has skid log {existing.file_name} (sha256 "
-            f"{existing.sha256[:12]}); void it first (fluxledger void skid_log_file "
+            f"{existing.sha256[:12]}); void it first (fluxledger void skid-log "
             f"{existing.id} --reason ...)",
             field="run",
             value=run_id,
         )
     mapping = load_mapping(mapping_path)
     log = read_log(path, mapping)
+    from datetime import timedelta
+
+    journal = Journal(session, actor.login)
+    log_end = log.start + timedelta(seconds=float(log.time_s[-1]) if log.rows else 0.0)
+    outside = sequence.log_outside_run(
+        log.start, log_end, run.started_at, run.finished_at, journal.at, log_tolerance(session)
+    )
+    if outside:
+        raise InputError(
+            f"the skid log does not belong to {label(run)}: {outside}",
+            field="file",
+            value=path.name,
+            expected="a log recorded between the run's start and finish",
+            source=str(path),
+        )
     module = session.get(Module, run.module_id)
     mtype = session.get(ModuleType, module.type_id) if module else None
     assert mtype is not None
@@ -290,13 +318,19 @@ def import_log(
         for v in plan.values
         if v.actual and "." not in v.actual and v.actual in templates.CHANNELS
     ]
+    typed = [w for w in windows if isinstance(w, PhaseWindow)]
     summary = summarize(
         log,
         Geometry(mtype.area_m2, mtype.fiber_count, mtype.lumen_diameter_m),
         ranges,
-        [w for w in windows if isinstance(w, PhaseWindow)] or None,
+        typed or None,
     )
-    record = Journal(session, actor.login).create(
+    if not typed:  # the template's phases against the log's step labels, said at import
+        from ledger.runs.skidlog import phase_warnings
+
+        phases = list(dict.fromkeys(step.phase for step in run_template(run).steps))
+        summary.warnings = phase_warnings(log, phases)
+    record = journal.create(
         SkidLogFile(
             run_id=run_id,
             file_name=path.name,
@@ -477,6 +511,20 @@ def finish_run(
     _allow(run, "finish")
     module = session.get(Module, run.module_id)
     assert module is not None
+    log = skid_log(session, run_id)
+    if log is not None:
+        from datetime import timedelta
+
+        at, _ = activity_time(activity_at, Journal(session, actor.login).at)
+        log_end = datetime.fromisoformat(log.actuals["end"])
+        if at < log_end - timedelta(seconds=log_tolerance(session)):
+            raise InputError(
+                f"{label(run)} cannot finish at {at.isoformat()}: its skid log runs to "
+                f"{log_end.isoformat()}",
+                field="activity_time",
+                value=at.isoformat(),
+                expected=f"a time at or after the end of the skid log ({log_end.isoformat()})",
+            )
     use = end_use(session, actor, module.serial, activity_at=activity_at)
     Journal(session, actor.login).change(
         run,
@@ -484,6 +532,60 @@ def finish_run(
         reason="run finished",
         module_id=run.module_id,
     )
+    return run
+
+
+LOG_TOLERANCE_KEY = "run.log_tolerance_s"
+MAX_LOG_TOLERANCE_S = 24 * 3600.0
+
+
+def log_tolerance(session: Session) -> float:
+    """How far (s) a skid log may reach outside its run: the site's setting, else the
+    default of ledger.rules.runs."""
+    row = session.get(Setting, LOG_TOLERANCE_KEY)
+    return float(row.value) if row is not None else sequence.LOG_TOLERANCE_S
+
+
+def set_log_tolerance(session: Session, actor: UserAccount, seconds: float, reason: str) -> Setting:
+    """Set how far a skid log may reach outside its run's start and finish (an engineer or
+    QA; audited). At most a day: beyond that a log could belong to another run."""
+    require_role(actor, DECIDERS, "set the skid-log tolerance")
+    if not 0 <= seconds <= MAX_LOG_TOLERANCE_S:
+        raise InputError(
+            f"a tolerance of {seconds:g} s is out of range",
+            field="tolerance",
+            value=seconds,
+            expected="from 0 to 24 h",
+        )
+    reason = required("reason", reason, "why the tolerance changes", kind="text")
+    journal = Journal(session, actor.login)
+    row = session.get(Setting, LOG_TOLERANCE_KEY)
+    if row is None:
+        return journal.create(Setting(key=LOG_TOLERANCE_KEY, value=repr(seconds)), reason=reason)
+    journal.change(row, {"value": repr(seconds)}, reason=reason)
+    return row
+
+
+def abort_run(session: Session, actor: UserAccount, run_id: int, reason: str) -> Run:
+    """Abort a run that went wrong before review (an engineer or QA, with a reason). A run in
+    progress ends its module's use, so the module awaits cleaning; the run is kept and its
+    record prints as aborted."""
+    require_role(actor, DECIDERS, "abort runs")
+    reason = required("reason", reason, "why the run is aborted", kind="text")
+    run = get_run(session, run_id, lock=True)
+    _allow(run, "abort")
+    journal = Journal(session, actor.login)
+    if run.status == "in_progress":
+        module = session.get(Module, run.module_id)
+        assert module is not None
+        end_use(session, actor, module.serial)
+    journal.change(
+        run,
+        {"status": "aborted", "aborted_at": journal.at, "aborted_by": actor.login,
+         "abort_reason": reason},
+        reason=f"run aborted: {reason}",
+        module_id=run.module_id,
+    )  # fmt: skip
     return run
 
 

@@ -272,7 +272,7 @@ class Hold(Recorded, table=True):
     meaning: str | None = Field(default=None, max_length=16)  # the signature's meaning
 
 
-RUN_STATUSES = ("planned", "in_progress", "finished", "in_review", "approved")
+RUN_STATUSES = ("planned", "in_progress", "finished", "in_review", "approved", "aborted")
 
 
 class Run(Voidable, table=True):
@@ -297,6 +297,10 @@ class Run(Voidable, table=True):
     finished_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
     submitted_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
     correction_reason: str | None = None  # why the record is being corrected (next revision)
+    planned_at: datetime | None = Field(default=None, sa_type=UTCDateTime)  # a late plan
+    aborted_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    aborted_by: str | None = Field(default=None, max_length=64)
+    abort_reason: str | None = None
 
 
 class SkidLogFile(Voidable, table=True):

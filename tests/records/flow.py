@@ -64,6 +64,7 @@ def to_review(
     )
     r = str(run)
     w.ok(w.as_user("op.kim", "run", "start", r))
+    w.wide_log_tolerance()
     log = write_log(tmp_path / f"skid-{run}.csv", datetime.now(UTC) - timedelta(hours=2))
     w.ok(w.as_user("op.kim", "run", "import", r, str(log), "--mapping", str(MAPPING)))
     results = GOOD_QC if qc is None else qc

@@ -259,6 +259,7 @@ def _a_run(w: World, tmp_path: Path) -> None:
     w.ok(w.as_user("eng.ray", "run", "plan", "QB-MR-LNP-101", "--module", "QMB-0142",
                    "--product", "QB-117", "--lot", "QB117-26-015", *INPUTS))  # fmt: skip
     w.ok(w.as_user("op.kim", "run", "start", "1"))
+    w.wide_log_tolerance()
     log = write_log(tmp_path / "skid.csv", datetime.now(UTC) - timedelta(hours=2))
     w.ok(w.as_user("op.kim", "run", "import", "1", str(log), "--mapping", str(MAPPING)))
     w.ok(w.as_user("op.kim", "run", "qc", "1", "--result", "ph=7.4"))

@@ -54,8 +54,8 @@ def test_empty_database_is_refused_with_init_advice(db_url: str) -> None:
 
 @pytest.mark.parametrize(
     ("stored", "message"),
-    [("0001", "older than this software's 0003; run `fluxledger init`"),
-     ("0002", "older than this software's 0003; run `fluxledger init`"),
+    [("0001", f"older than this software's {schema.REVISION}; run `fluxledger init`"),
+     ("0002", f"older than this software's {schema.REVISION}; run `fluxledger init`"),
      ("0042", "does not know"),
      ("a1b2c3", "does not know")],
 )  # fmt: skip
@@ -196,7 +196,7 @@ def test_a_0001_logbook_upgrades_to_the_runs_schema(db_url: str) -> None:
     with engine.begin() as conn:
         command.upgrade(schema.alembic_config(engine, conn), "0001")
     assert schema.stored_revision(engine) == "0001"
-    assert schema.upgrade(engine) == ("0001", "0003")
+    assert schema.upgrade(engine) == ("0001", schema.REVISION)
     names = set(inspect(engine).get_table_names())
     assert {"run", "skid_log_file", "qc_result", "deviation"} <= names
     columns = {c["name"] for c in inspect(engine).get_columns("module_type")}
@@ -211,8 +211,9 @@ def test_a_0002_database_upgrades_to_the_records_schema(db_url: str) -> None:
     engine = connect(resolve_url(db_url), create=True)
     with engine.begin() as conn:
         command.upgrade(schema.alembic_config(engine, conn), "0002")
-    assert schema.upgrade(engine) == ("0002", "0003")
+    assert schema.upgrade(engine) == ("0002", schema.REVISION)
     names = set(inspect(engine).get_table_names())
     assert {"record_revision", "signature"} <= names
     columns = {c["name"] for c in inspect(engine).get_columns("run")}
     assert "correction_reason" in columns
+    assert {"aborted_at", "aborted_by", "abort_reason"} <= columns  # 0004
