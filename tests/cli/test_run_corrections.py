@@ -1,0 +1,87 @@
+"""A run record a reviewer can trust, through the CLI: a wrong skid log voided and another
+imported, a run aborted, a log outside its run or in the future refused (nothing written),
+a run that cannot start before it was planned."""
+
+from __future__ import annotations
+
+from datetime import UTC, datetime, timedelta
+from pathlib import Path
+
+import pytest
+
+from tests.cli.test_runs import MAPPING, plan, ready_for_a_run
+from tests.world import World
+
+pytestmark = pytest.mark.sqlite_only
+
+
+def _started(world: World) -> None:
+    ready_for_a_run(world)
+    world.ok(plan(world))
+    world.ok(world.as_user("op.kim", "run", "start", "1"))
+
+
+def _log(tmp_path: Path, name: str, start: datetime, seed: int = 117) -> Path:
+    from ledger.cli.demo_log import write_log
+
+    return write_log(tmp_path / name, start, seed=seed)
+
+
+def test_a_voided_log_is_replaced_and_stays_in_the_history(world: World, tmp_path: Path) -> None:
+    _started(world)
+    world.wide_log_tolerance()
+    first = _log(tmp_path, "first.csv", datetime.now(UTC) - timedelta(hours=2))
+    world.ok(world.as_user("op.kim", "run", "import", "1", str(first), "--mapping", str(MAPPING)))
+    second = _log(tmp_path, "second.csv", datetime.now(UTC) - timedelta(hours=2), seed=118)
+    refused = world.as_user("op.kim", "run", "import", "1", str(second), "--mapping", str(MAPPING))
+    assert refused.code == 3 and "fluxledger void skid-log 1" in refused.stderr
+    # an operator may not void; an engineer may, with a reason
+    assert world.as_user("op.kim", "void", "skid-log", "1", "--reason", "wrong file").code == 3
+    world.ok(world.as_user("eng.ray", "void", "skid-log", "1", "--reason", "export of run 0"))
+    done = world.ok(
+        world.as_user("op.kim", "run", "import", "1", str(second), "--mapping", str(MAPPING))
+    )
+    assert "imported second.csv" in done.stdout
+    events = world.ok(world.cli("audit", "show", "--json")).json()
+    voids = [e for e in events["events"] if e.get("action") == "void"]
+    assert voids and voids[-1]["entity"] == "skid_log_file"
+
+
+def test_a_log_outside_the_run_or_in_the_future_is_refused(world: World, tmp_path: Path) -> None:
+    _started(world)
+    before = world.snapshot()
+    # the default tolerance is 10 min: a log from two hours before the start is refused
+    early = _log(tmp_path, "early.csv", datetime.now(UTC) - timedelta(hours=2))
+    out = world.as_user("op.kim", "run", "import", "1", str(early), "--mapping", str(MAPPING))
+    assert out.code == 2 and "before the run started" in out.stderr
+    # a log that runs on past now (it ends about 50 min after it starts) is in the future
+    late = _log(tmp_path, "late.csv", datetime.now(UTC))
+    out = world.as_user("op.kim", "run", "import", "1", str(late), "--mapping", str(MAPPING))
+    assert out.code == 2 and "in the future" in out.stderr
+    assert world.snapshot() == before
+
+
+def test_an_aborted_run_sends_its_module_to_cleaning(world: World, tmp_path: Path) -> None:
+    _started(world)
+    assert world.status() == "in_use"
+    assert world.as_user("op.kim", "run", "abort", "1", "--reason", "pump fault").code == 3
+    done = world.ok(world.as_user("eng.ray", "run", "abort", "1", "--reason", "pump fault",
+                                  "--json"))  # fmt: skip
+    assert done.json()["status"] == "aborted"
+    assert world.status() == "awaiting_cleaning"
+    again = world.as_user("eng.ray", "run", "abort", "1", "--reason", "twice")
+    assert again.code == 3 and "aborted" in again.stderr
+    pdf = tmp_path / "aborted.pdf"
+    world.ok(world.cli("record", "print", "1", "--out", str(pdf)))
+    from pypdf import PdfReader
+
+    text = PdfReader(str(pdf)).pages[0].extract_text()
+    assert "ABORTED" in text and "pump fault" in text
+
+
+def test_a_run_cannot_start_before_it_was_planned(world: World) -> None:
+    ready_for_a_run(world)
+    world.ok(plan(world))
+    earlier = (datetime.now(UTC) - timedelta(minutes=30)).isoformat(timespec="seconds")
+    out = world.as_user("op.kim", "run", "start", "1", "--activity-time", earlier)
+    assert out.code == 2 and "before it was planned" in out.stderr
