@@ -5,10 +5,11 @@ from __future__ import annotations
 from alembic import context
 from sqlmodel import SQLModel
 
-import ledger.store.tables  # noqa: F401  (registers the tables on SQLModel.metadata)
 from ledger.store.engine import connect, resolve_url
+from ledger.store.registry import load_all
 
 config = context.config
+load_all()  # registers every table on SQLModel.metadata
 target_metadata = SQLModel.metadata
 
 

@@ -155,7 +155,9 @@ class World:
         from sqlmodel import SQLModel
 
         import ledger.store.tables
+        from ledger.store.registry import load_all
 
+        load_all()
         engine = self.engine()
         out: dict[str, Any] = {}
         with engine.connect() as conn:
@@ -199,8 +201,9 @@ class World:
     def wide_log_tolerance(self) -> None:
         """Let skid logs reach 6 h outside their run: test flows start a run now and import a
         log written for the two hours before (the rule itself is tested at its default)."""
-        self.ok(self.as_user("eng.ray", "run", "log-tolerance", "--tolerance", "6 h", "--reason",
-                             "test flow: the log is written for the hours before the run"))  # fmt: skip
+        why = "test flow: the log is written for the hours before the run"
+        self.ok(self.as_user("eng.ray", "run", "log-tolerance", "--tolerance", "6 h",
+                             "--reason", why))  # fmt: skip
 
     def ready(self, serial: str = "QMB-0142") -> None:
         """Register a module and commission it (baseline + integrity): available."""

@@ -40,6 +40,7 @@ COMMANDS: dict[str, tuple[str, str, str]] = {
     "run": ("runs", "app", "group"),
     "log": ("logs", "app", "group"),
     "record": ("batch_record", "app", "group"),
+    "skid": ("skids", "app", "group"),
     "demo": ("demo", "demo", "command"),
 }
 

@@ -88,7 +88,25 @@ def acting_user(engine: Any, login: str, password_stdin: bool) -> Any:
     return sign_in(engine, login, read_secret("Password", from_stdin=password_stdin))
 
 
-def read(db: str | None, work: Callable[[Any], T]) -> T:
+READ_USER_OPTION = typer.Option(
+    None, "--user", help="Your user ID, where the site lets only signed-in users read."
+)
+
+
+def read(
+    db: str | None,
+    work: Callable[[Any], T],
+    user: str | None = None,
+    password_stdin: bool = False,
+) -> T:
+    """Run ``work`` on the database; with ``user`` (or, for a command without --user, the
+    FLUXLEDGER_USER environment variable), signed in: the site may require it."""
+    import os
+
     from ledger.logbook.workspace import read as run
 
-    return run(db, work)
+    if user is None:
+        user = os.environ.get("FLUXLEDGER_USER") or None
+    if user is None:
+        return run(db, work)
+    return run(db, work, user, lambda: read_secret("Password", from_stdin=password_stdin))

@@ -41,4 +41,6 @@ def init(
     s.add("revision", result.after)
     if result.admin:
         s.add("administrator", result.admin)
+    if result.note:
+        s.add("note", result.note)
     report.print(as_json)

@@ -1,4 +1,5 @@
-"""`fluxledger user ...`: accounts and the lockout policy (administrators)."""
+"""`fluxledger user ...`: accounts, roles and the site's account settings (administrators),
+and break-glass recovery of an administrator (someone with access to the database host)."""
 
 from __future__ import annotations
 
@@ -7,10 +8,19 @@ from typing import Any
 import typer
 
 from ledger.cli.common import JSON_OPTION, guarded
-from ledger.cli.session import DB_OPTION, PASSWORD_STDIN, USER_OPTION, read_secret, write
+from ledger.cli.session import (
+    DB_OPTION,
+    PASSWORD_STDIN,
+    READ_USER_OPTION,
+    USER_OPTION,
+    read_secret,
+    write,
+)
 
 app = typer.Typer(
-    help="User accounts: add, change password, disable, list, lockout policy.", no_args_is_help=True
+    help="User accounts: add, change password, change role, disable, list, site settings, "
+    "administrator recovery.",
+    no_args_is_help=True,
 )
 
 
@@ -54,6 +64,69 @@ def passwd(
     typer.echo(f"password of {changed.login} changed")
 
 
+@app.command("role")
+@guarded
+def role(
+    login: str = typer.Argument(..., help="Whose role (never your own)."),
+    new_role: str = typer.Option(..., "--role", help="operator, engineer, qa or admin."),
+    reason: str = typer.Option(..., "--reason", help="Why (kept in the audit trail)."),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Change someone else's role (administrators; audited with who granted it)."""
+    from ledger.logbook.users import set_role
+
+    done = write(db, user, password_stdin, lambda s, a: set_role(s, a, login, new_role, reason))
+    typer.echo(f"user {done.login} now has the role {done.role}")
+
+
+@app.command("reads-need-login")
+@guarded
+def reads_need_login(
+    state: str = typer.Argument(..., help="on or off."),
+    reason: str = typer.Option(..., "--reason", help="Why the setting changes."),
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Whether every read command needs --user (audited). Default: on for PostgreSQL."""
+    from ledger.logbook.users import set_reads_need_login
+
+    row = write(db, user, password_stdin, lambda s, a: set_reads_need_login(s, a, state, reason))
+    typer.echo(f"reads need a signed-in user: {row.value}")
+
+
+@app.command("recover-admin")
+@guarded
+def recover_admin(
+    login: str = typer.Argument(..., help="The administrator account to restore."),
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+) -> None:
+    """Break-glass: restore an administrator, proving access to the database host.
+
+    The first run writes a one-time code into a file beside the database (DB.recover, only
+    its owner may read it). Type that code back (interactively at once, or with
+    --password-stdin on a second run: line 1 the code, line 2 the new password). The account
+    is unlocked and re-enabled with the new password; the audit trail records it.
+    """
+    from ledger.cli.session import open_ledger
+    from ledger.logbook.recovery import pending_code, recover_admin, write_code
+
+    engine = open_ledger(db)
+    if not pending_code(engine):
+        path = write_code(engine)
+        typer.echo(f"wrote a one-time code to {path} (valid 15 minutes)")
+        if password_stdin:
+            typer.echo("run the command again with the code and the new password on stdin")
+            return
+    code = read_secret("Code from the recovery file", from_stdin=password_stdin)
+    new = read_secret(f"New password for {login}", from_stdin=password_stdin, confirm=True)
+    done = recover_admin(engine, login, code, new)
+    typer.echo(f"administrator {done.login} restored: unlocked, enabled, new password set")
+
+
 @app.command("disable")
 @guarded
 def disable(
@@ -90,13 +163,18 @@ def lockout(
 
 @app.command("list")
 @guarded
-def list_(db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> None:
+def list_(
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+    user: str | None = READ_USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+) -> None:
     """List every user, active or not."""
     from ledger.cli.output import Report, Table
     from ledger.cli.session import read
     from ledger.logbook.users import list_users
 
-    rows = read(db, list_users)
+    rows = read(db, list_users, user, password_stdin)
     report = Report("user list")
     table = Table(
         "Users",

@@ -5,14 +5,16 @@ from __future__ import annotations
 from sqlalchemy import Engine
 from sqlmodel import Session, select
 
-from ledger.errors import InputError, RefusedError
+from ledger.errors import RefusedError
+from ledger.logbook.passwords import MIN_PASSWORD as MIN_PASSWORD  # re-exported
+from ledger.logbook.passwords import check_password
 from ledger.store.audit import Journal
 from ledger.store.engine import transaction
 from ledger.store.tables import Setting, UserAccount
 
 LOCKOUT_KEY = "lockout_after_failures"
+READS_KEY = "reads_need_login"  # "on" or "off"; absent: on for PostgreSQL, off for SQLite
 DEFAULT_LOCKOUT = 5
-MIN_PASSWORD = 8
 
 # Who may do what. An administrator manages users and settings and signs no production record.
 RECORDERS = frozenset({"operator", "engineer", "qa"})
@@ -32,16 +34,6 @@ def hash_password(password: str) -> str:
     return _hasher().hash(password)  # type: ignore[attr-defined]
 
 
-def check_password(password: str) -> None:
-    if len(password) < MIN_PASSWORD:
-        raise InputError(
-            f"the password is {len(password)} characters long",
-            field="password",
-            value="(hidden)",
-            expected=f"at least {MIN_PASSWORD} characters",
-        )
-
-
 def _matches(stored: str, password: str) -> bool:
     from argon2.exceptions import InvalidHashError, VerificationError
 
@@ -54,6 +46,14 @@ def _matches(stored: str, password: str) -> bool:
 def lockout_threshold(session: Session) -> int:
     row = session.get(Setting, LOCKOUT_KEY)
     return int(row.value) if row is not None else DEFAULT_LOCKOUT
+
+
+def reads_need_login(session: Session) -> bool:
+    """Whether this site's read commands need a signed-in user."""
+    row = session.get(Setting, READS_KEY)
+    if row is not None:
+        return row.value == "on"
+    return session.get_bind().dialect.name == "postgresql"
 
 
 def find_user(session: Session, login: str) -> UserAccount | None:

@@ -22,7 +22,13 @@ from ledger.store.tables import (
     WaterFluxTest,
 )
 
-ENTITIES = tuple(RECORDS)
+
+def entities() -> tuple[str, ...]:
+    """Every audited entity name (the skid tables included)."""
+    from ledger.store.registry import load_all
+
+    load_all()
+    return tuple(RECORDS)
 
 
 @dataclass(frozen=True)
@@ -65,12 +71,12 @@ def audit_events(
     limit: int | None = None,
 ) -> list[AuditEvent]:
     statement = select(AuditEvent)
-    if entity and entity not in ENTITIES:
+    if entity and entity not in entities():
         raise InputError(
             f"entity {entity!r} is unknown",
             field="entity",
             value=entity,
-            expected="one of " + ", ".join(ENTITIES),
+            expected="one of " + ", ".join(entities()),
         )
     if entity:
         statement = statement.where(AuditEvent.entity == entity)

@@ -19,6 +19,26 @@ class InitResult:
     before: str | None
     after: str
     admin: str | None  # login of the administrator created now, if any
+    note: str | None = None  # why --admin was not used, on a database that has users
+
+
+RECOVERY_HINT = (
+    "to restore an administrator, someone with access to the database host runs "
+    "`fluxledger user recover-admin ID --db ...`"
+)
+
+
+def usable_admins(engine: Engine) -> list[str]:
+    """Logins of the active, unlocked administrators."""
+    with transaction(engine) as session:
+        rows = session.exec(
+            select(UserAccount).where(
+                UserAccount.role == "admin",
+                UserAccount.active == True,  # noqa: E712 - SQL expression
+                UserAccount.locked == False,  # noqa: E712
+            )
+        )
+        return [u.login for u in rows]
 
 
 def has_users(engine: Engine) -> bool:
@@ -32,7 +52,19 @@ def initialize(
     """Bring the schema to this software's revision; create the first admin if none exists."""
     before, after = upgrade(engine)
     if has_users(engine):
-        return InitResult(before, after, None)
+        if not admin_login:
+            return InitResult(before, after, None)
+        if not usable_admins(engine):
+            raise InputError(
+                "this database has users but no active, unlocked administrator, and init "
+                f"never adds one to an existing database; {RECOVERY_HINT}",
+                field="admin",
+                value=admin_login,
+                expected="no --admin on an existing database",
+            )
+        return InitResult(
+            before, after, None, note="the database has users already; --admin was not used"
+        )
     if not admin_login or password is None:
         raise InputError(
             "this database has no users yet: give --admin ID (and --name) for its first "

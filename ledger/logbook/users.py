@@ -1,4 +1,8 @@
-"""User accounts: add, change password, disable, list; the lockout policy (admin only)."""
+"""User accounts: add, change password, change role, disable, list; the site's account
+settings (lockout threshold, whether reads need a signed-in user), admin only.
+
+Nobody changes their own role, and granting a deciding role (engineer, qa) is recorded with
+the login of the administrator who granted it."""
 
 from __future__ import annotations
 
@@ -9,7 +13,9 @@ from sqlmodel import Session, select
 from ledger.errors import InputError, RefusedError
 from ledger.logbook.auth import (
     ADMINS,
+    DECIDERS,
     LOCKOUT_KEY,
+    READS_KEY,
     find_user,
     hash_password,
     require_role,
@@ -82,7 +88,41 @@ def add_user(
     # Two administrators adding the same ID at once: the second insert breaks the unique
     # constraint (PostgreSQL) and gets the same answer as a lookup would have given.
     with new_identifier(session, UserAccount.login, login, taken):
-        return Journal(session, actor.login).create(user)
+        return Journal(session, actor.login).create(user, reason=_grant_reason(role, actor))
+
+
+def _grant_reason(role: str, actor: UserAccount) -> str | None:
+    """The audit reason naming who granted a deciding role (None for other roles)."""
+    if role in DECIDERS:
+        return f"role {role} granted by {actor.login}"
+    return None
+
+
+def set_role(
+    session: Session, actor: UserAccount, login: str, role: str, reason: str
+) -> UserAccount:
+    """An administrator changes someone else's role (audited, naming the grantor)."""
+    require_role(actor, ADMINS, "change roles")
+    check_role(role)
+    user = _target(session, login)
+    if user.login == actor.login:
+        raise RefusedError(
+            "nobody can change their own role; another administrator must do it",
+            field="login",
+            value=login,
+        )
+    if user.role == role:
+        raise RefusedError(f"user {shown(login)} already has the role {role}", field="role",
+                           value=role)  # fmt: skip
+    reason = required("reason", reason, "why the role changes", kind="text")
+    granted = _grant_reason(role, actor)
+    Journal(session, actor.login).change(
+        user,
+        {"role": role},
+        reason=f"{granted}: {reason}" if granted else reason,
+        action="role_change",
+    )
+    return user
 
 
 def _target(session: Session, login: str) -> UserAccount:
@@ -123,6 +163,28 @@ def disable_user(session: Session, actor: UserAccount, login: str, reason: str) 
     return user
 
 
+def set_reads_need_login(session: Session, actor: UserAccount, state: str, reason: str) -> Setting:
+    """Whether every read command needs a signed-in user: ``state`` "on" or "off" (audited)."""
+    require_role(actor, ADMINS, "change whether reads need a signed-in user")
+    value = state.strip().lower()
+    if value not in ("on", "off"):
+        raise InputError(
+            f"state {shown(state)} is not on or off", field="state", value=shown(state),
+            expected="on or off",
+        )  # fmt: skip
+    return _set(session, actor, READS_KEY, value, reason)
+
+
+def _set(session: Session, actor: UserAccount, key: str, value: str, reason: str) -> Setting:
+    reason = required("reason", reason, "why the setting changes", kind="text")
+    journal = Journal(session, actor.login)
+    row = session.get(Setting, key)
+    if row is None:
+        return journal.create(Setting(key=key, value=value), reason=reason)
+    journal.change(row, {"value": value}, reason=reason)
+    return row
+
+
 def list_users(session: Session) -> list[UserAccount]:
     return list(session.exec(select(UserAccount).order_by(UserAccount.id)))  # type: ignore[arg-type]
 
@@ -137,11 +199,4 @@ def set_lockout(session: Session, actor: UserAccount, failures: int, reason: str
             value=failures,
             expected="a whole number from 1 to 100",
         )
-    reason = required("reason", reason, "why the policy changes", kind="text")
-    journal = Journal(session, actor.login)
-    row = session.get(Setting, LOCKOUT_KEY)
-    if row is None:
-        row = Setting(key=LOCKOUT_KEY, value=str(failures))
-        return journal.create(row, reason=reason)
-    journal.change(row, {"value": str(failures)}, reason=reason)
-    return row
+    return _set(session, actor, LOCKOUT_KEY, str(failures), reason)

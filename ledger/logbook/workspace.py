@@ -51,11 +51,36 @@ def sign_in(engine: Engine, login: str, password: str) -> UserAccount:
     return authenticate(engine, login, password)
 
 
-def read(db: str | None, work: Callable[[Session], T]) -> T:
-    """Run ``work`` on a session of the database (read-only by convention)."""
+def read(
+    db: str | None,
+    work: Callable[[Session], T],
+    login: str | None = None,
+    password: Callable[[], str] | None = None,
+) -> T:
+    """Run ``work`` on a session of the database (read-only by convention).
+
+    Every read command comes here, so the site's rule lives here: when reads need a
+    signed-in user (the ``reads_need_login`` setting), ``login`` and its password are required
+    and checked like a write's; a given ``login`` is always checked."""
+    from ledger.errors import RefusedError
+    from ledger.logbook.auth import authenticate, reads_need_login
     from ledger.store.engine import transaction
 
-    with transaction(open_ledger(db)) as session:
+    engine = open_ledger(db)
+    if login is None:
+        with transaction(engine) as session:
+            needed = reads_need_login(session)
+        if needed:
+            raise RefusedError(
+                "this site lets only signed-in users read the logbook: give --user ID, or set "
+                "FLUXLEDGER_USER=ID for commands without --user (the password is asked for; "
+                "--password-stdin reads it in scripts)",
+                field="user",
+                value="(none)",
+            )
+    else:
+        authenticate(engine, login, password() if password is not None else "")
+    with transaction(engine) as session:
         return work(session)
 
 

@@ -246,6 +246,9 @@ def verify(session: Session) -> Verification:
     Rows are streamed through SQLAlchemy Core, so memory grows with the number of records
     (one hash each, to match records with their last event), not with their size.
     """
+    from ledger.store.registry import load_all
+
+    load_all()  # the skid tables join RECORDS when loaded
     problems: list[Problem] = []
     conn = session.connection()
     stream = {"yield_per": STREAM}

@@ -56,7 +56,7 @@ def test_short_password_is_refused(world: World) -> None:
         "operator",
         extra=["short"],
     )
-    assert out.code == 2 and "at least 8 characters" in out.stderr
+    assert out.code == 2 and "at least 10 characters" in out.stderr
 
 
 @pytest.mark.sqlite_only

@@ -248,6 +248,16 @@ def _other(value: object, column: object) -> object:
     return text[:-1] + ("~" if text[-1:] != "~" else "^") if text else "~"
 
 
+def _a_skid(w: World) -> None:
+    """A skid with an instrument and an approved mapping, so the equipment tables have rows."""
+    from tests.cli.test_runs import MAPPING
+
+    w.ok(w.as_user("eng.ray", "skid", "add", "TFF-SKID-2", "--description", "bench skid"))
+    w.ok(w.as_user("eng.ray", "skid", "instrument", "TFF-SKID-2", "--tag", "PT-101",
+                   "--measures", "feed_pressure", "--calibration-due", "2027-01-31"))  # fmt: skip
+    w.ok(w.as_user("qa.lin", "skid", "mapping", "TFF-SKID-2", str(MAPPING)))
+
+
 def _a_run(w: World, tmp_path: Path) -> None:
     """A run with a skid log, a QC result, a deviation and a signed record revision, so their
     tables have rows."""
@@ -286,6 +296,7 @@ def test_a_change_to_any_column_of_any_record_is_found(tested: World, tmp_path: 
     tested.ok(tested.as_user("eng.ray", "module", "release", "QMB-0142", "--decision", "return",
                              "--reason", "fine"))  # fmt: skip
     _a_run(tested, tmp_path)
+    _a_skid(tested)
     engine = tested.engine()
     checked, refused = 0, []
     with engine.connect() as conn:

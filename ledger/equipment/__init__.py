@@ -1,0 +1,1 @@
+"""Processing systems (skids): their registration, instruments and approved mappings."""
