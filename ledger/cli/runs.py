@@ -91,6 +91,12 @@ def plan(
         "(recorded in the plan and the audit trail).",
     ),
     activity_time: str | None = ACTIVITY_TIME,
+    skid: str | None = typer.Option(
+        None,
+        "--skid",
+        help="The registered skid the run is made on (its approved mapping "
+        "then reads the log; see fluxledger skid).",
+    ),
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
@@ -108,7 +114,7 @@ def plan(
         lambda s, a: plan_run(
             s, a, e.template, e.module, e.product, e.lot, e.inputs, scouting=e.scouting,
             override_reason=e.override_reason, product_override_reason=e.product_override_reason,
-            planned_at=e.planned_at,
+            planned_at=e.planned_at, skid=e.skid,
         ),
     )  # fmt: skip
     if not as_json:
@@ -297,7 +303,12 @@ def start(
 def import_log(
     run: int = RUN,
     file: Path = typer.Argument(..., help="The skid's CSV data log (kept unchanged)."),
-    mapping: Path = typer.Option(..., "--mapping", help="TOML mapping of the file's columns."),
+    mapping: Path | None = typer.Option(
+        None,
+        "--mapping",
+        help="TOML mapping of the file's columns; for a run on a registered skid, leave it out "
+        "to use the skid's approved mapping.",
+    ),
     phase: list[str] = typer.Option(
         [], "--phase", help="A phase by time when the log has no phase column: NAME=START/END."
     ),
@@ -315,7 +326,9 @@ def import_log(
         db,
         user,
         password_stdin,
-        lambda s, a: do_import(s, a, e.run, Path(e.file), Path(e.mapping), e.phases),
+        lambda s, a: do_import(
+            s, a, e.run, Path(e.file), Path(e.mapping) if e.mapping else None, e.phases
+        ),
     )
     if new:
         line = (f"run {run}: imported {record.file_name} ({record.rows} rows, "

@@ -87,6 +87,7 @@ RUN_PLAN = Spec(
         Field("override_reason"),
         Field("product_override_reason"),
         Field("activity_time", "datetime"),
+        Field("skid"),
     ),
 )
 
@@ -102,6 +103,7 @@ class PlanEntry:
     override_reason: str | None
     product_override_reason: str | None = None  # a template of another product, and why
     planned_at: datetime | None = None  # entered late: when the run was planned
+    skid: str | None = None  # the registered skid the run is made on
 
 
 def run_plan(raw: Mapping[str, Any]) -> PlanEntry:
@@ -111,7 +113,7 @@ def run_plan(raw: Mapping[str, Any]) -> PlanEntry:
     scouting = read_scouting(v["scouting"]) if v["scouting"] is not None else None
     return PlanEntry(
         v["template"], v["module"], v["product"], v["lot"], given, scouting, v["override_reason"],
-        v["product_override_reason"], v["activity_time"],
+        v["product_override_reason"], v["activity_time"], v["skid"],
     )  # fmt: skip
 
 
@@ -120,7 +122,7 @@ RUN_IMPORT = Spec(
     (
         Field("run", "integer", required=True),
         Field("file", required=True),
-        Field("mapping", required=True),
+        Field("mapping"),
     ),
 )
 
@@ -129,7 +131,7 @@ RUN_IMPORT = Spec(
 class ImportEntry:
     run: int
     file: str
-    mapping: str
+    mapping: str | None  # None: the run's skid's approved mapping
     phases: list[PhaseWindow]
 
 

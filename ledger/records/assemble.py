@@ -209,6 +209,9 @@ def _log_line(
     """The skid log in use, then every voided one with who voided it, when and why (a
     voided log stays in the record's history)."""
     parts = [f"{log.file_name} ({log.rows:,} rows, SHA-256 {log.sha256})"] if log else []
+    if log is not None:
+        parts += [a for a in (log.actuals or {}).get("assumptions", []) if a.startswith("phases ")]
+        parts += list((log.actuals or {}).get("warnings") or [])
     for old in session.exec(select(SkidLogFile).where(SkidLogFile.run_id == run_id)).all():
         if old.voided_at is None or (as_of is not None and old.voided_at > as_of):
             continue

@@ -6,6 +6,7 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from datetime import datetime
 from pathlib import Path
+from typing import Any
 
 from sqlmodel import Session, select
 
@@ -100,6 +101,7 @@ def plan_run(
     override_reason: str | None = None,
     product_override_reason: str | None = None,
     planned_at: datetime | None = None,
+    skid: str | None = None,
 ) -> Run:
     """Plan a run on a module. A module that is not fit needs an engineer's or QA's override
     with a reason; so does a template written for another product (the reason is kept in the
@@ -115,6 +117,12 @@ def plan_run(
         "why the template of another product is used",
     )  # fmt: skip
     tmpl = templates.find(template_ref)
+    skid_id = None
+    if skid is not None:
+        from ledger.equipment.service import current_mapping, get_skid
+
+        skid_id = get_skid(session, skid).id
+        current_mapping(session, skid)  # a run is planned only on a skid with an approved mapping
     mismatch = planning.product_mismatch(tmpl.id, tmpl.product, product)
     if mismatch and not product_override_reason:
         raise RefusedError(
@@ -176,6 +184,7 @@ def plan_run(
             plan=plan.to_record(),
             override_reason=override_reason,
             planned_at=planned_at,
+            skid_id=skid_id,
         ),
         reason="run planned"
         + (f" despite NOT FIT: {override_reason}" if override_reason else "")
@@ -256,7 +265,7 @@ def import_log(
     actor: UserAccount,
     run_id: int,
     path: str | Path,
-    mapping_path: str | Path,
+    mapping_path: str | Path | None,
     windows: Sequence[object] = (),
 ) -> tuple[SkidLogFile, bool]:
     """Attach the skid log and compute its actuals. The same file again changes nothing
@@ -264,7 +273,6 @@ def import_log(
     import hashlib
 
     from ledger.runs.actuals import ChannelLimit, Geometry, PhaseWindow, summarize
-    from ledger.runs.mapping import load_mapping
     from ledger.runs.skidlog import read_log
 
     require_role(actor, RECORDERS, "import skid logs")
@@ -292,7 +300,7 @@ def import_log(
             field="run",
             value=run_id,
         )
-    mapping = load_mapping(mapping_path)
+    mapping, skid_code, version = _mapping_of(session, run, mapping_path)
     log = read_log(path, mapping)
     from datetime import timedelta
 
@@ -330,6 +338,11 @@ def import_log(
 
         phases = list(dict.fromkeys(step.phase for step in run_template(run).steps))
         summary.warnings = phase_warnings(log, phases)
+    if run.skid_id is not None:  # an instrument past its calibration date is a warning
+        from ledger.equipment.service import calibration_warnings
+
+        summary.warnings += calibration_warnings(session, run.skid_id, log.start, mapping.channels)
+    summary.assumptions.append(_phase_source(typed, mapping, skid_code, version))
     record = journal.create(
         SkidLogFile(
             run_id=run_id,
@@ -352,6 +365,55 @@ def import_log(
         reason=f"skid log of {label(run)}",
     )
     return record, True
+
+
+def _mapping_of(
+    session: Session, run: Run, path: str | Path | None
+) -> tuple[Any, str | None, int | None]:
+    """The mapping to read the run's log with: on a registered skid, its current approved
+    mapping (a file given must be that mapping); otherwise the file given."""
+    from ledger.runs.mapping import load_mapping, parse_mapping
+
+    if run.skid_id is None:
+        if path is None:
+            raise InputError(
+                f"{label(run)} names no skid, so its mapping must be given",
+                field="mapping", expected="--mapping FILE (or plan the run with --skid)",
+            )  # fmt: skip
+        return load_mapping(path), None, None
+    from ledger.equipment.service import current_mapping
+    from ledger.store.equipment import Skid
+
+    skid = session.get(Skid, run.skid_id)
+    assert skid is not None
+    text, version, sha256 = current_mapping(session, skid.code)
+    approved = parse_mapping(text, f"skid {skid.code} mapping v{version}")
+    if path is not None:
+        given = load_mapping(path)
+        if given.sha256 != sha256:
+            raise RefusedError(
+                f"{Path(path).name} is not skid {skid.code}'s approved mapping (v{version}, "
+                f"sha256 {sha256[:12]}); leave --mapping out to use it, or have an engineer or "
+                "QA approve this one (fluxledger skid mapping)",
+                field="mapping", value=str(path),
+            )  # fmt: skip
+    return approved, skid.code, version
+
+
+def _phase_source(
+    typed: Sequence[object], mapping: Any, skid: str | None, version: int | None
+) -> str:
+    """Where the phases came from, for the record."""
+    if typed:
+        how = "phase windows typed with --phase"
+    elif mapping.phase_labels or mapping.ignored_labels:
+        how = "the log's step column through the mapping's [phases]"
+    elif "phase" in mapping.channels:
+        how = "the log's step column, labels as the template's phases"
+    else:
+        how = "no phase column or windows: whole run only"
+    where = f"skid {skid} mapping v{version}" if skid else "a mapping file"
+    return f"phases from {how}; read with {where} (sha256 {mapping.sha256[:12]})"
 
 
 def enter_qc(

@@ -298,6 +298,9 @@ class Run(Voidable, table=True):
     submitted_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
     correction_reason: str | None = None  # why the record is being corrected (next revision)
     planned_at: datetime | None = Field(default=None, sa_type=UTCDateTime)  # a late plan
+    # the skid it runs on: skid.id, checked by the run service (no foreign key, so that the
+    # logbook's commands need not load the skid tables, ledger/store/equipment.py)
+    skid_id: int | None = None
     aborted_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
     aborted_by: str | None = Field(default=None, max_length=64)
     abort_reason: str | None = None

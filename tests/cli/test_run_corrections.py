@@ -85,3 +85,31 @@ def test_a_run_cannot_start_before_it_was_planned(world: World) -> None:
     earlier = (datetime.now(UTC) - timedelta(minutes=30)).isoformat(timespec="seconds")
     out = world.as_user("op.kim", "run", "start", "1", "--activity-time", earlier)
     assert out.code == 2 and "before it was planned" in out.stderr
+
+
+def test_a_run_on_a_registered_skid_reads_its_log_through_the_approved_mapping(
+    world: World, tmp_path: Path
+) -> None:
+    world.ok(world.as_user("eng.ray", "skid", "add", "QF-2", "--description", "bench skid"))
+    due = ["--calibration-due", "2026-01-31"]  # past: a warning at import
+    world.ok(world.as_user("eng.ray", "skid", "instrument", "QF-2", "--tag", "PT-101",
+                           "--measures", "feed_pressure", *due))  # fmt: skip
+    world.ok(world.as_user("qa.lin", "skid", "mapping", "QF-2", str(MAPPING)))
+    ready_for_a_run(world)
+    world.ok(plan(world, "--skid", "QF-2"))
+    world.ok(world.as_user("op.kim", "run", "start", "1"))
+    world.wide_log_tolerance()
+    log = _log(tmp_path, "skid.csv", datetime.now(UTC) - timedelta(hours=2))
+    other = tmp_path / "other.toml"
+    other.write_text(MAPPING.read_text(encoding="utf-8") + "\n# edited\n", encoding="utf-8")
+    refused = world.as_user("op.kim", "run", "import", "1", str(log), "--mapping", str(other))
+    assert refused.code == 3 and "not skid QF-2's approved mapping" in refused.stderr
+    done = world.ok(world.as_user("op.kim", "run", "import", "1", str(log), "--json"))
+    warnings = done.json()["warnings"]
+    assert any("PT-101" in w and "2026-01-31" in w for w in warnings), warnings
+    pdf = tmp_path / "draft.pdf"
+    world.ok(world.cli("record", "print", "1", "--out", str(pdf)))
+    from pypdf import PdfReader
+
+    text = " ".join(PdfReader(str(pdf)).pages[0].extract_text().split())
+    assert "skid QF-2 mapping v1" in text and "PT-101" in text
