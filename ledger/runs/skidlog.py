@@ -858,7 +858,11 @@ def read_logs(paths: Sequence[str | Path], mapping: Mapping, *, digest: bool = T
 def phase_warnings(log: SkidLog, template_phases: Sequence[str]) -> list[str]:
     """What an importer should say at once: a template phase with no samples in the log, and
     a step label of the log that belongs to no phase (neither mapped nor ignored)."""
-    present = set() if log.phases is None else {str(p) for p in np.unique(log.phases.astype(str))}
+    present: set[str] = set()
+    if log.phases is not None and log.phase_codes is not None and log.rows:
+        # one sample per distinct code: never a pass of Python over every row
+        _, first = np.unique(log.phase_codes, return_index=True)
+        present = {str(log.phases[i]) for i in first}
     present.discard("")
     out = [
         f"template phase {p!r} has no samples in the log (map the skid's step label to it "
