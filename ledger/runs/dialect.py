@@ -184,14 +184,25 @@ def sniff(
     if header_line is None:
         index = find_header(lines, time_column, delimiter)
         if index < 0:
+            read_as = "" if "encoding" in detected else f" (read as {encoding}, from [file])"
             raise InputError(
-                f"no line names the time column {time_column!r}; set [file] header_line",
+                f"no line names the time column {time_column!r}{read_as}; set [file] "
+                "header_line, or check the column name and the encoding",
                 field="file.header_line",
                 value=time_column,
                 source=source,
             )
         header_line = index + 1
         detected.append("header_line")
+    if header_line > len(lines):
+        raise InputError(
+            f"file.header_line {header_line} is past the lines looked at ({len(lines)}); "
+            "expected the line of the column names",
+            field="file.header_line",
+            value=header_line,
+            source=source,
+            expected=f"a line from 1 to {len(lines)}",
+        )
     if delimiter is None:
         delimiter = detect_delimiter(lines, header_line - 1, source)
         detected.append("delimiter")

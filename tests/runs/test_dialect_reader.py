@@ -177,3 +177,17 @@ def test_a_workbook_sheet_is_read_and_a_bad_cell_names_its_row(tmp_path: Path) -
     with pytest.raises(InputError) as missing:
         read_log(path, mapping(tables='[file]\nsheet = "Run"'))
     assert "no sheet 'Run'" in str(missing.value)
+
+
+def test_a_stated_encoding_that_hides_the_header_is_named(tmp_path: Path) -> None:
+    path = write(tmp_path / "a.csv", lines())
+    with pytest.raises(InputError) as err:
+        read_log(path, mapping(tables='[file]\nencoding = "utf-16"'))
+    assert "read as utf-16, from [file]" in str(err.value)
+
+
+def test_a_header_line_past_the_file_is_named(tmp_path: Path) -> None:
+    path = write(tmp_path / "a.csv", lines())
+    with pytest.raises(InputError) as err:
+        read_log(path, mapping(tables="[file]\nheader_line = 500"))
+    assert err.value.field == "file.header_line" and "past the lines" in str(err.value)
