@@ -437,6 +437,23 @@ def finish(
                 status=r.status)  # fmt: skip
 
 
+@app.command("approve-plan")
+@guarded
+def approve_plan(
+    run: int = RUN,
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Approve a run's plan (an engineer or QA who did not plan it): the run may then start."""
+    from ledger.runs.service import approve_plan as approve
+
+    r = write_as(db, user, password_stdin, lambda s, a: approve(s, a, run))
+    finish_line("run approve-plan", f"plan of run {run} approved by {r.plan_approved_by}",
+                as_json, run=r.id, status=r.status)  # fmt: skip
+
+
 @app.command("log-tolerance")
 @guarded
 def log_tolerance(

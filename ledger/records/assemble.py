@@ -119,7 +119,12 @@ def assemble(
         module_type=mtype.code,
         module_area=show(mtype.area_m2, "m^2", "area"),
         cycle=cycle,
-        planned_by=run.created_by,
+        planned_by=run.created_by
+        + (
+            f"; plan approved by {run.plan_approved_by} at {iso(run.plan_approved_at)}"
+            if run.plan_approved_by
+            else ""
+        ),
         planned_at=_at(run.planned_at or run.created_at),
         started_at=iso(run.started_at),
         finished_at=iso(run.finished_at),

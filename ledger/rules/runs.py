@@ -34,10 +34,11 @@ ALLOWED: dict[str, frozenset[str]] = {
     "sign": frozenset({"in_review"}),
     "correct": frozenset({"in_review", "approved"}),
     "abort": frozenset({"planned", "in_progress", "finished"}),
+    "approve_plan": frozenset({"planned"}),
     "void_log": frozenset({"in_progress", "finished"}),
 }
 NEXT: dict[str, str] = {
-    "planned": "start the run (run start)",
+    "planned": "have the plan approved (run approve-plan), then start the run (run start)",
     "in_progress": "import the skid log, enter QC results, then finish the run (run finish)",
     "finished": "enter any missing QC results and deviations, then submit it (run submit)",
     "in_review": "sign it (fluxledger record sign), or correct it (fluxledger record correct)",
@@ -47,7 +48,8 @@ NEXT: dict[str, str] = {
     "plan a new run",
 }
 WORDS = {"close_deviation": "close a deviation of", "qc": "enter QC results for",
-         "import": "import a skid log into", "void_log": "void a skid log of"}  # fmt: skip
+         "import": "import a skid log into", "void_log": "void a skid log of",
+         "approve_plan": "approve the plan of"}  # fmt: skip
 
 
 def refusal(action: str, status: str, label: str) -> str | None:
@@ -115,6 +117,16 @@ def log_outside_run(
     if finished_at is not None and log_end > finished_at + slack:
         return (f"the log ends at {t(log_end)}, after the run finished at {t(finished_at)} "
                 f"(tolerance {minutes})")  # fmt: skip
+    return None
+
+
+def plan_approval_problem(planner: str, approver: str, approved_at: datetime | None) -> str | None:
+    """Why ``approver`` cannot approve a plan made by ``planner`` (None when they can): a plan
+    is approved once, by a second person (common practice: the four-eyes principle)."""
+    if approved_at is not None:
+        return "its plan is already approved"
+    if approver == planner:
+        return f"{approver} planned it; the plan is approved by a second engineer or QA"
     return None
 
 

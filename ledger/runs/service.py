@@ -202,6 +202,13 @@ def start_run(
     """Put the module in use for the run; its pre-use tests must be recent and passed."""
     run = get_run(session, run_id, lock=True)
     _allow(run, "start")
+    if run.plan_approved_at is None:
+        raise RefusedError(
+            f"{label(run)} cannot start: its plan is not approved; a second engineer or QA "
+            f"approves it first (fluxledger run approve-plan {run.id})",
+            field="run",
+            value=run_id,
+        )
     module = session.get(Module, run.module_id)
     mtype = session.get(ModuleType, module.type_id) if module else None
     assert module is not None and mtype is not None
@@ -626,6 +633,22 @@ def set_log_tolerance(session: Session, actor: UserAccount, seconds: float, reas
         return journal.create(Setting(key=LOG_TOLERANCE_KEY, value=repr(seconds)), reason=reason)
     journal.change(row, {"value": repr(seconds)}, reason=reason)
     return row
+
+
+def approve_plan(session: Session, actor: UserAccount, run_id: int) -> Run:
+    """Approve a run's plan (an engineer or QA who did not plan it); audited. A run starts
+    only on an approved plan."""
+    require_role(actor, DECIDERS, "approve plans")
+    run = get_run(session, run_id, lock=True)
+    _allow(run, "approve_plan")
+    problem = sequence.plan_approval_problem(run.created_by, actor.login, run.plan_approved_at)
+    if problem:
+        raise RefusedError(f"cannot approve the plan of {label(run)}: {problem}", field="run",
+                           value=run_id)  # fmt: skip
+    journal = Journal(session, actor.login)
+    journal.change(run, {"plan_approved_at": journal.at, "plan_approved_by": actor.login},
+                   reason="plan approved", module_id=run.module_id)  # fmt: skip
+    return run
 
 
 def abort_run(session: Session, actor: UserAccount, run_id: int, reason: str) -> Run:

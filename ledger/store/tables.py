@@ -298,6 +298,8 @@ class Run(Voidable, table=True):
     submitted_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
     correction_reason: str | None = None  # why the record is being corrected (next revision)
     planned_at: datetime | None = Field(default=None, sa_type=UTCDateTime)  # a late plan
+    plan_approved_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    plan_approved_by: str | None = Field(default=None, max_length=64)
     # the skid it runs on: skid.id, checked by the run service (no foreign key, so that the
     # logbook's commands need not load the skid tables, ledger/store/equipment.py)
     skid_id: int | None = None

@@ -113,3 +113,15 @@ def test_a_run_on_a_registered_skid_reads_its_log_through_the_approved_mapping(
 
     text = " ".join(PdfReader(str(pdf)).pages[0].extract_text().split())
     assert "skid QF-2 mapping v1" in text and "PT-101" in text
+
+
+def test_a_run_starts_only_on_a_plan_a_second_person_approved(world: World) -> None:
+    ready_for_a_run(world)
+    world.ok(plan(world, approve=False))
+    refused = world.as_user("op.kim", "run", "start", "1")
+    assert refused.code == 3 and "run approve-plan 1" in refused.stderr
+    own = world.as_user("eng.ray", "run", "approve-plan", "1")  # eng.ray planned it
+    assert own.code == 3 and "second engineer or QA" in own.stderr
+    assert world.as_user("op.kim", "run", "approve-plan", "1").code == 3  # an operator
+    world.ok(world.as_user("qa.lin", "run", "approve-plan", "1"))
+    world.ok(world.as_user("op.kim", "run", "start", "1"))

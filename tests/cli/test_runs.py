@@ -21,11 +21,20 @@ INPUTS = [
 MAPPING = SAMPLES / "qf2_skid_mapping.toml"
 
 
-def plan(w: World, *more: str, user: str = "eng.ray", serial: str = "QMB-0142") -> object:
-    return w.as_user(
+def plan(w: World, *more: str, user: str = "eng.ray", serial: str = "QMB-0142",
+         approve: bool = True) -> object:  # fmt: skip
+    """Plan a run; once planned, QA approves its plan (a second person) unless told not to."""
+    planned = w.as_user(
         user, "run", "plan", "QB-MR-LNP-101", "--module", serial, "--product", "QB-117",
         "--lot", "QB117-26-020", *INPUTS, *more,
     )  # fmt: skip
+    if approve and planned.code == 0:
+        if "--json" in more:
+            number = next(k for k in planned.json() if k.startswith("run_")).removeprefix("run_")
+        else:
+            number = planned.stdout.split("planned run ", 1)[1].split(":", 1)[0]
+        w.ok(w.as_user("qa.lin", "run", "approve-plan", number))
+    return planned
 
 
 def ready_for_a_run(w: World) -> None:
@@ -94,7 +103,7 @@ def test_out_of_order_steps_exit_3(world: World) -> None:
                  ["run", "qc", "1", "--result", "ph=7.4"]):  # fmt: skip
         result = world.as_user("op.kim", *args)
         assert result.code == 3, (args, result)
-        assert "it is planned; next: start the run" in result.stderr
+        assert "it is planned; next: have the plan approved" in result.stderr
 
 
 def test_start_requires_a_recent_pre_use_test(world: World) -> None:

@@ -63,6 +63,7 @@ def to_review(
         )
     )
     r = str(run)
+    w.ok(w.as_user("qa.lin", "run", "approve-plan", r))
     w.ok(w.as_user("op.kim", "run", "start", r))
     w.wide_log_tolerance()
     log = write_log(tmp_path / f"skid-{run}.csv", datetime.now(UTC) - timedelta(hours=2))

@@ -56,7 +56,9 @@ def test_header_names_the_record_template_module_and_log(review: World, tmp_path
     assert first == f"skid-1.csv ({rows:,} rows, SHA-256 {hashlib.sha256(log).hexdigest()})"
     # where the phases came from, and the mapping that read the log
     assert notes and notes[0].startswith("phases from the log's step column")
-    assert h.planned_by == "eng.ray" and h.status == "in_review"
+    # the planner, then the second person who approved the plan
+    assert h.planned_by.startswith("eng.ray; plan approved by qa.lin at ")
+    assert h.status == "in_review"
     assert h.started_at and h.started_at.endswith("+00:00")
 
 

@@ -7,7 +7,14 @@ from datetime import UTC, datetime, timedelta
 
 import pytest
 
-from ledger.rules.runs import ALLOWED, LOG_TOLERANCE_S, log_outside_run, planned_time, refusal
+from ledger.rules.runs import (
+    ALLOWED,
+    LOG_TOLERANCE_S,
+    log_outside_run,
+    plan_approval_problem,
+    planned_time,
+    refusal,
+)
 
 START = datetime(2026, 12, 3, 8, 0, tzinfo=UTC)
 FINISH = START + timedelta(hours=2)
@@ -61,3 +68,9 @@ def test_aborting_and_voiding_a_log_follow_the_run_status() -> None:
 def test_a_late_plan_keeps_its_time() -> None:
     assert planned_time(None, START) == START
     assert planned_time(START - timedelta(hours=1), START) == START - timedelta(hours=1)
+
+
+def test_a_plan_is_approved_once_and_not_by_its_planner() -> None:
+    assert plan_approval_problem("eng.ray", "qa.lin", None) is None
+    assert "second" in (plan_approval_problem("eng.ray", "eng.ray", None) or "")
+    assert "already" in (plan_approval_problem("eng.ray", "qa.lin", START) or "")

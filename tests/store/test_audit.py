@@ -268,6 +268,7 @@ def _a_run(w: World, tmp_path: Path) -> None:
     w.ok(w.water("QMB-0142", "pre-use", "165 mL/min"))
     w.ok(w.as_user("eng.ray", "run", "plan", "QB-MR-LNP-101", "--module", "QMB-0142",
                    "--product", "QB-117", "--lot", "QB117-26-015", *INPUTS))  # fmt: skip
+    w.ok(w.as_user("qa.lin", "run", "approve-plan", "1"))
     w.ok(w.as_user("op.kim", "run", "start", "1"))
     w.wide_log_tolerance()
     log = write_log(tmp_path / "skid.csv", datetime.now(UTC) - timedelta(hours=2))
