@@ -35,6 +35,9 @@ def prepare(script: str, folder: Path) -> str:
     for login, role in (("bench.eng", "engineer"), ("bench.op", "operator")):
         _cli(script, db, "user", "add", login, "--name", login, "--role", role, "--user",
              "bench.admin", "--password-stdin", stdin=pw + pw)  # fmt: skip
+        # The administrator's password is temporary until its owner changes it.
+        _cli(script, db, "user", "passwd", login, "--user", login, "--password-stdin",
+             stdin=pw + pw)  # fmt: skip
     _cli(script, db, "module-type", "add", "BENCH-1", "--membrane", "mPES", "--pore-rating",
          "750 kDa", "--lumen-diameter", "0.5 mm", "--fibers", "120", "--length", "30 cm",
          "--area", "565 cm^2", "--decay-limit", "0.05 psi/min", "--test-pressure", "15 psi",

@@ -59,6 +59,13 @@ class RefusedError(LedgerError):
     exit_code = 3
 
 
+class TamperedError(LedgerError):
+    """Stored data no longer matches the hash recorded for it: changed outside fluxledger
+    (exit 1, as a verification that finds a problem)."""
+
+    exit_code = 1
+
+
 def out_of_range(field: str, value: object, expected: str) -> DomainError:
     """Build the standard message for a value outside its allowed range."""
     return DomainError(

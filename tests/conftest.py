@@ -24,6 +24,12 @@ settings.load_profile(
 
 # --- Databases -------------------------------------------------------------------------------
 
+# One site key for every test database (and the CLI processes tests start), so that worlds
+# built once can be copied. A fixed test value, not a secret; tests of the key file itself
+# remove it (tests/store/test_sitekey.py).
+TEST_SITE_KEY = "5e" * 32
+os.environ.setdefault("FLUXLEDGER_KEY", TEST_SITE_KEY)
+
 POSTGRES_ENV = "FLUXLEDGER_TEST_POSTGRES_URL"
 NO_POSTGRES = f"{POSTGRES_ENV} is not set: the PostgreSQL tests run in CI (.ci/run sets it)"
 

@@ -172,6 +172,15 @@ class World:
 
     # Common steps -------------------------------------------------------------------------
 
+    def add_user(self, login: str, name: str, role: str, password: str) -> None:
+        """As a site does it: the administrator adds the account with a temporary password and
+        its owner then chooses their own (here ``password``; PASSWORDS must hold it)."""
+        temporary = f"temporary-{login}-1"
+        self.ok(self.as_user("sysadm", "user", "add", login, "--name", name, "--role", role,
+                             extra=[temporary]))  # fmt: skip
+        self.ok(self.cli("user", "passwd", login, "--user", login, "--password-stdin",
+                         input=f"{temporary}\n{password}\n"))  # fmt: skip
+
     def add_module(self, serial: str = "QMB-0142") -> None:
         self.ok(self.as_user("op.kim", "module", "add", serial, "--type", "HF-750"))
 
@@ -244,19 +253,7 @@ def build(url: str) -> World:
     if url.startswith("postgresql"):  # reads need a signed-in user there unless turned off
         w.ok(w.as_user("sysadm", "user", "reads-need-login", "off", "--reason", "test world"))
     for login, role in ROLES.items():
-        w.ok(
-            w.as_user(
-                "sysadm",
-                "user",
-                "add",
-                login,
-                "--name",
-                NAMES[login],
-                "--role",
-                role,
-                extra=[PASSWORDS[login]],
-            )
-        )
+        w.add_user(login, NAMES[login], role, PASSWORDS[login])
     w.ok(w.as_user("eng.ray", "module-type", "add", "HF-750", *TYPE_OPTIONS))
     return w
 

@@ -88,7 +88,8 @@ def print_record(
     issued = read(db, lambda s: record_of(s, run, revision))
     ctx = issued.context
     path = _out(out, _file_name(ctx), force)
-    data = render(ctx, software_version=_software(), charts=not no_charts)
+    issue = issued.revision.as_of if issued.revision else None
+    data = render(ctx, software_version=_software(), charts=not no_charts, issued=issue)
     write_atomic(path, data)
     _written(path, ctx, data, as_json)
 
@@ -202,6 +203,41 @@ def correct(
     )
 
 
+@app.command("review")
+@guarded
+def review(
+    run: int = RUN,
+    revision: int | None = REVISION,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """What a reviewer must look at first: failed or missing checks, deviations, overrides,
+    late entries, voids and corrections, import warnings, log against run times."""
+    from ledger.cli.output import Report
+    from ledger.records.service import record_of
+
+    issued = read(db, lambda s: record_of(s, run, revision))
+    ctx = issued.context
+    found = sum(len(t.findings) for t in ctx.review)
+    which = f"revision {ctx.header.revision}" if issued.revision else "draft"
+    report = Report(
+        f"record review {ctx.header.record_id} ({which})",
+        verdict=f"{found} to look at" if found else "nothing to look at",
+    )
+    if not ctx.review:
+        report.section("Review").add(
+            "note", "this revision was issued before records carried a review summary"
+        )
+    for t in ctx.review:
+        sec = report.section(t.topic.capitalize())
+        key = t.topic.replace(" ", "_")
+        if not t.findings:
+            sec.add(key, "none", "found")
+        for i, f in enumerate(t.findings, start=1):
+            sec.add(f"{key}_{i}", f, f"{i}")
+    report.print(as_json)
+
+
 @app.command("show")
 @guarded
 def show(run: int = RUN, db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> None:
@@ -288,7 +324,8 @@ def seal(
     ctx = issued.context
     path = _out(out, _file_name(ctx, "-sealed"), force)
     password = read_secret("Key password", from_stdin=key_password_stdin)
-    data = render(ctx, software_version=_software())
+    issue = issued.revision.as_of if issued.revision else None
+    data = render(ctx, software_version=_software(), issued=issue)
     sealed = do_seal(
         data,
         key_file=key,

@@ -223,10 +223,17 @@ def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
     ]  # fmt: skip
     for login, u in users.items():
         if login != admin:
+            # The administrator's password for a new account is temporary: its owner then
+            # chooses their own before recording anything.
+            temporary = f"temporary-{login}-1"
             setup.append((
                 ["user", "add", login, "--name", u["name"], "--role", u["role"], "--user", admin,
                  "--password-stdin"],
-                f"{users[admin]['password']}\n{u['password']}\n",
+                f"{users[admin]['password']}\n{temporary}\n",
+            ))  # fmt: skip
+            setup.append((
+                ["user", "passwd", login, "--user", login, "--password-stdin"],
+                f"{temporary}\n{u['password']}\n",
             ))  # fmt: skip
     now = datetime.now(UTC)
     steps: list[tuple[str | None, list[str], str, str | None, int]] = [

@@ -20,8 +20,17 @@ K_LMH, CG = 9.0, 50.0  # invented gel-model constants: LMH, g/L
 MASS_G = 0.6  # lipid in the feed, g
 
 
-def write_log(path: Path, start: datetime, *, step_s: float = 2.0, seed: int = 117) -> Path:
-    """Write the export to ``path``; ``start`` is an aware datetime (the run's start)."""
+def write_log(
+    path: Path,
+    start: datetime,
+    *,
+    step_s: float = 2.0,
+    seed: int = 117,
+    pinch_s: float | None = 2100.0,
+) -> Path:
+    """Write the export to ``path``; ``start`` is an aware datetime (the run's start).
+    ``pinch_s`` is when, into diafiltration, the permeate line pinches for 24 s (a TMP
+    excursion); None for a run without one."""
     import numpy as np
 
     rng = np.random.default_rng(seed)
@@ -39,7 +48,11 @@ def write_log(path: Path, start: datetime, *, step_s: float = 2.0, seed: int = 1
         flux_lmh = K_LMH * math.log(CG / conc) if phase != "recover" else 0.0
         if phase == "equilibrate":
             flux_lmh = 0.0
-        if phase == "diafilter" and 2100 <= t - phase_start < 2124:
+        if (
+            pinch_s is not None
+            and phase == "diafilter"
+            and pinch_s <= t - phase_start < pinch_s + 24
+        ):
             tmp_bar = 0.52  # the permeate valve pinched for 24 s
         qp = flux_lmh * AREA / 60 * 1000  # mL/min
         feed = 350.0 + rng.normal(0, 2.0) if phase != "recover" else 60.0

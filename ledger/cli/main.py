@@ -35,6 +35,7 @@ COMMANDS: dict[str, tuple[str, str, str]] = {
     "void": ("logbook", "void", "command"),
     "fitness": ("fitness", "fitness", "command"),
     "audit": ("audit", "app", "group"),
+    "backup": ("backup", "backup", "command"),
     "user": ("users", "app", "group"),
     "calc": ("calc", "app", "group"),
     "run": ("runs", "app", "group"),

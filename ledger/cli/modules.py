@@ -292,13 +292,13 @@ def module_release(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Sign the disposition of a hold (engineer or QA; your password is your signature)."""
-    from ledger.logbook.modules import release
+    from ledger.logbook.modules import disposition_words, release
 
     done = write(db, user, password_stdin, lambda s, a: release(s, a, serial, decision, reason))
     when = done.decided_at.isoformat() if done.decided_at else ""
     line = (
         f"module {serial}: disposition {done.decision} signed by {done.decided_by} at "
-        f"{when} (meaning: approved)"
+        f"{when} (meaning: {disposition_words(done.meaning)})"
     )
     finish("module release", done, line, None, as_json)
 

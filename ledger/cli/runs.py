@@ -10,7 +10,14 @@ import typer
 
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
 from ledger.cli.describe import SITE_NOTE
-from ledger.cli.session import ACTIVITY_TIME, DB_OPTION, PASSWORD_STDIN, USER_OPTION, read
+from ledger.cli.session import (
+    ACTIVITY_TIME,
+    DB_OPTION,
+    PASSWORD_STDIN,
+    READ_USER_OPTION,
+    USER_OPTION,
+    read,
+)
 from ledger.cli.session import write as write_as
 
 app = typer.Typer(
@@ -196,11 +203,22 @@ def _checks_into(report: Any, session: Any, run: Any) -> None:
 
     log = service.skid_log(session, run.id)
     if log is not None:
+        files = service.log_files(log)
+        several = len(files) > 1
         sec = report.section("Skid log")
-        sec.add("file", log.file_name)
-        sec.add("sha256", log.sha256, "SHA-256")
+        if several:
+            sec.add("files", " + ".join(f["file_name"] for f in files), "files, joined in order")
+        sec.add("file", log.file_name, "first file" if several else None)
+        sec.add("sha256", log.sha256, "SHA-256 of the first" if several else "SHA-256")
         sec.add("rows", log.rows)
         sec.add("imported_by", log.created_by, "imported by")
+        if several:
+            columns = [("position", "no."), ("file", "file"), ("size_bytes", "bytes"),
+                       ("sha256", "SHA-256")]  # fmt: skip
+            ft = Table("Skid log files", columns)
+            for f in files:
+                ft.rows.append([f["position"], f["file_name"], f["size_bytes"], f["sha256"]])
+            report.tables.append(ft)
     checks = Table("Acceptance checks", [("name", "check"), ("phase", "phase"),
                                          ("planned", "planned"), ("actual", "actual"),
                                          ("rule", "rule"), ("verdict", "verdict"),
@@ -302,7 +320,11 @@ def start(
 @guarded
 def import_log(
     run: int = RUN,
-    file: Path = typer.Argument(..., help="The skid's CSV data log (kept unchanged)."),
+    file: list[Path] = typer.Argument(
+        ...,
+        help="The skid's data log (kept unchanged); a long run's log split over several "
+        "files is given as all of them, in time order, and joined.",
+    ),
     mapping: Path | None = typer.Option(
         None,
         "--mapping",
@@ -317,9 +339,11 @@ def import_log(
     db: str | None = DB_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
-    """Attach the skid log to the run and compute its actuals and excursions."""
+    """Attach the skid log (one file, or several files of one run in time order) to the run
+    and compute its actuals and excursions. The same files again change nothing."""
     from ledger.entries.runs import run_import
     from ledger.runs.service import import_log as do_import
+    from ledger.runs.service import log_files
 
     e = run_import(locals())
     record, new = write_as(
@@ -327,20 +351,25 @@ def import_log(
         user,
         password_stdin,
         lambda s, a: do_import(
-            s, a, e.run, Path(e.file), Path(e.mapping) if e.mapping else None, e.phases
+            s, a, e.run, [Path(f) for f in e.files], Path(e.mapping) if e.mapping else None,
+            e.phases,
         ),
-    )
+    )  # fmt: skip
+    files = log_files(record)
+    names = " + ".join(f["file_name"] for f in files)
+    sums = ", ".join(f["sha256"][:12] for f in files)
     if new:
-        line = (f"run {run}: imported {record.file_name} ({record.rows} rows, "
-                f"sha256 {record.sha256[:12]})")  # fmt: skip
+        line = f"run {run}: imported {names} ({record.rows} rows, sha256 {sums})"
     else:
-        line = (f"run {run}: {record.file_name} was already imported (sha256 "
-                f"{record.sha256[:12]}); nothing written")  # fmt: skip
+        line = (f"run {run}: {names} {'was' if len(files) == 1 else 'were'} already imported "
+                f"(sha256 {sums}); nothing written")  # fmt: skip
     warnings = list((record.actuals or {}).get("warnings") or [])
     if warnings and not as_json:
         line += "".join(f"\nwarning: {w}" for w in warnings)
     finish_line("run import", line, as_json, run=run, written=new, file_name=record.file_name,
-                rows=record.rows, sha256=record.sha256, warnings=warnings)  # fmt: skip
+                rows=record.rows, sha256=record.sha256, warnings=warnings,
+                files=[{k: f[k] for k in ("file_name", "sha256", "size_bytes")}
+                       for f in files])  # fmt: skip
 
 
 @app.command("qc")
@@ -373,6 +402,11 @@ def qc(
                 records=rows)  # fmt: skip
 
 
+CLASS_OPTION = typer.Option(
+    None, "--class", help="minor, major or critical (or the site's own words)."
+)
+
+
 @app.command("deviation")
 @guarded
 def deviation(
@@ -380,19 +414,22 @@ def deviation(
     description: str = typer.Option(..., "--description", help="What departed, and why."),
     check: str | None = typer.Option(None, "--check", help="The check it explains."),
     impact: str | None = typer.Option(None, "--impact", help="Assessed impact on the product."),
+    classification: str | None = CLASS_OPTION,
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
-    """Record a deviation against the run."""
+    """Record a deviation against the run (its class and impact may also come at closure)."""
     from ledger.runs.service import add_deviation
 
     d = write_as(
         db,
         user,
         password_stdin,
-        lambda s, a: add_deviation(s, a, run, description, check=check, impact=impact),
+        lambda s, a: add_deviation(
+            s, a, run, description, check=check, impact=impact, classification=classification
+        ),
     )
     finish_line("run deviation", f"run {run}: deviation {d.number} recorded", as_json, run=run,
                 records=[d])  # fmt: skip
@@ -404,17 +441,56 @@ def close_deviation(
     run: int = RUN,
     number: int = typer.Argument(..., help="The deviation's number within the run."),
     closure: str = typer.Option(..., "--closure", help="Conclusion and actions."),
+    impact: str | None = typer.Option(None, "--impact", help="Assessed impact on the product."),
+    classification: str | None = CLASS_OPTION,
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
-    """Close a deviation (engineer or QA)."""
+    """Close a deviation (QA only): it needs a class and an impact assessment."""
     from ledger.runs.service import close_deviation as close
 
-    d = write_as(db, user, password_stdin, lambda s, a: close(s, a, run, number, closure))
-    finish_line("run close-deviation", f"run {run}: deviation {number} closed", as_json,
-                run=run, records=[d])  # fmt: skip
+    d = write_as(
+        db, user, password_stdin,
+        lambda s, a: close(s, a, run, number, closure, impact=impact,
+                           classification=classification),
+    )  # fmt: skip
+    line = f"run {run}: deviation {number} ({d.classification}) closed by {d.closed_by}"
+    finish_line("run close-deviation", line, as_json, run=run, records=[d])
+
+
+@app.command("deviation-classes")
+@guarded
+def deviation_classes(
+    set_to: str | None = typer.Option(
+        None, "--set", help="New words, comma-separated (QA; needs --reason and --user)."
+    ),
+    reason: str | None = typer.Option(None, "--reason", help="Why they change (recorded)."),
+    user: str | None = typer.Option(None, "--user", help="Your user ID (QA) to change them."),
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Show the site's deviation classes, or (QA) rename them."""
+    from ledger.cli.output import Report
+    from ledger.runs.service import deviation_classes as current
+    from ledger.runs.service import set_deviation_classes
+
+    if set_to is None:
+        words = read(db, current, user, password_stdin)
+    else:
+        if user is None:
+            from ledger.errors import InputError
+
+            raise InputError("--set needs --user: a QA user changes the classes", field="user",
+                             expected="--user ID of a QA user")  # fmt: skip
+        text, why = set_to, reason or ""
+        words = write_as(db, user, password_stdin,
+                         lambda s, a: set_deviation_classes(s, a, text, why))  # fmt: skip
+    report = Report("run deviation-classes")
+    report.section("Deviation classes").add("classes", ", ".join(words))
+    report.print(as_json)
 
 
 @app.command("finish")
@@ -511,6 +587,109 @@ def submit(
     r = write_as(db, user, password_stdin, lambda s, a: submit_run(s, a, run))
     finish_line("run submit", f"run {run} submitted for review", as_json, run=r.id,
                 status=r.status)  # fmt: skip
+
+
+@app.command("step")
+@guarded
+def step(
+    run: int = RUN,
+    number: str = typer.Argument(..., help="The step's number in the record, from 1."),
+    meaning: str = typer.Option(..., "--meaning", help="performed or verified."),
+    values: list[str] = typer.Option(
+        [], "--value", help="A value entered at the step as NAME=TEXT, e.g. buffer_used='1.9 L'."
+    ),
+    deviation: str | None = typer.Option(
+        None, "--deviation", help="The deviation (its number) that explains a value out of range."
+    ),
+    activity_time: str | None = ACTIVITY_TIME,
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Sign one step of the run as performed (with its values) or verified (another person)."""
+    from ledger.entries.runs import run_step
+    from ledger.runs.steps import record_step
+
+    e = run_step({**locals(), "step": number})
+    done = write_as(
+        db,
+        user,
+        password_stdin,
+        lambda s, a: record_step(s, a, e.run, e.step, e.meaning, e.values, e.done_at,
+                                 deviation=e.deviation),
+    )  # fmt: skip
+    r = done.entry
+    line = f"run {e.run} step {e.step} {e.meaning} by {r.login}"
+    if r.deviation_number is not None:
+        line += f" (deviation {r.deviation_number})"
+    late = _late(r).strip() or None
+    if not as_json:
+        for out in done.out_of_range:
+            typer.echo(out)
+        if late:
+            typer.echo(late)
+    finish_line("run step", line, as_json, run=e.run, step=e.step, meaning=e.meaning,
+                out_of_range=list(done.out_of_range), late=late, records=[r])  # fmt: skip
+
+
+def _late(r: Any) -> str:
+    """The note of a late step entry (" late: done at X, entered at Y"), else ""."""
+    if not r.late:
+        return ""
+    done = r.done_at.isoformat(timespec="seconds")
+    entered = r.created_at.isoformat(timespec="seconds")
+    return f" late: done at {done}, entered at {entered}"
+
+
+@app.command("steps")
+@guarded
+def steps(
+    run: int = RUN,
+    user: str | None = READ_USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """List the run's steps: the values entered at each, who performed and verified it, when."""
+    from ledger.cli.output import Q, Report, Table
+    from ledger.runs.steps import steps_of
+
+    def build(session: Any) -> Any:
+        report = Report("run steps")
+        table = Table("Steps", [("step", "step"), ("title", "step title"), ("phase", "phase"),
+                                ("values", "values"), ("signed", "signed"),
+                                ("entries", "entries"), ("signatures", "signatures"),
+                                ("complete", "complete")],
+                      json_only=frozenset({"entries", "signatures"}))  # fmt: skip
+        for v in steps_of(session, run):
+            entries, shown = [], []
+            for x in v.values:
+                value: Any = x.si
+                if x.si is not None and x.kind not in ("number", "text"):
+                    value = Q(x.si, x.kind, x.unit)
+                verdict = {True: "in range", False: "OUT OF RANGE", None: ""}[x.in_range]
+                entries.append({"name": x.name, "title": x.title, "kind": x.kind,
+                                "phase": x.phase, "typed": x.text, "value": value,
+                                "range": x.range, "in_range": x.in_range})  # fmt: skip
+                typed = x.text if x.text is not None else "—"
+                shown.append(f"{x.name} {typed}" + (f" ({x.range}) {verdict}" if x.range else ""))
+            signatures, signed = [], []
+            for r in v.signed:
+                late = _late(r)
+                signatures.append({"meaning": r.meaning, "login": r.login,
+                                   "full_name": r.full_name, "done_at": r.done_at,
+                                   "entered_at": r.created_at, "late": r.late,
+                                   "deviation": r.deviation_number})  # fmt: skip
+                signed.append(f"{r.meaning} by {r.login} at "
+                              f"{r.done_at.isoformat(timespec='minutes')}{late}")  # fmt: skip
+            table.rows.append([v.number, v.title, v.phase, "; ".join(shown) or "—",
+                               "; ".join(signed) or f"needs {', '.join(v.signatures)}",
+                               entries, signatures, v.complete])  # fmt: skip
+        report.tables.append(table)
+        return report
+
+    read(db, build, user, password_stdin).print(as_json)
 
 
 def finish_line(command: str, line: str, as_json: bool, **body: Any) -> None:

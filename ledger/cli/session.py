@@ -81,6 +81,19 @@ def write(
     return run(db, login, lambda: read_secret("Password", from_stdin=password_stdin), work)
 
 
+def change_own_password(db: str | None, login: str, password_stdin: bool) -> Any:
+    """``login`` signs in with their current password (a temporary one too) and chooses a new
+    one (prompted twice, or the next stdin line with --password-stdin)."""
+    from ledger.logbook.workspace import change_own_password as run
+
+    return run(
+        db,
+        login,
+        lambda: read_secret("Password", from_stdin=password_stdin),
+        lambda: read_secret(f"New password for {login}", from_stdin=password_stdin, confirm=True),
+    )
+
+
 def acting_user(engine: Any, login: str, password_stdin: bool) -> Any:
     """The authenticated user (password prompted, or read with --password-stdin)."""
     from ledger.logbook.workspace import sign_in

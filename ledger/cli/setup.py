@@ -43,4 +43,6 @@ def init(
         s.add("administrator", result.admin)
     if result.note:
         s.add("note", result.note)
+    if result.key:
+        s.add("site_key", result.key, "site key")
     report.print(as_json)

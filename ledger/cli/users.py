@@ -13,6 +13,7 @@ from ledger.cli.session import (
     PASSWORD_STDIN,
     READ_USER_OPTION,
     USER_OPTION,
+    change_own_password,
     read_secret,
     write,
 )
@@ -34,7 +35,9 @@ def add(
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
 ) -> None:
-    """Add a user. With --password-stdin, line 1 is your password and line 2 the new one."""
+    """Add a user. With --password-stdin, line 1 is your password and line 2 the new one.
+
+    The password you give is temporary: the new user changes it before recording anything."""
     from ledger.logbook.users import add_user
 
     def work(session: Any, actor: Any) -> Any:
@@ -42,7 +45,10 @@ def add(
         return add_user(session, actor, login, name, role, new)
 
     created = write(db, user, password_stdin, work)
-    typer.echo(f"added user {created.login} ({created.role}), ID {created.id}")
+    typer.echo(
+        f"added user {created.login} ({created.role}), ID {created.id}; "
+        + _temporary_note(created.login)
+    )
 
 
 @app.command("passwd")
@@ -53,15 +59,31 @@ def passwd(
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
 ) -> None:
-    """Change a password. An administrator's reset also unlocks a locked account."""
+    """Change a password. Your own: allowed with a temporary one, and no longer temporary.
+    An administrator's reset of someone else's unlocks the account and is temporary: its owner
+    changes it (`user passwd ID --user ID`) before recording or signing anything."""
     from ledger.logbook.users import set_password
+
+    if login == user:
+        change_own_password(db, user, password_stdin)
+        typer.echo(f"password of {login} changed")
+        return
 
     def work(session: Any, actor: Any) -> Any:
         new = read_secret(f"New password for {login}", from_stdin=password_stdin, confirm=True)
         return set_password(session, actor, login, new)
 
     changed = write(db, user, password_stdin, work)
-    typer.echo(f"password of {changed.login} changed")
+    typer.echo(f"password of {changed.login} reset; {_temporary_note(changed.login)}")
+
+
+def _temporary_note(login: str) -> str:
+    from ledger.logbook.auth import own_password_command
+
+    return (
+        f"the password is temporary: {login} must change it with "
+        f"`{own_password_command(login)}` before recording or signing anything"
+    )
 
 
 @app.command("role")

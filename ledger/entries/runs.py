@@ -3,6 +3,7 @@ results (``run qc``), the activity time of a start or finish, and ``log summariz
 
 from __future__ import annotations
 
+import os
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from datetime import datetime
@@ -121,7 +122,6 @@ RUN_IMPORT = Spec(
     "run import",
     (
         Field("run", "integer", required=True),
-        Field("file", required=True),
         Field("mapping"),
     ),
 )
@@ -130,15 +130,19 @@ RUN_IMPORT = Spec(
 @dataclass(frozen=True)
 class ImportEntry:
     run: int
-    file: str
+    files: list[str]  # one or more files of the run's log, in time order
     mapping: str | None  # None: the run's skid's approved mapping
     phases: list[PhaseWindow]
 
 
 def run_import(raw: Mapping[str, Any]) -> ImportEntry:
-    """Check a skid-log import: the run, the file, its mapping and any phase windows."""
-    v = RUN_IMPORT.parse(raw)
-    return ImportEntry(v["run"], v["file"], v["mapping"], phase_windows(raw.get("phase") or ()))
+    """Check a skid-log import: the run, its file or files, the mapping and phase windows."""
+    v = RUN_IMPORT.parse({k: w for k, w in raw.items() if k != "file"})
+    given = raw.get("file")
+    files = [str(given)] if isinstance(given, (str, os.PathLike)) else [str(f) for f in given or ()]
+    if not files:
+        raise InputError("no skid log file given", field="file", expected="one or more files")
+    return ImportEntry(v["run"], files, v["mapping"], phase_windows(raw.get("phase") or ()))
 
 
 def qc_results(raw: Mapping[str, Any]) -> dict[str, str]:
@@ -153,6 +157,37 @@ def activity(raw: Mapping[str, Any]) -> tuple[int, datetime | None]:
     """The run number and optional late-entry time of ``run start`` or ``run finish``."""
     v = RUN_STEP.parse(raw)
     return v["run"], when(v)
+
+
+STEP_SIGN = Spec(
+    "run step",
+    (
+        Field("run", "integer", required=True),
+        Field("step", "integer", required=True),
+        Field("meaning", required=True),
+        Field("deviation", "integer"),
+        Field("activity_time", "datetime"),
+    ),
+)
+
+
+@dataclass(frozen=True)
+class StepSignEntry:
+    run: int
+    step: int  # from 1
+    meaning: str  # performed, verified (checked by the service against the template)
+    values: dict[str, str]  # entry name -> text as typed; parsed against the template's kinds
+    deviation: int | None  # the deviation that explains a value out of range
+    done_at: datetime | None  # entered late: when the step was done
+
+
+def run_step(raw: Mapping[str, Any]) -> StepSignEntry:
+    """Check ``run step``'s fields; each ``--value NAME=TEXT`` is parsed by the service
+    against the step's entries (their kinds and units are in the run's template)."""
+    v = STEP_SIGN.parse(raw)
+    given = pairs(list(raw.get("values") or ()), "value")
+    meaning = str(v["meaning"]).strip()
+    return StepSignEntry(v["run"], v["step"], meaning, given, v["deviation"], when(v))
 
 
 LOG_SUMMARY = Spec(

@@ -111,6 +111,27 @@ def authenticate(engine: Engine, login: str, password: str) -> UserAccount:
     )
 
 
+def own_password_command(login: str) -> str:
+    """The command with which ``login`` chooses their own password (to quote in messages)."""
+    return f"fluxledger user passwd {login} --user {login}"
+
+
+def require_own_password(user: UserAccount) -> None:
+    """Refuse (exit 3) a user whose password someone else set (``password_temporary``).
+
+    An administrator who sets or resets a password knows it; until its owner has chosen
+    their own, nothing they write or sign may carry the owner's name. Only the owner's own
+    password change is exempt (``ledger.logbook.workspace.change_own_password``).
+    """
+    if user.password_temporary:
+        raise RefusedError(
+            f"the password of {user.login} was set by someone else and is temporary: change "
+            f"it first with `{own_password_command(user.login)}`, then record or sign",
+            field="user",
+            value=user.login,
+        )
+
+
 def require_role(user: UserAccount, allowed: frozenset[str], action: str) -> None:
     """Refuse (exit 3) unless the user's role is one of ``allowed``."""
     if user.role not in allowed:

@@ -24,11 +24,12 @@ from ledger.store.tables import (
 
 
 def entities() -> tuple[str, ...]:
-    """Every audited entity name (the skid tables included)."""
+    """Every audited entity name (the skid tables included), and the audit chain itself
+    (its re-key events)."""
     from ledger.store.registry import load_all
 
     load_all()
-    return tuple(RECORDS)
+    return (*RECORDS, "audit_chain")
 
 
 @dataclass(frozen=True)

@@ -291,6 +291,14 @@ def hold(session: Session, actor: UserAccount, serial: str, reason: str) -> Hold
 
 
 DECISIONS = ("retest", "return", "retire")
+# What a disposition's signature means: its decision (stored), in the words printed beside it.
+DISPOSITION_WORDS = {"retest": "retest", "return": "return to service", "retire": "retire"}
+
+
+def disposition_words(meaning: str | None) -> str:
+    """The printed meaning of a disposition signature ("approved" on holds decided before
+    dispositions had meanings of their own)."""
+    return DISPOSITION_WORDS.get(meaning or "", meaning or "")
 
 
 def release(session: Session, actor: UserAccount, serial: str, decision: str, reason: str) -> Hold:
@@ -329,7 +337,7 @@ def release(session: Session, actor: UserAccount, serial: str, decision: str, re
             "decision_reason": reason,
             "decided_by": actor.login,
             "decided_at": journal.at,
-            "meaning": "approved",
+            "meaning": decision,
         },
         reason=reason,
         module_id=module.id,

@@ -78,7 +78,13 @@ def _admin(engine: Engine, login: str) -> None:
 
 
 def recover_admin(engine: Engine, login: str, code: str, password: str) -> UserAccount:
-    """Check the typed ``code`` against the file, then unlock, re-enable and reset ``login``."""
+    """Check the typed ``code`` against the file, then unlock, re-enable and reset ``login``.
+
+    The new password is not temporary: the person with access to the database host chooses
+    it for the account they are restoring, as its owner would, and no other account ever
+    knew it. (A password an administrator sets for someone else is temporary; see
+    ``ledger.logbook.users.set_password``.)
+    """
     _admin(engine, login)
     path = code_file(engine)
     if not pending_code(engine):
@@ -104,7 +110,13 @@ def recover_admin(engine: Engine, login: str, code: str, password: str) -> UserA
         assert user is not None
         Journal(session, f"host:{who}").change(
             user,
-            {"password_hash": new_hash, "failed_logins": 0, "locked": False, "active": True},
+            {
+                "password_hash": new_hash,
+                "failed_logins": 0,
+                "locked": False,
+                "active": True,
+                "password_temporary": False,
+            },
             reason=f"{RECOVERY_REASON} (OS user {who})",
             action="break_glass",
         )

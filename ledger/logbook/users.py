@@ -2,7 +2,10 @@
 settings (lockout threshold, whether reads need a signed-in user), admin only.
 
 Nobody changes their own role, and granting a deciding role (engineer, qa) is recorded with
-the login of the administrator who granted it."""
+the login of the administrator who granted it. A password set by anyone other than its owner
+(``user add``, an administrator's reset) is temporary (``password_temporary``, audited): its
+owner must choose their own before recording or signing anything (ledger.logbook.workspace).
+"""
 
 from __future__ import annotations
 
@@ -54,7 +57,9 @@ def check_role(role: str) -> str:
 
 
 def create_first_admin(session: Session, login: str, full_name: str, password: str) -> UserAccount:
-    """The administrator that init creates when the database has no user yet."""
+    """The administrator that init creates when the database has no user yet.
+
+    The person running init types their own password, so it is not temporary."""
     login = check_login(login)
     name = full_name.strip() or login
     user = UserAccount(
@@ -62,6 +67,7 @@ def create_first_admin(session: Session, login: str, full_name: str, password: s
         full_name=required("name", name, "the person's printed name"),
         role="admin",
         password_hash=hash_password(password),
+        password_temporary=False,
     )
     return Journal(session, login).create(user, reason="first administrator, created by init")
 
@@ -69,6 +75,7 @@ def create_first_admin(session: Session, login: str, full_name: str, password: s
 def add_user(
     session: Session, actor: UserAccount, login: str, full_name: str, role: str, password: str
 ) -> UserAccount:
+    """An administrator adds an account; the password they chose for it is temporary."""
     require_role(actor, ADMINS, "add users")
     login = check_login(login)
     check_role(role)
@@ -83,12 +90,25 @@ def add_user(
         )
 
     user = UserAccount(
-        login=login, full_name=full_name, role=role, password_hash=hash_password(password)
+        login=login,
+        full_name=full_name,
+        role=role,
+        password_hash=hash_password(password),
+        password_temporary=True,
     )
+    granted = _grant_reason(role, actor)
+    temporary = _temporary_reason(login, actor)
     # Two administrators adding the same ID at once: the second insert breaks the unique
     # constraint (PostgreSQL) and gets the same answer as a lookup would have given.
     with new_identifier(session, UserAccount.login, login, taken):
-        return Journal(session, actor.login).create(user, reason=_grant_reason(role, actor))
+        return Journal(session, actor.login).create(
+            user, reason=f"{granted}; {temporary}" if granted else temporary
+        )
+
+
+def _temporary_reason(login: str, actor: UserAccount) -> str:
+    """The audit reason of a password someone other than its owner set."""
+    return f"password set by {actor.login} is temporary until {login} changes it"
 
 
 def _grant_reason(role: str, actor: UserAccount) -> str | None:
@@ -136,14 +156,26 @@ def _target(session: Session, login: str) -> UserAccount:
 
 
 def set_password(session: Session, actor: UserAccount, login: str, password: str) -> UserAccount:
-    """Users change their own password; an administrator resets anyone's (and unlocks it)."""
-    if actor.login != login:
+    """Users change their own password (which is then no longer temporary); an administrator
+    resets anyone's, which unlocks it and makes it temporary: its owner must change it before
+    recording or signing anything."""
+    own = actor.login == login
+    if not own:
         require_role(actor, ADMINS, "reset another user's password")
     user = _target(session, login)
-    reason = "password changed by its owner" if actor.login == login else "password reset"
+    reason = (
+        "password changed by its owner"
+        if own
+        else f"password reset; {_temporary_reason(login, actor)}"
+    )
     Journal(session, actor.login).change(
         user,
-        {"password_hash": hash_password(password), "failed_logins": 0, "locked": False},
+        {
+            "password_hash": hash_password(password),
+            "failed_logins": 0,
+            "locked": False,
+            "password_temporary": not own,
+        },
         reason=reason,
     )
     return user

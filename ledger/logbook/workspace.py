@@ -34,18 +34,51 @@ def write(
     work: Callable[[Session, UserAccount], T],
 ) -> T:
     """Authenticate ``login`` (its own small transaction, so a failed password stays counted),
-    then run ``work`` as one transaction: all of it is written, or nothing."""
+    then run ``work`` as one transaction: all of it is written, or nothing.
+
+    This is the one place where every record, signature and setting gets its actor, so the
+    rule lives here: a user whose password someone else set (temporary) is refused (exit 3)
+    until they change it with ``change_own_password``."""
+    from ledger.logbook.auth import require_own_password
+
+    return _as(db, login, password, work, check=require_own_password)
+
+
+def change_own_password(
+    db: str | None,
+    login: str,
+    password: Callable[[], str],
+    new_password: Callable[[], str],
+) -> UserAccount:
+    """``login`` chooses their own password (clearing ``password_temporary``): the only write
+    allowed to a user whose password is temporary, who signs in with that one."""
+    from ledger.logbook.users import set_password
+
+    return _as(db, login, password, lambda s, a: set_password(s, a, a.login, new_password()))
+
+
+def _as(
+    db: str | None,
+    login: str,
+    password: Callable[[], str],
+    work: Callable[[Session, UserAccount], T],
+    check: Callable[[UserAccount], None] | None = None,
+) -> T:
     from ledger.logbook.auth import authenticate
     from ledger.store.engine import transaction
 
     engine = open_ledger(db)
     actor = authenticate(engine, login, password())
+    if check is not None:
+        check(actor)
     with transaction(engine) as session:
         return work(session, actor)
 
 
 def sign_in(engine: Engine, login: str, password: str) -> UserAccount:
-    """The user whose ID and password these are (a failed attempt counts toward lockout)."""
+    """The user whose ID and password these are (a failed attempt counts toward lockout).
+
+    It does not refuse a temporary password: a write goes through ``write``, which does."""
     from ledger.logbook.auth import authenticate
 
     return authenticate(engine, login, password)
@@ -87,8 +120,9 @@ def read(
 def authenticated_read(
     db: str | None, login: str, password: Callable[[], str], work: Callable[[Session, Any], T]
 ) -> T:
-    """``read`` as an authenticated user (for reads that a site restricts)."""
-    return write(db, login, password, work)
+    """``read`` as an authenticated user (for reads that a site restricts). Reads stay open to
+    a user whose password is temporary."""
+    return _as(db, login, password, work)
 
 
 def database_label(engine: Engine) -> str:

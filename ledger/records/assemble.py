@@ -9,6 +9,7 @@ signing. The run's own data cannot change once it is in review (rules/runs.py).
 
 from __future__ import annotations
 
+import hashlib
 import re
 import tempfile
 from collections.abc import Sequence
@@ -18,6 +19,7 @@ from typing import Any
 
 from sqlmodel import Session, col, select
 
+from ledger.errors import TamperedError
 from ledger.records import context as c
 from ledger.runs import service as runs
 from ledger.runs.plan import Plan, show
@@ -134,6 +136,7 @@ def assemble(
     )
     qc_rows = _qc_rows(session, run_id, as_of)
     checks = _checks(plan, template, log, qc_rows, devs, as_of)
+    executed = _executed(session, run, len(plan.steps), as_of)
     steps = tuple(
         c.Step(
             s["operation"],
@@ -142,8 +145,9 @@ def assemble(
             s["text"],
             tuple(s["signatures"]),
             bool(_CLEANING_WORDS.search(f"{s['operation']} {s['title']} {s['text']}")),
+            *executed[i],
         )
-        for s in plan.steps
+        for i, s in enumerate(plan.steps)
     )
     cutoff = run.finished_at or run.started_at or as_of or datetime.now(UTC)
     history = _history(session, module, mtype, uses, run.use_id, cutoff, as_of)
@@ -151,34 +155,82 @@ def assemble(
     cautions = [c.SITE_CAUTION]
     if history.cleanings or any(s.cleaning for s in steps):
         cautions.append(c.CAUSTIC_CAUTION)
+    from ledger.records.review import gather
+
+    dev_rows = _deviation_rows(devs, as_of)
     return c.Context(
         header=header,
         steps=steps,
         checks=checks,
         excursions=_excursions(summary, plan),
         qc=_qc(template, qc_rows, checks),
-        deviations=tuple(
-            c.DeviationRow(
-                d.number,
-                d.check_name,
-                d.description,
-                d.impact,
-                d.created_by,
-                _at(d.created_at),
-                d.closed_by if _closed(d, as_of) else None,
-                iso(d.closed_at) if _closed(d, as_of) else None,
-                d.closure if _closed(d, as_of) else None,
-            )
-            for d in devs
-        ),
+        deviations=dev_rows,
         history=history,
-        charts=_charts(log, mtype, plan) if log else (),
+        charts=_charts(session, log, mtype, plan) if log else (),
         audit=_audit(session, run, audit_seq),
         required_signatures=tuple(template.signatures),
         signature_roles={m: tuple(r) for m, r in template.signers.items()},
         assumptions=_assumptions(summary),
         cautions=tuple(cautions),
+        review=gather(session, run, as_of, checks, dev_rows, log),
     )
+
+
+def _deviation_rows(
+    devs: Sequence[Deviation], as_of: datetime | None
+) -> tuple[c.DeviationRow, ...]:
+    return tuple(
+        c.DeviationRow(
+            d.number,
+            d.check_name,
+            d.description,
+            d.impact,
+            d.created_by,
+            _at(d.created_at),
+            d.closed_by if _closed(d, as_of) else None,
+            iso(d.closed_at) if _closed(d, as_of) else None,
+            d.closure if _closed(d, as_of) else None,
+            # set at creation (still open) or with a closure made by then
+            d.classification if d.closed_at is None or _closed(d, as_of) else None,
+        )
+        for d in devs
+    )
+
+
+def _executed(
+    session: Session, run: Run, count: int, as_of: datetime | None
+) -> list[tuple[tuple[c.StepValue, ...] | None, tuple[c.StepSignoff, ...] | None]]:
+    """Each step's values and signoffs as they stood at ``as_of`` (None when it has none)."""
+    from ledger.runs.steps import step_views
+
+    out: list[tuple[tuple[c.StepValue, ...] | None, tuple[c.StepSignoff, ...] | None]] = [
+        (None, None)
+    ] * count
+    verdicts = {True: "in range", False: "OUT OF RANGE", None: ""}
+    for v in step_views(session, run, as_of)[:count]:
+        values = tuple(
+            c.StepValue(x.name, x.title, x.text or "—", x.range, verdicts[x.in_range])
+            for x in v.values
+        )
+        signoffs = tuple(
+            c.StepSignoff(
+                r.meaning,
+                r.login,
+                r.full_name,
+                _at(r.done_at),
+                _at(r.created_at),
+                r.late,
+                _late_note(r.done_at, r.created_at) if r.late else "",
+                r.deviation_number,
+            )
+            for r in v.signed
+        )
+        out[v.number - 1] = (values or None, signoffs or None)
+    return out
+
+
+def _late_note(done_at: datetime, entered_at: datetime) -> str:
+    return f"late: done at {_at(done_at)}, entered at {_at(entered_at)}"
 
 
 def signature_rows(
@@ -213,18 +265,28 @@ def _log_line(
 ) -> str | None:
     """The skid log in use, then every voided one with who voided it, when and why (a
     voided log stays in the record's history)."""
-    parts = [f"{log.file_name} ({log.rows:,} rows, SHA-256 {log.sha256})"] if log else []
+    parts = [_files_text(log)] if log else []
     if log is not None:
         parts += [a for a in (log.actuals or {}).get("assumptions", []) if a.startswith("phases ")]
         parts += list((log.actuals or {}).get("warnings") or [])
     for old in session.exec(select(SkidLogFile).where(SkidLogFile.run_id == run_id)).all():
         if old.voided_at is None or (as_of is not None and old.voided_at > as_of):
             continue
+        files = " + ".join(f"{f['file_name']} (SHA-256 {f['sha256'][:16]}…)"
+                           for f in runs.log_files(old))  # fmt: skip
         parts.append(
-            f"voided: {old.file_name} (SHA-256 {old.sha256[:16]}…) by {old.voided_by} on "
-            f"{iso(old.voided_at)}: {old.void_reason}"
+            f"voided: {files} by {old.voided_by} on {iso(old.voided_at)}: {old.void_reason}"
         )
     return "; ".join(parts) or None
+
+
+def _files_text(log: SkidLogFile) -> str:
+    """The log's file, or each of its files in the order they were joined, with SHA-256."""
+    files = runs.log_files(log)
+    if len(files) == 1:
+        return f"{log.file_name} ({log.rows:,} rows, SHA-256 {log.sha256})"
+    each = ", then ".join(f"{f['file_name']} (SHA-256 {f['sha256']})" for f in files)
+    return f"{len(files)} files joined in this order ({log.rows:,} rows): {each}"
 
 
 def _skid_log(session: Session, run_id: int, as_of: datetime | None) -> SkidLogFile | None:
@@ -433,17 +495,39 @@ def _cleaning(r: Cleaning) -> c.CleaningRow:
     )
 
 
-def _charts(log: SkidLogFile, mtype: ModuleType, plan: Plan) -> tuple[c.Series, ...]:
+def _charts(
+    session: Session, log: SkidLogFile, mtype: ModuleType, plan: Plan
+) -> tuple[c.Series, ...]:
     from ledger.records.downsample import min_max
     from ledger.runs.actuals import Geometry, PhaseWindow, derived_channels, segments
     from ledger.runs.mapping import parse_mapping
-    from ledger.runs.skidlog import read_log
+    from ledger.runs.skidlog import read_logs
 
     mapping = parse_mapping(log.mapping_text, f"mapping of {log.file_name}")
     with tempfile.TemporaryDirectory() as tmp:
-        path = Path(tmp) / log.file_name
-        path.write_bytes(log.content)
-        skid = read_log(path, mapping, digest=False)
+        paths = []
+        # one folder per file: files of one log may share a name (a day's folder each)
+        contents = runs.log_contents(session, log)
+        for entry, (name, data) in zip(runs.log_files(log), contents, strict=False):
+            if hashlib.sha256(data).hexdigest() != entry["sha256"]:
+                raise TamperedError(
+                    f"the skid log file {name} of {record_id(log.run_id)} was replaced in "
+                    f"the database: its bytes no longer match the SHA-256 "
+                    f"{str(entry['sha256'])[:12]} recorded when it was imported",
+                    field="skid log", value=name,
+                )  # fmt: skip
+        if len(contents) != len(runs.log_files(log)):
+            raise TamperedError(
+                f"a file of the skid log of {record_id(log.run_id)} is missing from the "
+                "database", field="skid log", value=log.file_name,
+            )  # fmt: skip
+        for position, (name, data) in enumerate(contents, start=1):
+            folder = Path(tmp) / str(position)
+            folder.mkdir()
+            path = folder / name
+            path.write_bytes(data)
+            paths.append(path)
+        skid = read_logs(paths, mapping, digest=False)
     geometry = Geometry(mtype.area_m2, mtype.fiber_count, mtype.lumen_diameter_m)
     channels, _ = derived_channels(skid, geometry)
     windows = [
@@ -490,6 +574,8 @@ def _short(value: str | None) -> str | None:
 
 def _audit(session: Session, run: Run, audit_seq: int | None) -> tuple[c.AuditRow, ...]:
     """The audit trail of the run's critical data: the run, its log, QC results, deviations."""
+    from ledger.audittext import describe
+
     ids: dict[str, set[str]] = {"run": {str(run.id)}}
     for entity, cls in (
         ("skid_log_file", SkidLogFile),
@@ -514,6 +600,7 @@ def _audit(session: Session, run: Run, audit_seq: int | None) -> tuple[c.AuditRo
             _short(e.old_value),
             _short(e.new_value),
             e.reason,
+            describe(e.seq, e.action, e.field, e.old_value, e.new_value, e.reason),
         )
         for e in events
         if e.entity_id in ids[e.entity]

@@ -16,7 +16,8 @@ from typing import Any, TypeVar, get_args, get_origin, get_type_hints
 
 from ledger.canonical import canonical
 
-CONTEXT_VERSION = 1
+# 2: the review by exception (``review``); revisions issued at 1 are compared without it.
+CONTEXT_VERSION = 2
 
 SITE_CAUTION = (
     "Acceptance limits, specifications and signature roles in this record come from the site's "
@@ -59,6 +60,31 @@ class Header:
 
 
 @dataclass(frozen=True)
+class StepValue:
+    """A value entered when a step was performed, as typed, against its range."""
+
+    name: str
+    title: str
+    value: str  # as typed, with its unit; "—" not entered
+    range: str  # "45.6–50.4 mL"; "" without a range
+    verdict: str  # "in range", "OUT OF RANGE", or "" (no range, or not entered)
+
+
+@dataclass(frozen=True)
+class StepSignoff:
+    """Who performed or verified a step, and when the work was done and entered."""
+
+    meaning: str  # performed, verified
+    login: str
+    full_name: str
+    done_at: str  # ISO 8601 with UTC offset
+    entered_at: str
+    late: bool
+    note: str  # "late: done at X, entered at Y", or ""
+    deviation: int | None  # the deviation that explains a value out of range
+
+
+@dataclass(frozen=True)
 class Step:
     """A step of the master record with its text filled in from the plan."""
 
@@ -68,6 +94,10 @@ class Step:
     text: str
     signatures: tuple[str, ...]
     cleaning: bool  # prints the caustic caution beside it
+    # None (not an empty tuple) when a step has no entries or signatures, so revisions issued
+    # before steps were executed one by one assemble to the same content.
+    values: tuple[StepValue, ...] | None = None
+    signoffs: tuple[StepSignoff, ...] | None = None
 
 
 @dataclass(frozen=True)
@@ -123,6 +153,15 @@ class DeviationRow:
     closed_by: str | None
     closed_at: str | None
     closure: str | None
+    classification: str | None = None  # minor, major, critical or the site's word
+
+
+@dataclass(frozen=True)
+class ReviewTopic:
+    """One topic of the review by exception and its findings (none: nothing to look at)."""
+
+    topic: str
+    findings: tuple[str, ...]
 
 
 @dataclass(frozen=True)
@@ -222,6 +261,7 @@ class AuditRow:
     old: str | None
     new: str | None
     reason: str | None
+    change: str | None = None  # version 2 on: the change in words (ledger.audittext)
 
 
 @dataclass(frozen=True)
@@ -255,6 +295,7 @@ class Context:
     signature_roles: dict[str, tuple[str, ...]]  # meaning -> roles that may sign it
     assumptions: tuple[str, ...] = ()  # how the actuals were computed, in words
     cautions: tuple[str, ...] = (SITE_CAUTION,)
+    review: tuple[ReviewTopic, ...] = ()  # version 2 on: what a reviewer must look at
     version: int = CONTEXT_VERSION
     signatures: tuple[SignatureRow, ...] = field(default=(), compare=False)
 

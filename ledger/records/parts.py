@@ -219,9 +219,10 @@ def deviations(ctx: Context) -> list[Any]:
         else:
             closure = layout.markup(f"closed by {esc(d.closed_by)}, {esc(when(d.closed_at))}"
                                     f"<br/>{esc(d.closure or '')}", s.cell)  # fmt: skip
-        rows.append([str(d.number), d.check or "—", layout.markup(text, s.cell),
+        klass = f"<br/><i>Class:</i> {esc(d.classification)}" if d.classification else ""
+        rows.append([str(d.number), d.check or "—", layout.markup(text + klass, s.cell),
                      f"{d.recorded_by}, {when(d.recorded_at)}", closure])  # fmt: skip
-    heading = ("No.", "Check", "Description", "Recorded", "Closure")
+    heading = ("No.", "Check", "Description", "Recorded", "Closure (QA)")
     return [layout.table(heading, rows, widths(5, 13, 36, 18, 28))]
 
 
@@ -232,13 +233,34 @@ def procedure(ctx: Context) -> list[Any]:
     cols = widths(4, 15, 41, 13, 27)
     rows = []
     for i, st in enumerate(ctx.steps, start=1):
-        body = layout.markup(f"<b>{esc(st.title)}</b><br/>{esc(st.text)}", s.cell)
+        body = layout.markup(f"<b>{esc(st.title)}</b><br/>{esc(st.text)}{_step_values(st)}",
+                             s.cell)  # fmt: skip
         beside: object = caution_panel(CAUSTIC_CAUTION, cols[4] - 2 * layout.PAD, small=True) \
             if st.cleaning else ""  # fmt: skip
-        rows.append([str(i), f"{st.operation} · {st.phase}", body,
-                     ", ".join(st.signatures) or "—", beside])  # fmt: skip
+        signed = ", ".join(st.signatures) or "—"
+        if st.signoffs:
+            signed = layout.markup(esc(signed) + "".join(
+                f"<br/>{esc(o.meaning)}: {esc(o.full_name)} ({esc(o.login)}), "
+                f"{esc(when(o.done_at))}"
+                + (f"<br/><b>{esc(o.note)}</b>" if o.note else "")
+                + (f"<br/>deviation {o.deviation}" if o.deviation is not None else "")
+                for o in st.signoffs), s.cell)  # fmt: skip
+        rows.append([str(i), f"{st.operation} · {st.phase}", body, signed, beside])
     heading = ("No.", "Operation · phase", "Step", "Signed as", "Caution")
     return [layout.table(heading, rows, cols)]
+
+
+def _step_values(st: Any) -> str:
+    """The values entered at a step, as typed, with their ranges and verdicts (markup)."""
+    if not st.values:
+        return ""
+    lines = []
+    for v in st.values:
+        rng = f" (range {esc(v.range)})" if v.range else ""
+        verdict = f" <b>{esc(v.verdict)}</b>" if v.verdict == "OUT OF RANGE" else \
+            (f" {esc(v.verdict)}" if v.verdict else "")  # fmt: skip
+        lines.append(f"{esc(v.title)}: {esc(v.value)}{rng}{verdict}")
+    return "<br/>" + "<br/>".join(lines)
 
 
 def _phase_list(series: Series) -> str:
@@ -321,6 +343,15 @@ def history(ctx: Context, draw: bool) -> list[Any]:
 def audit(ctx: Context) -> list[Any]:
     if not ctx.audit:
         return [note("No audit events in the excerpt.")]
+    s = styles()
+    if all(a.change is not None for a in ctx.audit):
+        rows = [[str(a.seq), when(a.at), a.actor, f"{a.entity} {a.entity_id}",
+                 layout.markup(esc(a.change or ""), s.cell),
+                 layout.markup(esc(a.reason or "—"), s.cell)]
+                for a in ctx.audit]  # fmt: skip
+        heading: tuple[str, ...] = ("Seq", "At", "Actor", "Record", "What changed", "Reason")
+        return [note(f"{len(ctx.audit)} audit events, in the order of the audit trail."),
+                layout.table(heading, rows, widths(5, 19, 10, 11, 38, 17))]  # fmt: skip
     rows = [[str(a.seq), when(a.at), a.actor, a.action, f"{a.entity} {a.entity_id}",
              a.field or "—", a.old or "—", a.new or "—", a.reason or "—"]
             for a in ctx.audit]  # fmt: skip
@@ -333,3 +364,19 @@ def assumptions(ctx: Context) -> list[Any]:
     if not ctx.assumptions:
         return [note("None stated.")]
     return [para(f"• {a}", styles().body) for a in ctx.assumptions]
+
+
+def review(ctx: Context) -> list[Any]:
+    """What a reviewer must look at, topic by topic; "none" where there is nothing."""
+    if not ctx.review:
+        return [note("This revision was issued before records carried a review summary.")]
+    s = styles()
+    rows = []
+    for t in ctx.review:
+        if t.findings:
+            body = layout.markup("<br/>".join(f"• {esc(f)}" for f in t.findings), s.cell)
+            count = layout.markup(f"<b>{len(t.findings)}</b>", s.cell)
+        else:
+            body, count = layout.markup("none", s.cell), "0"
+        rows.append([t.topic.capitalize(), count, body])
+    return [layout.table(("Topic", "Found", "Findings"), rows, widths(24, 6, 70))]

@@ -5,6 +5,12 @@ running head and a footer on every page (``ledger.records.pages``). reportlab's 
 mode and compressed page streams make the same context give the same, small bytes. The
 document info carries a machine stamp in its Keywords, which ``stamp_of`` reads back from the
 raw bytes without a PDF parser. ``write_atomic`` puts a finished file in place in one step.
+
+The info dictionary's CreationDate and ModDate are the revision's issue time, not the clock:
+invariant mode alone would date every record 2000-01-01, and the clock would make two prints
+of one revision differ. A caller holding the revision passes its ``as_of`` (``issued``); else
+``issued_at`` reads a time from the context. reportlab writes no XMP metadata, so the info
+dictionary holds the only dates.
 """
 
 from __future__ import annotations
@@ -15,6 +21,7 @@ import os
 import re
 import tempfile
 from collections.abc import Iterator
+from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
@@ -43,9 +50,41 @@ def keywords(ctx: Context, content_sha256: str, software_version: str) -> str:
             f"signatures={ids};software={software_version}")  # fmt: skip
 
 
+def _time(iso: str | None) -> datetime | None:
+    try:
+        at = datetime.fromisoformat(iso) if iso else None
+    except ValueError:
+        return None
+    return at.astimezone(UTC) if at is not None and at.tzinfo is not None else None
+
+
+def issued_at(ctx: Context) -> datetime | None:
+    """The document date the context itself gives (UTC, to the second), for a caller without
+    the revision's ``as_of``: a revision's first signature, which issues it in the same
+    transaction (a fraction of a second after ``as_of``); for a draft (revision 0, never
+    issued) the newest time it shows (header, audit rows, signatures), which dates the data it
+    was printed from. None when the context holds no time at all."""
+    h = ctx.header
+    if h.revision:
+        own = [t for s in ctx.signatures if s.revision == h.revision
+               if (t := _time(s.signed_at)) is not None]  # fmt: skip
+        if own:
+            return min(own)
+    shown = [h.planned_at, h.started_at, h.finished_at, h.submitted_at,
+             *(a.at for a in ctx.audit), *(s.signed_at for s in ctx.signatures)]  # fmt: skip
+    times = [t for t in map(_time, shown) if t is not None]
+    return max(times) if times else None
+
+
+def pdf_date(at: datetime) -> str:
+    """A PDF date string (ISO 32000-1 §7.9.4) of ``at`` in UTC, to the second."""
+    return at.astimezone(UTC).strftime("D:%Y%m%d%H%M%S+00'00'")
+
+
 def story(ctx: Context, content_sha256: str, charts: bool) -> list[Any]:
     """Every flowable of the record, section by section."""
     sections: list[tuple[str, list[Any]]] = [
+        ("Review by exception", parts.review(ctx)),
         ("Cautions", parts.cautions(ctx)),
         ("Planned against actual", parts.checks(ctx)),
         ("Excursions outside planned ranges", parts.excursions(ctx)),
@@ -75,8 +114,11 @@ def story(ctx: Context, content_sha256: str, charts: bool) -> list[Any]:
     return out
 
 
-def render(ctx: Context, *, software_version: str, charts: bool = True) -> bytes:
-    """The PDF of one revision of a batch record (A4; same context, same bytes)."""
+def render(ctx: Context, *, software_version: str, charts: bool = True,
+           issued: datetime | None = None) -> bytes:  # fmt: skip
+    """The PDF of one revision of a batch record (A4; same context and ``issued``, same
+    bytes). ``issued`` (the revision's ``as_of``) dates the document; by default
+    :func:`issued_at` of the context."""
     fonts.register()
     content_sha256 = ctx.sha256()
     h = ctx.header
@@ -111,8 +153,20 @@ def render(ctx: Context, *, software_version: str, charts: bool = True) -> bytes
                   leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0)  # fmt: skip
     on_page = pages.watermark if marks.draft else (lambda canv, doc: None)
     doc.addPageTemplates([PageTemplate(id="record", frames=[frame], onPage=on_page)])
+    canvas = pages.canvas_maker(marks)
+    at = issued if issued is not None else issued_at(ctx)
+    if at is not None:
+        stamp = pdf_date(at)
+
+        class DatedCanvas(canvas):  # type: ignore[misc, valid-type]
+            def __init__(self, *args: Any, **kwargs: Any) -> None:
+                super().__init__(*args, **kwargs)
+                # reportlab formats CreationDate and ModDate alike through this one hook.
+                self.setDateFormatter(lambda *_: stamp)
+
+        canvas = DatedCanvas
     with _binary_streams():
-        doc.build(story(ctx, content_sha256, charts), canvasmaker=pages.canvas_maker(marks))
+        doc.build(story(ctx, content_sha256, charts), canvasmaker=canvas)
     return buffer.getvalue()
 
 

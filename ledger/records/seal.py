@@ -169,6 +169,19 @@ def _pem_material(
     return key, cert, ()
 
 
+def key_and_cert(
+    key_file: Path, cert_file: Path | None, passphrase: bytes | None
+) -> tuple[Any, Any, tuple[Any, ...]]:
+    """(private key, certificate, other certificates) from the seal's key files
+    (cryptography objects), each failure named by its option."""
+    data = _read(key_file, "--key", _KEY_EXPECTED)
+    if cert_file is None:
+        key, cert, others = _pkcs12_material(data, key_file, passphrase)
+    else:
+        key, cert, others = _pem_material(data, key_file, cert_file, passphrase)
+    return key, cert, tuple(others)
+
+
 def _signer(key_file: Path, cert_file: Path | None, passphrase: bytes | None) -> Any:
     """A pyHanko SimpleSigner from the key files, each failure named by its option.
 
@@ -180,11 +193,7 @@ def _signer(key_file: Path, cert_file: Path | None, passphrase: bytes | None) ->
     from pyhanko.sign.signers import SimpleSigner
     from pyhanko_certvalidator.registry import SimpleCertificateStore
 
-    data = _read(key_file, "--key", _KEY_EXPECTED)
-    if cert_file is None:
-        key, cert, others = _pkcs12_material(data, key_file, passphrase)
-    else:
-        key, cert, others = _pem_material(data, key_file, cert_file, passphrase)
+    key, cert, others = key_and_cert(key_file, cert_file, passphrase)
     der = serialization.Encoding.DER
     pkcs8 = key.private_bytes(der, serialization.PrivateFormat.PKCS8, serialization.NoEncryption())
     store = SimpleCertificateStore()

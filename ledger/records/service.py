@@ -106,7 +106,10 @@ def approved_record(session: Session, run_id: int, number: int | None = None) ->
 
 
 def _issue(session: Session, actor: UserAccount, run: Run) -> RecordRevision:
-    head = session.get(AuditHead, 1)
+    # Locked, and the session's first read of the head: an unlocked get() here would keep a
+    # stale seq in the identity map, which the Journal's FOR UPDATE does not refresh, so on
+    # PostgreSQL a concurrent writer's event made the issue event reuse its seq.
+    head = session.exec(select(AuditHead).where(AuditHead.id == 1).with_for_update()).first()
     journal = Journal(session, actor.login)
     assert run.id is not None
     number = len(revisions(session, run.id)) + 1

@@ -36,6 +36,7 @@ ALLOWED: dict[str, frozenset[str]] = {
     "abort": frozenset({"planned", "in_progress", "finished"}),
     "approve_plan": frozenset({"planned"}),
     "void_log": frozenset({"in_progress", "finished"}),
+    "step": frozenset({"in_progress"}),
 }
 NEXT: dict[str, str] = {
     "planned": "have the plan approved (run approve-plan), then start the run (run start)",
@@ -49,7 +50,7 @@ NEXT: dict[str, str] = {
 }
 WORDS = {"close_deviation": "close a deviation of", "qc": "enter QC results for",
          "import": "import a skid log into", "void_log": "void a skid log of",
-         "approve_plan": "approve the plan of"}  # fmt: skip
+         "approve_plan": "approve the plan of", "step": "sign a step of"}  # fmt: skip
 
 
 def refusal(action: str, status: str, label: str) -> str | None:

@@ -632,6 +632,7 @@ def summarize(
                     f"range {r.name}", f"phase {r.phase!r} is not in the log (phases: {known})"
                 )
             )
+    log.settle()  # a SHA-256 computed while this function ran
     return Summary(
         source=log.source,
         sha256=log.sha256,

@@ -34,6 +34,7 @@ from ledger.store.tables import (
     Run,
     Setting,
     SkidLogFile,
+    SkidLogPart,
     UserAccount,
     WaterFluxTest,
 )
@@ -271,44 +272,43 @@ def import_log(
     session: Session,
     actor: UserAccount,
     run_id: int,
-    path: str | Path,
+    paths: str | Path | Sequence[str | Path],
     mapping_path: str | Path | None,
     windows: Sequence[object] = (),
 ) -> tuple[SkidLogFile, bool]:
-    """Attach the skid log and compute its actuals. The same file again changes nothing
-    (returns it with False); a different file needs the first one voided."""
+    """Attach the skid log and compute its actuals. A log split over several files is given
+    as their paths in time order: they are read and joined (an overlap or a gap between them
+    is refused), the first is kept in the log's own row and each later one in a
+    ``SkidLogPart``, byte for byte. The same files again (equal SHA-256s in the same order)
+    change nothing (returns the log with False); different files need the log voided first."""
     import hashlib
 
     from ledger.runs.actuals import ChannelLimit, Geometry, PhaseWindow, summarize
-    from ledger.runs.skidlog import read_log
+    from ledger.runs.skidlog import MAX_BYTES, read_logs
+    from ledger.userfiles import read_user_file
 
     require_role(actor, RECORDERS, "import skid logs")
     run = get_run(session, run_id, lock=True)
     _allow(run, "import")
-    from ledger.runs.skidlog import MAX_BYTES
-    from ledger.userfiles import read_user_file
-
-    path = Path(path)
-    content = read_user_file(path, "file", MAX_BYTES)
-    digest = hashlib.sha256(content).hexdigest()
-    existing = session.exec(
-        select(SkidLogFile).where(
-            SkidLogFile.run_id == run_id,
-            SkidLogFile.voided_at.is_(None),  # type: ignore[union-attr]
-        )
-    ).first()
+    files = [Path(paths)] if isinstance(paths, (str, Path)) else [Path(p) for p in paths]
+    if not files:
+        raise InputError("no skid log file given", field="file", expected="one or more files")
+    contents = [read_user_file(f, "file", MAX_BYTES) for f in files]
+    digests = [hashlib.sha256(b).hexdigest() for b in contents]
+    existing = skid_log(session, run_id)
     if existing is not None:
-        if existing.sha256 == digest:
+        if [f["sha256"] for f in log_files(existing)] == digests:
             return existing, False
         raise RefusedError(
-            f"{label(run)} already has skid log {existing.file_name} (sha256 "
+            f"{label(run)} already has skid log {' + '.join(log_names(existing))} (sha256 "
             f"{existing.sha256[:12]}); void it first (fluxledger void skid-log "
             f"{existing.id} --reason ...)",
             field="run",
             value=run_id,
         )
     mapping, skid_code, version = _mapping_of(session, run, mapping_path)
-    log = read_log(path, mapping)
+    log = read_logs(files, mapping, digest=False)  # hashed above, from the bytes kept
+    log.stamp(digests)
     from datetime import timedelta
 
     journal = Journal(session, actor.login)
@@ -320,9 +320,9 @@ def import_log(
         raise InputError(
             f"the skid log does not belong to {label(run)}: {outside}",
             field="file",
-            value=path.name,
+            value=" + ".join(f.name for f in files),
             expected="a log recorded between the run's start and finish",
-            source=str(path),
+            source=str(files[0]) if len(files) == 1 else None,
         )
     module = session.get(Module, run.module_id)
     mtype = session.get(ModuleType, module.type_id) if module else None
@@ -350,13 +350,20 @@ def import_log(
 
         summary.warnings += calibration_warnings(session, run.skid_id, log.start, mapping.channels)
     summary.assumptions.append(_phase_source(typed, mapping, skid_code, version))
+    # The later files are listed in the log's own row before it is hashed, so that its record
+    # hash covers each by its SHA-256 (audit verify checks the part rows against this list).
+    listed = [
+        {"position": i, "file_name": f.name, "sha256": d, "size_bytes": len(b)}
+        for i, (f, d, b) in enumerate(zip(files, digests, contents, strict=True), start=1)
+    ]
     record = journal.create(
         SkidLogFile(
             run_id=run_id,
-            file_name=path.name,
-            sha256=digest,
-            size_bytes=len(content),
-            content=content,
+            file_name=files[0].name,
+            sha256=digests[0],
+            size_bytes=len(contents[0]),
+            content=contents[0],
+            parts=listed[1:] or None,
             mapping_text=mapping.text,
             mapping_sha256=mapping.sha256,
             windows=[
@@ -371,7 +378,34 @@ def import_log(
         module_id=run.module_id,
         reason=f"skid log of {label(run)}",
     )
+    for entry, data in zip(listed[1:], contents[1:], strict=True):
+        session.add(SkidLogPart(log_id=record.id, content=data, **entry))  # type: ignore[arg-type]
+    session.flush()
     return record, True
+
+
+def log_files(log: SkidLogFile) -> list[dict[str, Any]]:
+    """The files of a skid log in the order they were joined: position (from 1), file_name,
+    sha256 and size_bytes of each; one entry for a log in one file."""
+    first = {"position": 1, "file_name": log.file_name, "sha256": log.sha256,
+             "size_bytes": log.size_bytes}  # fmt: skip
+    return [first, *(dict(p) for p in log.parts or [])]
+
+
+def log_names(log: SkidLogFile) -> list[str]:
+    """The file names of a skid log, in the order they were joined."""
+    return [str(f["file_name"]) for f in log_files(log)]
+
+
+def log_contents(session: Session, log: SkidLogFile) -> list[tuple[str, bytes]]:
+    """(file name, bytes) of each file of a skid log, in the order they were joined."""
+    out = [(log.file_name, bytes(log.content))]
+    if log.parts:
+        rows = session.exec(
+            select(SkidLogPart).where(SkidLogPart.log_id == log.id).order_by(SkidLogPart.position)  # type: ignore[arg-type]
+        ).all()
+        out += [(r.file_name, bytes(r.content)) for r in rows]
+    return out
 
 
 def _mapping_of(
@@ -510,6 +544,55 @@ def skid_log(session: Session, run_id: int) -> SkidLogFile | None:
     ).first()
 
 
+def deviation_classes(session: Session) -> tuple[str, ...]:
+    """The site's classification words for deviations (default minor, major, critical)."""
+    from ledger.rules.deviations import CLASSES_SETTING, DEFAULT_CLASSES, parse_classes
+
+    row = session.get(Setting, CLASSES_SETTING)
+    if row is None:
+        return DEFAULT_CLASSES
+    parsed = parse_classes(row.value)
+    return parsed if isinstance(parsed, tuple) else DEFAULT_CLASSES
+
+
+def set_deviation_classes(
+    session: Session, actor: UserAccount, text: str, reason: str
+) -> tuple[str, ...]:
+    """QA renames the classification words (audited); words in use on open deviations stay
+    valid only if kept."""
+    from ledger.rules.deviations import CLASSES_SETTING, parse_classes
+
+    require_role(actor, frozenset({"qa"}), "set the deviation classes")
+    reason = required("reason", reason, "why the classes change", kind="text")
+    parsed = parse_classes(text)
+    if isinstance(parsed, str):
+        raise InputError(
+            f"--set {text!r}: {parsed}", field="set", value=text,
+            expected="classification words separated by commas, e.g. minor,major,critical",
+        )  # fmt: skip
+    journal = Journal(session, actor.login)
+    row = session.get(Setting, CLASSES_SETTING)
+    value = ",".join(parsed)
+    if row is None:
+        journal.create(Setting(key=CLASSES_SETTING, value=value), reason=reason)
+    else:
+        journal.change(row, {"value": value}, reason=reason)
+    return parsed
+
+
+def _classification(session: Session, given: str | None) -> str | None:
+    if given is None:
+        return None
+    classes = deviation_classes(session)
+    word = given.strip().lower()
+    if word not in classes:
+        raise InputError(
+            f"--class {given!r} is not one of the site's deviation classes",
+            field="class", value=given, expected="one of " + ", ".join(classes),
+        )  # fmt: skip
+    return word
+
+
 def add_deviation(
     session: Session,
     actor: UserAccount,
@@ -518,7 +601,10 @@ def add_deviation(
     *,
     check: str | None = None,
     impact: str | None = None,
+    classification: str | None = None,
 ) -> Deviation:
+    """Record a deviation (operator, engineer or QA); its classification and impact
+    assessment may come now or with its closure."""
     require_role(actor, RECORDERS, "record deviations")
     run = get_run(session, run_id, lock=True)
     _allow(run, "deviation")
@@ -526,6 +612,7 @@ def add_deviation(
         "description", description, "what departed from the plan, and why", kind="text"
     )
     impact = optional("impact", impact, "the deviation's impact on the product")
+    word = _classification(session, classification)
     if check is not None:
         names = {c.name for c in checks_of(session, run)}
         if check not in names:
@@ -538,15 +625,26 @@ def add_deviation(
     number = len(deviations(session, run_id)) + 1
     return Journal(session, actor.login).create(
         Deviation(run_id=run_id, number=number, check_name=check, description=description,
-                  impact=impact),
+                  impact=impact, classification=word),
         module_id=run.module_id,
     )  # fmt: skip
 
 
 def close_deviation(
-    session: Session, actor: UserAccount, run_id: int, number: int, closure: str
+    session: Session,
+    actor: UserAccount,
+    run_id: int,
+    number: int,
+    closure: str,
+    *,
+    impact: str | None = None,
+    classification: str | None = None,
 ) -> Deviation:
-    require_role(actor, DECIDERS, "close deviations")
+    """QA closes a deviation: it needs a classification and an impact assessment (given
+    before or now) and the investigation's conclusion."""
+    from ledger.rules.deviations import CLOSERS, closure_problems
+
+    require_role(actor, CLOSERS, "close deviations")
     run = get_run(session, run_id, lock=True)
     _allow(run, "close_deviation")
     closure = required(
@@ -562,13 +660,22 @@ def close_deviation(
         )
     if found.closed_at is not None:
         raise RefusedError(f"deviation {number} of {label(run)} is already closed", field="number")
+    word = _classification(session, classification) or found.classification
+    impact = optional("impact", impact, "the deviation's impact on the product") or found.impact
+    problems = closure_problems(word, impact, deviation_classes(session))
+    if problems:
+        raise RefusedError(
+            f"deviation {number} of {label(run)} cannot be closed: " + "; ".join(problems),
+            field="number", value=number,
+        )  # fmt: skip
     journal = Journal(session, actor.login)
     journal.change(
         found,
-        {"closed_at": journal.at, "closed_by": actor.login, "closure": closure},
-        reason="deviation closed",
+        {"closed_at": journal.at, "closed_by": actor.login, "closure": closure,
+         "impact": impact, "classification": word},
+        reason="deviation closed by QA",
         module_id=run.module_id,
-    )
+    )  # fmt: skip
     return found
 
 

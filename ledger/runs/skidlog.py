@@ -36,6 +36,12 @@ from ledger.runs.dialect import Dialect, check_units_row, decode, detect_encodin
 from ledger.runs.mapping import CHANNEL_KINDS, DEFAULT_DENSITY, ChannelMap, Mapping
 from ledger.userfiles import check_user_file
 
+# Cells read as missing: the default NA strings of pandas.read_csv (as its documentation
+# lists them), which the importer used before it called pyarrow's reader itself.
+NULL_VALUES = [
+    "", "#N/A", "#N/A N/A", "#NA", "-1.#IND", "-1.#QNAN", "-NaN", "-nan", "1.#IND",
+    "1.#QNAN", "<NA>", "N/A", "NA", "NULL", "NaN", "None", "n/a", "nan", "null",
+]  # fmt: skip
 GAP_FACTOR = 5.0  # a step over 5 median sample intervals is a gap, unless the mapping says
 CHUNK = 1 << 20  # bytes per read when hashing
 EPOCH = datetime(1970, 1, 1, tzinfo=UTC)
@@ -92,6 +98,23 @@ class SkidLog:
     dialect: Dialect | None = None  # of the (first) file
     unmapped_labels: list[str] = field(default_factory=list)  # step labels [phases] lacks
     files: list[LogFile] = field(default_factory=list)  # in the order they were joined
+    # A SHA-256 still being computed on another thread (read_log(wait=False)); settle() waits.
+    pending: Any = field(default=None, repr=False, compare=False)
+
+    def settle(self) -> SkidLog:
+        """Wait for a pending SHA-256 and fill it in (here and in the one file); the log."""
+        if self.pending is not None:
+            value = self.pending.result()
+            self.pending = None
+            self.stamp([value])
+        return self
+
+    def stamp(self, digests: Sequence[str]) -> None:
+        """Set the files' SHA-256 (in order) and the log's: the file's own for one file, for
+        several a SHA-256 over their SHA-256s, one per line."""
+        self.files = [dataclasses.replace(f, sha256=d) for f, d in zip(self.files, digests,
+                                                                        strict=True)]  # fmt: skip
+        self.sha256 = joined_sha256(digests)
 
     def __post_init__(self) -> None:
         if self.median_step_s is None:
@@ -99,6 +122,13 @@ class SkidLog:
         if self.phases is not None and self.phase_codes is None:
             _, codes = np.unique(self.phases.astype(str), return_inverse=True)
             self.phase_codes = codes.reshape(-1)
+
+
+def joined_sha256(digests: Sequence[str | None]) -> str | None:
+    """The SHA-256 of a log: its one file's, or one over several files' SHA-256s."""
+    if len(digests) == 1:
+        return digests[0]
+    return hashlib.sha256("\n".join(d or "" for d in digests).encode()).hexdigest()
 
 
 def file_sha256(path: Path) -> str:
@@ -215,8 +245,12 @@ class _Where:
         )
 
 
-def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> SkidLog:
-    """Read the log at ``path`` through ``mapping``; ``digest`` records its SHA-256."""
+def read_log(
+    path: str | Path, mapping: Mapping, *, digest: bool = True, wait: bool = True
+) -> SkidLog:
+    """Read the log at ``path`` through ``mapping``; ``digest`` records its SHA-256. With
+    ``wait`` False the SHA-256 is still being computed when the log is returned, so that it
+    overlaps what the caller does next (summarize settles it at its end)."""
     path = check_user_file(path, "file", MAX_BYTES, as_source=True)
     where: _Namer
     if _is_workbook(path):
@@ -278,7 +312,7 @@ def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> Skid
             assumptions.append("permeate density 1.0 g/mL assumed (the mapping gives none)")
         else:
             density = given
-    sha256 = hashing.result() if hashing else None
+    sha256 = hashing.result() if hashing and wait else None
     return SkidLog(
         source=str(path),
         sha256=sha256,
@@ -294,6 +328,7 @@ def read_log(path: str | Path, mapping: Mapping, *, digest: bool = True) -> Skid
         dialect=dialect,
         unmapped_labels=unmapped,
         files=[LogFile(path.name, sha256, n, dialect)],
+        pending=hashing if hashing and not wait else None,
     )
 
 
@@ -301,34 +336,44 @@ def _read(text: _Text, header: list[str], mapping: Mapping) -> tuple[Any, Except
     """The mapped columns, their types as pyarrow infers them (so that "true" or "12 psi" in
     a number column stays text and is refused below, not cast to a number).
 
-    If pandas cannot convert a column (an integer column with an empty cell), read every
-    column as text instead, so that the checks below name the first bad cell and its line;
-    the exception comes back with it.
+    pyarrow's own CSV reader, then its conversion to a pandas frame: the same columns and
+    types as ``pandas.read_csv(engine="pyarrow")``, without the cost pandas adds for
+    ``usecols``. If a column cannot be converted (an integer column with an empty cell),
+    every column is read as text instead, so that the checks below name the first bad cell
+    and its line; the exception comes back with it.
     """
-    import pandas as pd
+    import pyarrow as pa  # type: ignore[import-untyped]
+    import pyarrow.csv as pacsv  # type: ignore[import-untyped]
 
     wanted = [mapping.time_column] + [c.column for c in mapping.channels.values()]
     if mapping.date_column:
         wanted.append(mapping.date_column)
-    # (phase labels need no "str" dtype: pandas would cast the column again, and _labels
-    # takes labels of any type)
-    dtypes = {}
+    wanted = list(dict.fromkeys(wanted))
+    # (phase labels need no string type: _labels takes labels of any type)
+    types: dict[str, Any] = {}
     if mapping.time_format or mapping.date_column:
-        dtypes[mapping.time_column] = "str"  # or pyarrow would guess ISO 8601 itself
+        types[mapping.time_column] = pa.string()  # or pyarrow would guess ISO 8601 itself
     if mapping.date_column:
-        dtypes[mapping.date_column] = "str"
+        types[mapping.date_column] = pa.string()
     d = text.dialect
-    options: dict[str, Any] = {"engine": "pyarrow", "usecols": wanted}
-    if d.delimiter != ",":
-        options["sep"] = d.delimiter
-    if d.decimal != ".":
-        options["decimal"] = d.decimal
+    parse = pacsv.ParseOptions(delimiter=d.delimiter)
+
+    def read(column_types: dict[str, Any]) -> Any:
+        convert = pacsv.ConvertOptions(
+            include_columns=wanted, column_types=column_types, decimal_point=d.decimal,
+            strings_can_be_null=True, null_values=NULL_VALUES,
+        )  # fmt: skip
+        source = text.buffer()
+        table = pacsv.read_csv(source if not isinstance(source, Path) else str(source),
+                               parse_options=parse, convert_options=convert)  # fmt: skip
+        return table.to_pandas()
+
     try:
-        return pd.read_csv(text.buffer(), dtype=dtypes, **options), None
-    # pandas and pyarrow report bad cells and malformed CSV with several error types
+        return read(types), None
+    # pyarrow reports bad cells and malformed CSV with several error types
     except Exception as exc:
         try:
-            return pd.read_csv(text.buffer(), dtype="str", **options), exc
+            return read(dict.fromkeys(wanted, pa.string())), exc
         except Exception:
             raise _unparseable(text, header, exc) from None
 
@@ -606,7 +651,11 @@ def _numbers(col: Any, column: str, where: _Namer) -> NDArray[np.float64]:
 def _check_si(si: NDArray[np.float64], cmap: ChannelMap, where: _Namer) -> None:
     """Refuse a value whose SI conversion is not finite or outside units.SI_MIN..SI_MAX."""
     magnitude = np.abs(si)
-    outside = (magnitude < units.SI_MIN) | (magnitude > units.SI_MAX)
+    small = magnitude < units.SI_MIN
+    # The common case in two passes: nothing too large (NaN fails <=) and nothing too small.
+    if magnitude.max() <= units.SI_MAX and not (small.any() and (si[small] != 0).any()):
+        return
+    outside = small | (magnitude > units.SI_MAX)
     bad = ~np.isfinite(si) | ((si != 0) & outside)
     if bad.any():
         i = int(np.argmax(bad))
@@ -722,7 +771,7 @@ def _strptime(col: Any, fmt: str, source: str) -> Any:
     """Parse with pyarrow's strptime (fast); if it cannot read every row (e.g. %f, which it
     lacks), pandas parses the column with the full strptime."""
     import pandas as pd
-    import pyarrow as pa  # type: ignore[import-untyped]
+    import pyarrow as pa
     import pyarrow.compute as pc  # type: ignore[import-untyped]
 
     utc = "%z" in fmt
@@ -791,15 +840,17 @@ def _localize(index: Any, mapping: Mapping, where: _Namer) -> Any:
         ) from None
 
 
-def read_logs(paths: Sequence[str | Path], mapping: Mapping, *, digest: bool = True) -> SkidLog:
+def read_logs(
+    paths: Sequence[str | Path], mapping: Mapping, *, digest: bool = True, wait: bool = True
+) -> SkidLog:
     """Several files of one run, read in the order given and joined into one log. A file that
     starts before the one before it ends is refused naming both; the step between files is
     checked like any other (the mapping's max_gap, else 5 x the median interval)."""
     if not paths:
         raise InputError("no skid log file given", field="file", expected="one or more files")
+    if len(paths) == 1:
+        return read_log(paths[0], mapping, digest=digest, wait=wait)
     logs = [read_log(p, mapping, digest=digest) for p in paths]
-    if len(logs) == 1:
-        return logs[0]
     first = logs[0]
     times = [first.time_s]
     for before, log in itertools.pairwise(logs):
@@ -836,7 +887,7 @@ def read_logs(paths: Sequence[str | Path], mapping: Mapping, *, digest: bool = T
     if first.phases is not None:
         phases = np.concatenate([log.phases for log in logs if log.phases is not None])
     files = [f for log in logs for f in log.files]
-    joined = hashlib.sha256("\n".join(f.sha256 or "" for f in files).encode()).hexdigest()
+    joined = joined_sha256([f.sha256 for f in files])
     unmapped = sorted({label for log in logs for label in log.unmapped_labels})
     return SkidLog(
         source=" + ".join(log.source for log in logs),

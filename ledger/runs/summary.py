@@ -30,7 +30,7 @@ def summarize_file(
     try:
         ranges = load_limits(limits) if limits else []
         files = [file] if isinstance(file, str | Path) else list(file)
-        log = read_logs(files, load_mapping(mapping))
+        log = read_logs(files, load_mapping(mapping), wait=False)
     except InputError as err:
         raise InputError(
             err.message, value=err.value, expected=err.expected, source=err.source, line=err.line

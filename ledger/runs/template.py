@@ -121,12 +121,33 @@ class Parameter:
 
 
 @dataclass(frozen=True)
+class EntrySpec:
+    """A value entered when a step is performed (``[[steps.entries]]``): a quantity of
+    ``kind`` (a kind of ledger.units.KINDS), a plain ``number`` or ``text``, shown in ``unit``,
+    with an acceptance range whose bounds are quantities or expressions of the inputs, module
+    facts and parameters (evaluated against the run's plan)."""
+
+    name: str
+    title: str
+    kind: str  # a kind of ledger.units.KINDS, "number" or "text"
+    unit: str  # display unit ("" for a number or text)
+    phase: str  # the skid-log phase it covers
+    low: Bound | None = None
+    high: Bound | None = None
+
+
+ENTRY_KINDS = ("number", "text")  # besides the kinds of ledger.units.KINDS
+_ENTRY_KEYS = {"name", "title", "kind", "unit", "low", "high", "phase"}
+
+
+@dataclass(frozen=True)
 class Step:
     operation: str
     phase: str
     title: str
     signatures: tuple[str, ...]
     text: str  # Jinja2
+    entries: tuple[EntrySpec, ...] = ()  # what is entered when the step is performed
 
 
 @dataclass(frozen=True)
@@ -373,7 +394,9 @@ class KeyLines:
             rest = line
             if scan.idle():
                 if m := _ARRAY_HEADER.match(line):
-                    path = _key_parts(m.group(1))
+                    # A nested array ([[steps.entries]]) belongs to its parent's current item.
+                    parts = _key_parts(m.group(1))
+                    path = (*_indexed(parts[:-1], arrays), parts[-1])
                     arrays[path] = arrays.get(path, 0) + 1
                     table = (*path[:-1], f"{path[-1]}[{arrays[path]}]")
                     self._add(table, number)
@@ -398,6 +421,15 @@ class KeyLines:
             if parts[:end] in self.lines:
                 return self.lines[parts[:end]]
         return None
+
+
+def _indexed(parts: tuple[str, ...], arrays: Mapping[tuple[str, ...], int]) -> tuple[str, ...]:
+    """``parts`` with each array of tables named by its current item (``steps[2]``)."""
+    out: list[str] = []
+    for part in parts:
+        count = arrays.get((*out, part))
+        out.append(part if count is None else f"{part}[{count}]")
+    return tuple(out)
 
 
 def _key_parts(dotted: str) -> tuple[str, ...]:
@@ -1000,8 +1032,8 @@ class _Reader:
         seen: set[str] = set()
         for i, spec in enumerate(raw, start=1):
             key = f"steps[{i}]"
-            allowed = {"operation", "phase", "title", "signatures", "text"}
-            if self.table(key, spec, allowed, allowed) is None:
+            required = {"operation", "phase", "title", "signatures", "text"}
+            if self.table(key, spec, required | {"entries"}, required) is None:
                 continue
             before = len(self.problems)
             got: dict[str, Any] = {}
@@ -1021,9 +1053,82 @@ class _Reader:
             if phase is not None:
                 seen.add(phase)
                 self.step_phases.add(phase)
+            entries = self.entries(key, spec.get("entries", []), phase)
             if len(self.problems) == before:
-                out.append(Step(**got))
+                out.append(Step(**got, entries=entries))
         return out
+
+    def entries(self, key: str, raw: Any, phase: str | None) -> tuple[EntrySpec, ...]:
+        """A step's ``[[steps.entries]]``; each mistake noted with its line."""
+        if not isinstance(raw, list):
+            self.note(f"{key}.entries", "expected a list of entries ([[steps.entries]])", raw)
+            return ()
+        out: list[EntrySpec] = []
+        seen: set[str] = set()
+        for j, spec in enumerate(raw, start=1):
+            where = f"{key}.entries[{j}]"
+            before = len(self.problems)
+            if self.table(where, spec, _ENTRY_KEYS, {"name", "title", "kind"}) is None:
+                continue
+            name = spec.get("name")
+            if "name" in spec:
+                if not isinstance(name, str) or not _NAME.match(name):
+                    self.note(f"{where}.name", f"{name!r} is not a plain name", name,
+                              "lower-case letters, digits, _")  # fmt: skip
+                elif name in seen:
+                    self.note(f"{where}.name", f"the entry {name!r} appears twice in the step",
+                              name, "a new name")  # fmt: skip
+                else:
+                    seen.add(name)
+            title = None
+            if "title" in spec:
+                with self.collect():
+                    title = self.text(f"{where}.title", spec["title"])
+            kind = spec.get("kind")
+            if "kind" in spec and not (kind in ENTRY_KINDS or kind in units.KINDS):
+                self.note(f"{where}.kind", f"unknown kind {kind!r}", kind,
+                          "number, text or a kind of ledger.units")  # fmt: skip
+                continue
+            unit = self.entry_unit(where, kind, spec.get("unit"))
+            if spec.get("phase") is not None:
+                self.phases.append((f"{where}.phase", spec["phase"]))
+            ends: dict[str, Bound] = {}
+            if kind == "text" and ("low" in spec or "high" in spec):
+                self.note(f"{where}.{'low' if 'low' in spec else 'high'}",
+                          "a text entry has no range", None, "no low or high")  # fmt: skip
+            elif unit is not None and kind is not None:
+                # The bounds are read as a parameter's are; ``plan`` is unknown here.
+                draft = _Draft("", where, spec, unit, None if kind == "number" else kind)
+                for end in ("low", "high"):
+                    if end in spec:
+                        with self.collect():
+                            ends[end] = self.bound(f"{where}.{end}", spec[end], draft)
+            if len(self.problems) > before or unit is None or title is None:
+                continue
+            out.append(EntrySpec(str(name), title, str(kind), unit,
+                                 str(spec.get("phase") or phase), ends.get("low"),
+                                 ends.get("high")))  # fmt: skip
+        return tuple(out)
+
+    def entry_unit(self, key: str, kind: Any, unit: Any) -> str | None:
+        """The entry's display unit (its kind's by default); None with the mistake noted."""
+        if kind in ENTRY_KINDS or kind is None:
+            if unit not in (None, ""):
+                self.note(f"{key}.unit", f"a {kind or 'plain'} entry has no unit", unit, "no unit")
+                return None
+            return ""
+        if unit is None:
+            return str(units.KINDS[kind].display)
+        if not isinstance(unit, str):
+            self.note(f"{key}.unit", f"expected a unit as text, got {unit!r}", unit)
+            return None
+        try:
+            units.linear(unit, kind, field=f"{key}.unit", shown=unit)
+        except InputError as exc:
+            self.note(f"{key}.unit", exc.message.removeprefix(f"{key}.unit: "), unit,
+                      exc.expected or "")  # fmt: skip
+            return None
+        return unit
 
     def check_phases(self) -> None:
         phases = self.step_phases

@@ -45,6 +45,9 @@ class Recorded(SQLModel):
     hash_excluded: ClassVar[frozenset[str]] = frozenset({"record_hash"})
     # Columns whose values the audit trail must not repeat (it records that they changed).
     redacted: ClassVar[frozenset[str]] = frozenset()
+    # Columns a later migration added to an existing table, with the value it gave old rows:
+    # left out of the hash while they hold it, so rows hashed before still verify.
+    hash_defaults: ClassVar[dict[str, Any]] = {}
 
 
 class Voidable(Recorded):
@@ -68,6 +71,7 @@ class UserAccount(Recorded, table=True):
     __tablename__ = "user_account"
     __table_args__ = {"sqlite_autoincrement": True}
     redacted: ClassVar[frozenset[str]] = frozenset({"password_hash"})
+    hash_defaults: ClassVar[dict[str, Any]] = {"password_temporary": False}
 
     id: int | None = Field(default=None, primary_key=True)
     login: str = Field(max_length=64, unique=True)
@@ -77,6 +81,8 @@ class UserAccount(Recorded, table=True):
     active: bool = True
     failed_logins: int = 0
     locked: bool = False
+    # Set when someone other than the owner chose the password: it must be changed first.
+    password_temporary: bool = False
 
 
 class Setting(Recorded, table=True):
@@ -315,6 +321,7 @@ class SkidLogFile(Voidable, table=True):
     __table_args__ = {"sqlite_autoincrement": True}
     # The content hash covers the file by its SHA-256; the audit trail does not repeat it.
     redacted: ClassVar[frozenset[str]] = frozenset({"content"})
+    hash_defaults: ClassVar[dict[str, Any]] = {"parts": None}
 
     id: int | None = Field(default=None, primary_key=True)
     run_id: int = Field(foreign_key="run.id", index=True)
@@ -325,8 +332,26 @@ class SkidLogFile(Voidable, table=True):
     mapping_text: str
     mapping_sha256: str = Field(max_length=64)
     windows: list[dict[str, str]] | None = Field(default=None, sa_type=JSON)  # phase windows
+    # Later files of a log split over several (name, sha256, bytes each); None for one file.
+    parts: list[dict[str, Any]] | None = Field(default=None, sa_type=JSON)
     rows: int
     actuals: dict[str, Any] = Field(sa_type=JSON)  # ledger.runs.actuals.Summary.to_record()
+
+
+class SkidLogPart(SQLModel, table=True):
+    """The second and later files of a skid log split over several files, byte for byte.
+
+    The first file is the log's own ``content``; the log's record hash covers each part by
+    its SHA-256 through ``SkidLogFile.parts``."""
+
+    __tablename__ = "skid_log_part"
+
+    log_id: int = Field(foreign_key="skid_log_file.id", primary_key=True)
+    position: int = Field(primary_key=True, sa_column_kwargs={"autoincrement": False})
+    file_name: str
+    sha256: str = Field(max_length=64)
+    size_bytes: int
+    content: bytes = Field(sa_type=LargeBinary)
 
 
 class QcResult(Voidable, table=True):
@@ -353,10 +378,39 @@ class Deviation(Recorded, table=True):
     number: int  # 1, 2, ... within the run
     check_name: str | None = Field(default=None, max_length=64)  # the check it explains
     description: str
+    # minor, major, critical, or the site's own words (setting "deviation.classes")
+    classification: str | None = Field(default=None, max_length=32)
+    hash_defaults: ClassVar[dict[str, Any]] = {"classification": None}
     impact: str | None = None
     closed_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
     closed_by: str | None = Field(default=None, max_length=64)
     closure: str | None = None
+
+
+class StepEntry(Voidable, table=True):
+    """One signature on one step of a run's master record, given when the step was done:
+    ``performed`` carries the values entered at the step; ``verified`` (by a second person)
+    confirms them. ``done_at`` is when the work was done; later than ``created_at`` by more
+    than the site's allowance, the entry is ``late``."""
+
+    __tablename__ = "step_entry"
+    __table_args__ = (
+        Index("ix_step_entry_run_step", "run_id", "step"),
+        {"sqlite_autoincrement": True},
+    )
+
+    id: int | None = Field(default=None, primary_key=True)
+    run_id: int = Field(foreign_key="run.id")
+    step: int  # the step's number in the template, from 1
+    meaning: str = Field(max_length=16)  # performed, verified
+    login: str = Field(max_length=64)
+    full_name: str
+    # As entered: [{"name", "text" (as typed), "unit" (as typed), "si", "low", "high" (SI,
+    # may be null), "in_range" (bool or null)}]
+    values: list[dict[str, Any]] | None = Field(default=None, sa_type=JSON)
+    done_at: datetime = Field(sa_type=UTCDateTime)
+    late: bool = False
+    deviation_number: int | None = None  # the deviation that explains an out-of-range value
 
 
 class RecordRevision(Recorded, table=True):
@@ -437,6 +491,10 @@ class AuditHead(SQLModel, table=True):
     id: int = Field(default=1, primary_key=True, sa_column_kwargs={"autoincrement": False})
     seq: int
     hash: str = Field(max_length=64)
+    # Which site key the chain is under (a fingerprint, never the key) and a MAC over
+    # (seq, hash) under that key, so a head moved back to an earlier event is noticed.
+    key_id: str | None = Field(default=None, max_length=64)
+    mac: str | None = Field(default=None, max_length=64)
 
 
 # Audited record tables by entity name (the name used in audit events and on the CLI).
@@ -456,6 +514,7 @@ RECORDS: dict[str, type[Recorded]] = {
     "skid_log_file": SkidLogFile,
     "qc_result": QcResult,
     "deviation": Deviation,
+    "step_entry": StepEntry,
     "record_revision": RecordRevision,
     "signature": Signature,
 }

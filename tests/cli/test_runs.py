@@ -158,8 +158,21 @@ def test_a_fail_needs_a_deviation_before_review(world: World) -> None:
     world.ok(world.as_user("op.kim", "run", "deviation", "1", "--check", "ph",
                            "--description", "pH 8.4: buffer lot out of range"))  # fmt: skip
     assert world.as_user("op.kim", "run", "close-deviation", "1", "1", "--closure", "x").code == 3
-    world.ok(world.as_user("qa.lin", "run", "close-deviation", "1", "1", "--closure",
-                           "buffer lot rejected; product reprocessed"))  # fmt: skip
+    # Closing is QA's: an engineer is refused; QA needs a class and an impact assessment.
+    engineer = world.as_user("eng.ray", "run", "close-deviation", "1", "1", "--closure", "x")
+    assert engineer.code == 3 and "may not close deviations" in engineer.stderr
+    bare = world.as_user("qa.lin", "run", "close-deviation", "1", "1", "--closure", "x")
+    assert bare.code == 3
+    assert "no classification (--class minor | major | critical)" in bare.stderr
+    assert "no impact assessment (--impact)" in bare.stderr
+    wrong = world.as_user("qa.lin", "run", "close-deviation", "1", "1", "--closure", "x",
+                          "--class", "tiny")  # fmt: skip
+    assert wrong.code == 2 and "--class 'tiny' is not one of" in wrong.stderr
+    closed = world.as_user("qa.lin", "run", "close-deviation", "1", "1", "--closure",
+                           "buffer lot rejected; product reprocessed", "--class", "Major",
+                           "--impact", "lot reprocessed; no release impact")  # fmt: skip
+    world.ok(closed)
+    assert "deviation 1 (major) closed by qa.lin" in closed.stdout
     world.ok(world.as_user("op.kim", "run", "submit", "1"))
     shown = world.cli("run", "show", "1", "--json").json()
     assert shown["run_1"]["status"] == "in_review"
@@ -236,3 +249,20 @@ def test_a_bad_skid_log_writes_nothing(world: World, tmp_path: Path) -> None:
     )
     assert "Traceback" not in out.stderr
     assert world.snapshot() == before
+
+
+def test_qa_renames_the_deviation_classes_and_only_qa(world: World) -> None:
+    shown = world.cli("run", "deviation-classes", "--json").json()
+    assert shown["deviation_classes"]["classes"] == "minor, major, critical"
+    before = world.snapshot()
+    refused = world.as_user("eng.ray", "run", "deviation-classes", "--set", "low,high",
+                            "--reason", "site SOP")  # fmt: skip
+    assert refused.code == 3 and world.snapshot() == before
+    bad = world.as_user("qa.lin", "run", "deviation-classes", "--set", "low,,high",
+                        "--reason", "site SOP")  # fmt: skip
+    assert bad.code == 2 and "an empty word" in bad.stderr and world.snapshot() == before
+    world.ok(world.as_user("qa.lin", "run", "deviation-classes", "--set", "Low,High",
+                           "--reason", "site SOP QA-014"))  # fmt: skip
+    assert "low, high" in world.cli("run", "deviation-classes").stdout
+    events = world.cli("audit", "show", "--entity", "setting", "--json").json()["events"]
+    assert any(e["reason"] == "site SOP QA-014" and e["actor"] == "qa.lin" for e in events)

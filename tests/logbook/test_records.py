@@ -140,7 +140,9 @@ def test_manual_hold_returns_to_where_it_was(world: World) -> None:
     events = world.cli("audit", "show", "--entity", "hold", "--json").json()["events"]
     decided = {e["field"]: json.loads(e["new_value"]) for e in events if e["field"]}
     assert decided["decision"] == "return" and decided["decided_by"] == "eng.ray"
-    assert decided["meaning"] == "approved"
+    # The disposition's signature means its decision, not "approved" (printed "return to
+    # service" by `module release`).
+    assert decided["meaning"] == "return"
 
 
 @pytest.mark.sqlite_only

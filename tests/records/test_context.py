@@ -74,12 +74,13 @@ def test_checks_qc_and_deviations_are_the_runs(review: World) -> None:
     ]
     assert all(q.entered_by == "op.kim" for q in ctx.qc)
     (d,) = ctx.deviations
-    assert (d.number, d.check, d.recorded_by, d.closed_by, d.closure) == (
+    assert (d.number, d.check, d.recorded_by, d.closed_by, d.closure, d.classification) == (
         1,
         "tmp",
         "op.kim",
-        "eng.ray",
+        "qa.lin",
         "line re-routed",
+        "minor",
     )
     (e,) = ctx.excursions
     assert (e.check, e.duration) == ("tmp", "24 s")

@@ -167,3 +167,13 @@ def test_sealing_needs_an_approved_revision(review_sqlite: World, tmp_path: Path
         input="x\n",
     )
     assert r.code == 3 and "not approved" in r.stderr
+
+
+def test_a_skid_log_blob_replaced_in_sql_is_named_as_such(approved: World, tmp_path: Path) -> None:
+    path = _print(approved, tmp_path)
+    with approved.engine().begin() as conn:
+        conn.execute(text("UPDATE skid_log_file SET content = :c"), {"c": b"time,FT\n0,1\n"})
+    code, out = _verify(approved, path)
+    assert code == 1, out
+    assert "was replaced in the database: its bytes no longer match the SHA-256" in out
+    assert "skid-1.csv" in out and "temporary" not in out and "parse" not in out

@@ -386,3 +386,17 @@ def test_a_column_named_twice_names_both_positions(tmp_path: Path, header: str) 
     first = HEADER.split(",").index(name) + 1
     assert err.line == 1 and err.value == name
     assert f"columns {first} and 7" in str(err)
+
+
+def test_a_digest_left_pending_is_settled_by_summarize(tmp_path: Path) -> None:
+    """read_log(wait=False) returns before the SHA-256 is done; summarize fills it in, the
+    same as hashlib's of the file, in the log, its file entry and the summary."""
+    from ledger.runs.actuals import Geometry, summarize
+
+    path = write(tmp_path / "log.csv", rows(5))
+    expected = hashlib.sha256(path.read_bytes()).hexdigest()
+    log = read_log(path, basic(), wait=False)
+    assert log.sha256 is None and log.pending is not None
+    summary = summarize(log, Geometry())
+    assert summary.sha256 == log.sha256 == log.files[0].sha256 == expected
+    assert log.pending is None

@@ -1,0 +1,248 @@
+"""SIGKILL in the middle of a command, 50 times: a skid-log import, a batch-record print, a
+signature and `init`, each killed after a seeded random delay (up to the time the same command
+took uninterrupted). After each kill the SQLite file passes `PRAGMA integrity_check`, the
+audit chain verifies, no record stands without its audit event, no half-written PDF carries
+the final name, and the same command run again completes.
+
+The commands run in child processes forked from a server that has imported the CLI
+(tests/reliability/procs.py), so a trial costs the command's own work and not a second of
+imports; the kill lands on the process doing the writing, as it would on `fluxledger`.
+"""
+
+from __future__ import annotations
+
+import random
+import sqlite3
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from sqlalchemy import select, text
+from sqlmodel import Session
+
+from ledger.store import audit
+from ledger.store.engine import connect, sqlite_path
+from ledger.store.registry import load_all
+from ledger.store.tables import RECORDS
+from tests.cli.test_runs import MAPPING
+from tests.reliability import procs
+from tests.world import PASSWORDS, World
+
+SEED = 20261203
+CREATED = text("SELECT entity_id FROM audit_event WHERE entity = :e AND action = 'create'")
+
+
+@dataclass
+class Child:
+    code: int | None
+    output: str
+    seconds: float
+
+
+@dataclass
+class Tally:
+    """What the trials of one command saw, for the assertion messages."""
+
+    killed: int = 0  # killed before it ended
+    finished: int = 0  # ended before the kill came
+    notes: list[str] = field(default_factory=list)
+
+
+def run(tmp: Path, argv: list[str], stdin: str | None = None, kill_after: float | None = None
+        ) -> Child:  # fmt: skip
+    """Run ``fluxledger ARGV`` in a child; SIGKILL it after ``kill_after`` seconds if given."""
+    ctx = procs.context()
+    out = tmp / "child.out"
+    stdin_path = None
+    if stdin is not None:
+        stdin_path = tmp / "child.in"
+        stdin_path.write_text(stdin)
+    p = ctx.Process(target=procs.run_cli, args=(argv, str(stdin_path) if stdin_path else None,
+                                                str(out)))  # fmt: skip
+    t0 = time.perf_counter()
+    p.start()
+    if kill_after is not None:
+        p.join(timeout=kill_after)
+        if p.exitcode is None:
+            p.kill()
+    p.join(timeout=120)
+    seconds = time.perf_counter() - t0
+    assert p.exitcode is not None, "the child did not end"
+    code = None if p.exitcode == -9 else p.exitcode
+    return Child(code, out.read_text() if out.exists() else "", seconds)
+
+
+def check_database(db: Path) -> None:
+    """integrity_check ok, the chain verifies, and every skid log, signature and revision has
+    its create event."""
+    con = sqlite3.connect(db)
+    try:
+        assert con.execute("PRAGMA integrity_check").fetchall() == [("ok",)]
+    finally:
+        con.close()
+    engine = connect(f"sqlite:///{db}")
+    load_all()
+    try:
+        with Session(engine) as s:
+            result = audit.verify(s)
+            assert result.ok, result.problems
+            for entity, record in RECORDS.items():  # every record has its create event
+                table = record.__table__  # type: ignore[attr-defined]
+                (key,) = table.primary_key.columns
+                rows = s.execute(select(key)).scalars().all()
+                created = s.execute(CREATED, {"e": entity}).scalars().all()
+                assert sorted(str(r) for r in rows) == sorted(created), entity
+    finally:
+        engine.dispose()
+
+
+def trials(
+    n: int,
+    tmp: Path,
+    seed: int,
+    fresh: Callable[[int], tuple[list[str], str | None]],
+    after: Callable[[int, Child, Child], None],
+) -> Tally:
+    """Calibrate on one uninterrupted run, then ``n`` killed runs each followed by the checks
+    and a run to completion; ``fresh(i)`` prepares trial i and returns the command."""
+    rng = random.Random(seed)
+    argv, stdin = fresh(-1)
+    whole = run(tmp, argv, stdin)
+    assert whole.code == 0, whole.output
+    tally = Tally()
+    for i in range(n):
+        argv, stdin = fresh(i)
+        killed = run(tmp, argv, stdin, kill_after=rng.uniform(0.0, whole.seconds))
+        if killed.code is None:
+            tally.killed += 1
+        else:
+            tally.finished += 1
+        again = run(tmp, argv, stdin)
+        after(i, killed, again)
+    return tally
+
+
+def _copy(w: World, dest: Path) -> Path:
+    """A copy of the world's settled SQLite file (WAL folded in), for one trial."""
+    src = sqlite_path(w.url)
+    assert src is not None
+    con = sqlite3.connect(src)
+    try:
+        out = sqlite3.connect(dest)
+        con.backup(out)
+        out.close()
+    finally:
+        con.close()
+    return dest
+
+
+def _count(db: Path, sql: str) -> int:
+    con = sqlite3.connect(db)
+    try:
+        return int(con.execute(sql).fetchone()[0])
+    finally:
+        con.close()
+
+
+def test_killed_skid_log_imports(started_world: World, tmp_path: Path) -> None:
+    log = tmp_path / "skid-1.csv"
+    dbs: dict[int, Path] = {}
+
+    def fresh(i: int) -> tuple[list[str], str | None]:
+        dbs[i] = _copy(started_world, tmp_path / f"import-{i + 1}.db")
+        return (["run", "import", "1", str(log), "--mapping", str(MAPPING), "--user", "op.kim",
+                 "--password-stdin", "--db", str(dbs[i])], PASSWORDS["op.kim"] + "\n")  # fmt: skip
+
+    def after(i: int, killed: Child, again: Child) -> None:
+        assert again.code == 0, again.output
+        check_database(dbs[i])
+        assert _count(dbs[i], "SELECT count(*) FROM skid_log_file WHERE voided_at IS NULL") == 1
+
+    tally = trials(14, tmp_path, SEED, fresh, after)
+    assert tally.killed >= 7, tally
+
+
+def test_killed_record_prints(review_world: World, tmp_path: Path) -> None:
+    out = tmp_path / "pdf"
+    out.mkdir()
+    reference: list[bytes] = []
+
+    def fresh(i: int) -> tuple[list[str], str | None]:
+        for f in out.iterdir():
+            f.unlink()
+        return ["record", "print", "1", "--out", str(out / "BR-1.pdf"), "--force",
+                "--db", review_world.url], None  # fmt: skip
+
+    def after(i: int, killed: Child, again: Child) -> None:
+        assert again.code == 0, again.output
+        final = out / "BR-1.pdf"
+        data = final.read_bytes()
+        assert data.startswith(b"%PDF-") and data.rstrip().endswith(b"%%EOF")
+        if reference:
+            assert data == reference[0]  # the same content gives the same bytes
+        else:
+            reference.append(data)
+
+    # The kill's own leftovers are looked at before the repeat overwrites the final name.
+    rng = random.Random(SEED + 1)
+    argv, _ = fresh(-1)
+    whole = run(tmp_path, argv)
+    assert whole.code == 0, whole.output
+    reference.append((out / "BR-1.pdf").read_bytes())
+    killed_count = 0
+    for i in range(12):
+        argv, _ = fresh(i)
+        killed = run(tmp_path, argv, kill_after=rng.uniform(0.0, whole.seconds))
+        final = out / "BR-1.pdf"
+        if killed.code is None:
+            killed_count += 1
+        if final.exists():  # only ever the whole file under its final name
+            assert final.read_bytes() == reference[0]
+        check_database(sqlite_path(review_world.url))  # type: ignore[arg-type]
+        again = run(tmp_path, argv)
+        after(i, killed, again)
+    assert killed_count >= 6, killed_count
+    # A temporary ".BR-1.pdf.*.part" may stay behind after SIGKILL; it never has the final name.
+    assert all(f.name.startswith(".BR-1.pdf.") for f in out.iterdir() if f.name != "BR-1.pdf")
+
+
+def test_killed_signatures(review_world: World, tmp_path: Path) -> None:
+    dbs: dict[int, Path] = {}
+
+    def fresh(i: int) -> tuple[list[str], str | None]:
+        dbs[i] = _copy(review_world, tmp_path / f"sign-{i + 1}.db")
+        return (["record", "sign", "1", "--meaning", "performed", "--user", "op.kim",
+                 "--password-stdin", "--db", str(dbs[i])], PASSWORDS["op.kim"] + "\n")  # fmt: skip
+
+    def after(i: int, killed: Child, again: Child) -> None:
+        signed = "SELECT count(*) FROM signature WHERE run_id = 1 AND meaning = 'performed'"
+        if again.code == 3:  # the first one had committed before it ended or was killed
+            assert killed.code in (None, 0), killed.output
+            assert "already signed as performed" in again.output, again.output
+        else:
+            assert killed.code is None and again.code == 0, (killed, again)
+        check_database(dbs[i])
+        assert _count(dbs[i], signed) == 1
+        assert _count(dbs[i], "SELECT count(*) FROM record_revision WHERE run_id = 1") == 1
+
+    tally = trials(12, tmp_path, SEED + 2, fresh, after)
+    assert tally.killed >= 6, tally
+
+
+def test_killed_inits(tmp_path: Path) -> None:
+    dbs: dict[int, Path] = {}
+    password = PASSWORDS["sysadm"]
+
+    def fresh(i: int) -> tuple[list[str], str | None]:
+        dbs[i] = tmp_path / f"init-{i + 1}.db"
+        return (["init", "--admin", "sysadm", "--name", "Ida Brandt", "--password-stdin",
+                 "--db", str(dbs[i])], f"{password}\n{password}\n")  # fmt: skip
+
+    def after(i: int, killed: Child, again: Child) -> None:
+        assert again.code == 0, again.output
+        check_database(dbs[i])
+        assert _count(dbs[i], "SELECT count(*) FROM user_account WHERE login = 'sysadm'") == 1
+
+    tally = trials(12, tmp_path, SEED + 3, fresh, after)
+    assert tally.killed >= 6, tally
