@@ -4,13 +4,17 @@ their units, a changed field as old → new, a void with its reason.
 Stored values are SI and carry their unit in the column name (``tmp_pa``, ``flow_m3_s``) or
 in a sibling column (``concentration`` with ``concentration_unit``); they are shown in the
 trade's units with at most six significant digits, so 499.99999999999994 mol/m³ reads
-"0.5 mol/L". A value longer than ``MAX_VALUE`` characters is cut at a word boundary and says
+"0.5 mol/L". A value a person typed (the record's ``entered`` column) is shown as typed with
+the SI value beside ("0.5 M (500 mol/m³)"); a computed one in the unit typed for its kind in
+the same record, else the site's display unit, else the kind's (:func:`ledger.units.shown`).
+A value longer than ``MAX_VALUE`` characters is cut at a word boundary and says
 where the whole value is (``audit show --json`` of that event). Pure: no database.
 """
 
 from __future__ import annotations
 
 import json
+from collections.abc import Mapping
 from typing import Any
 
 from ledger import units
@@ -32,17 +36,78 @@ SUFFIXES = (
     ("_k", "temperature"),
     ("_s", "time"),
 )
-SPELLED = {"percent": "%", "degC": "°C", "L/(m^2*h)": "LMH", "L/(m^2*h*bar)": "LMH/bar",
-           "m^2": "m²", "L/m^2": "L/m²", "g/m^2": "g/m²", "kg/m^3": "kg/m³"}  # fmt: skip
 # Bookkeeping columns a reader does not need in the one-line summary of a created record.
 QUIET = frozenset({"record_hash", "created_at", "created_by", "password_hash", "content",
-                   "template_text", "mapping_text", "plan", "actuals"})  # fmt: skip
+                   "template_text", "mapping_text", "plan", "actuals",
+                   "entered"})  # fmt: skip
+# Columns whose typed field has another name than the column without its SI ending.
+ENTERED_ALIASES = {
+    "integrity_test_pressure_pa": "test_pressure",
+    "effective_length_m": "length",
+    "lumen_diameter_m": "lumen_diameter",
+    "max_volume_loading_m": "max_loading",
+}
+# Typed fields that are no column of their own (a water test's point, a decay's start and end).
+ENTERED_KINDS = {"feed": "pressure", "retentate": "pressure", "permeate": "pressure",
+                 "start": "pressure", "end": "pressure", "flow": "flow", "volume": "volume",
+                 "time": "time"}  # fmt: skip
 _SI_KIND = {k.si: name for name, k in units.KINDS.items() if k.si}
 
 
 def number(x: float) -> str:
     """Six significant digits, no float artefacts: 0.30000000000000004 -> "0.3"."""
-    return f"{x:.6g}"
+    return units.significant(x, 6)
+
+
+def entered_key(column: str) -> str:
+    """The typed field a column holds the value of: temperature_k -> "temperature"."""
+    return ENTERED_ALIASES.get(column) or label(column).replace(" ", "_")
+
+
+def typed_units(record: Mapping[str, Any]) -> dict[str, list[str]]:
+    """Kind -> the units a person typed for quantities of that kind in ``record`` (a record's
+    columns with its ``entered``), so that a computed TMP shows in the psi typed for feed."""
+    entered = record.get("entered")
+    if not isinstance(entered, dict):
+        return {}
+    kinds = dict(ENTERED_KINDS)
+    for column in record:
+        kind = kind_of(column, record)
+        if kind is not None:
+            kinds.setdefault(entered_key(column), kind)
+    out: dict[str, list[str]] = {}
+    for key, text in entered.items():
+        unit = units.entered_unit(str(text)) if key in kinds else None
+        if unit is not None:
+            out.setdefault(kinds[key], []).append(unit)
+    return out
+
+
+def kind_of(column: str, record: Mapping[str, Any] | None = None) -> str | None:
+    """The kind of quantity a stored column holds: by its ``X_unit`` sibling, else by its SI
+    ending; None for other columns."""
+    unit = (record or {}).get(f"{column}_unit")
+    if isinstance(unit, str) and unit in _SI_KIND:
+        return _SI_KIND[unit]
+    return _kind_of(column)
+
+
+def quantity_text(
+    column: str,
+    value: float,
+    record: Mapping[str, Any] | None = None,
+    site_units: Mapping[str, str] | None = None,
+) -> str | None:
+    """A stored quantity as people read it: as typed when the record's ``entered`` has it,
+    else in the unit :func:`ledger.units.shown` picks; None if ``column`` is no quantity."""
+    rec = record or {}
+    entered = rec.get("entered")
+    text = entered.get(entered_key(column)) if isinstance(entered, dict) else None
+    kind = kind_of(column, rec)
+    if kind is None:
+        return str(text) if text else None
+    typed = typed_units(rec).get(kind, [])
+    return units.shown(float(value), kind, entered=text, site=site_units, typed=typed)
 
 
 def _kind_of(field: str) -> str | None:
@@ -63,25 +128,22 @@ def label(field: str) -> str:
     return field.replace("_", " ")
 
 
-def _quantity(value: float, kind: str) -> str:
-    k = units.KINDS[kind]
-    shown = units.from_si(value, kind)
-    return f"{number(shown)} {SPELLED.get(k.display, k.display)}"
-
-
-def value_text(field: str, value: Any, record: dict[str, Any] | None = None) -> str:
-    """One stored value in words (``record`` gives its sibling columns, for ``X_unit``)."""
+def value_text(
+    field: str,
+    value: Any,
+    record: dict[str, Any] | None = None,
+    site_units: Mapping[str, str] | None = None,
+) -> str:
+    """One stored value in words (``record`` gives its sibling columns: ``X_unit`` and the
+    text as typed in ``entered``)."""
     if value is None:
         return "—"
     if isinstance(value, bool):
         return "yes" if value else "no"
     if isinstance(value, int | float):
-        unit = (record or {}).get(f"{field}_unit")
-        if isinstance(unit, str) and unit in _SI_KIND:
-            return _quantity(float(value), _SI_KIND[unit])
-        kind = _kind_of(field)
-        if kind is not None:
-            return _quantity(float(value), kind)
+        text = quantity_text(field, float(value), record, site_units)
+        if text is not None:
+            return text
         return number(value) if isinstance(value, float) else str(value)
     if isinstance(value, list):
         return f"{len(value)} item" + ("" if len(value) == 1 else "s")
@@ -118,14 +180,16 @@ def describe(
     old: str | None,
     new: str | None,
     reason: str | None = None,
+    site_units: Mapping[str, str] | None = None,
 ) -> str:
-    """An audit event's change in one readable line."""
+    """An audit event's change in one readable line; ``site_units`` (kind -> unit) are the
+    site's display units for values nobody typed."""
     where = f"`fluxledger audit show --json`, event {seq}"
     if field is None:
         values = _decode(new)
         if isinstance(values, dict):
             shown = [
-                f"{label(k)}: {value_text(k, v, values)}"
+                f"{label(k)}: {value_text(k, v, values, site_units)}"
                 for k, v in values.items()
                 if k not in QUIET and v is not None and not k.endswith("_unit")
                 and not (k.startswith("voided") or k == "void_reason")
@@ -133,8 +197,8 @@ def describe(
             return _cut(f"{action}: " + "; ".join(shown), where)
         text = f"{action}" + (f": {values}" if values is not None else "")
         return _cut(text, where)
-    before = value_text(field, _decode(old))
-    after = value_text(field, _decode(new))
+    before = value_text(field, _decode(old), None, site_units)
+    after = value_text(field, _decode(new), None, site_units)
     if action == "void" and field == "void_reason":
         return _cut(f"voided: {after}", where)
     return _cut(f"{label(field)}: {before} → {after}", where)

@@ -20,6 +20,7 @@ from __future__ import annotations
 import math
 import re
 import unicodedata
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from functools import cache, lru_cache
 from typing import TYPE_CHECKING, Any, NamedTuple
@@ -462,3 +463,123 @@ def quantity(value: float, kind: str, unit: str | None = None) -> dict[str, Any]
     """A JSON-ready quantity ``{"value": ..., "unit": ...}`` in the display unit (DEVELOPERS.md)."""
     target = unit or KINDS[kind].display
     return {"value": from_si(value, kind, target), "unit": target}
+
+
+# How values are shown to people ----------------------------------------------------------------
+
+# Units as people read them; JSON keeps the pint spelling.
+SPELLED = {
+    "L/(m^2*h)": "LMH",
+    "L/(m^2*h*bar)": "LMH/bar",
+    "degC": "°C",
+    "percent": "%",
+    "m^2": "m²",
+    "m**2": "m²",
+    "m**3": "m³",
+    "mPa*s": "mPa·s",
+    "kg/m^3": "kg/m³",
+    "kg/m**3": "kg/m³",
+    "mol/m**3": "mol/m³",
+    "m**3/s": "m³/s",
+    "L/m^2": "L/m²",
+    "g/m^2": "g/m²",
+    "kg/m**2": "kg/m²",
+    "um": "µm",
+    "mm^2/s": "mm²/s",
+    "m**2/s": "m²/s",
+    "m/(s*Pa)": "m/(s·Pa)",
+    "Pa*s": "Pa·s",
+}
+
+
+def significant(x: float, digits: int = 6) -> str:
+    """``x`` with at most ``digits`` significant digits and no float artefacts:
+    499.99999999999994 -> "500", 0.30000000000000004 -> "0.3"."""
+    if x == 0:
+        return "0"
+    if not math.isfinite(x):
+        return str(x)
+    rounded = float(f"{x:.{digits}g}")
+    if not 1e-4 <= abs(rounded) < 1e7:
+        return f"{x:.{digits}g}"
+    decimals = max(0, digits - 1 - math.floor(math.log10(abs(rounded))))
+    text = f"{rounded:.{decimals}f}"
+    return text.rstrip("0").rstrip(".") if "." in text else text
+
+
+def entered_unit(text: str) -> str | None:
+    """The unit of a quantity as typed ("20 psi" -> "psi", "80 %" -> "percent"), cleaned of
+    our aliases; None for a bare number or text that is not a quantity."""
+    m = _NUMBER.match(text.strip())
+    if m is None:
+        return None
+    unit = _clean_unit(m.group(2))
+    return unit or None
+
+
+def display_unit(
+    kind: str, site: Mapping[str, str] | None = None, typed: Iterable[str] = ()
+) -> str:
+    """The unit a value of ``kind`` that nobody typed (computed, or an old row) is shown in:
+    the one unit people typed for that kind in the same record (``typed``: units as typed,
+    e.g. a TMP computed from feed and retentate typed in psi), else the site's display unit
+    for the kind (``site``: kind -> unit), else the kind's default display unit."""
+    found = {u for u in typed if u}
+    if len(found) == 1:
+        unit = found.pop()
+        lin = _linear(unit, kind)
+        if lin.problem is None and lin.affine:
+            return unit
+    if site and site.get(kind):
+        return site[kind]
+    return KINDS[kind].display
+
+
+def shown(
+    value: float,
+    kind: str,
+    *,
+    entered: str | None = None,
+    site: Mapping[str, str] | None = None,
+    typed: Iterable[str] = (),
+    digits: int = 6,
+) -> str:
+    """One stored SI value as people read it, the one formatter of every screen and record.
+
+    Typed by a person (``entered``, e.g. "0.5 M"): the text as typed, with the SI value beside
+    when its unit is not the SI one ("0.5 M (500 mol/m³)"). Otherwise the value in
+    :func:`display_unit` with at most ``digits`` significant digits ("500 mbar").
+    """
+    si = KINDS[kind].si
+    if entered:
+        typed_unit = entered_unit(entered)
+        if typed_unit is None or typed_unit == si or not si:
+            return entered
+        return f"{entered} ({significant(value, digits)} {SPELLED.get(si, si)})"
+    unit = display_unit(kind, site, typed)
+    return f"{significant(from_si(value, kind, unit), digits)} {SPELLED.get(unit, unit)}"
+
+
+def check_display_unit(kind: str, text: str, *, field: str) -> str:
+    """``text`` as a display unit for ``kind`` (cleaned); InputError naming ``field``, the value
+    and what was expected if it is not a unit of that kind."""
+    if kind not in KINDS:
+        raise InputError(
+            f"{field}: {kind!r} is not a kind of quantity",
+            field=field,
+            value=kind,
+            expected="one of " + ", ".join(sorted(KINDS)),
+        )
+    expected = f"a unit of {_dimension_word(kind)}, e.g. {KINDS[kind].display}"
+    unit = check_unit_text(text.strip(), field=field, shown=text, expected=expected)
+    lin = _linear(unit, kind) if unit else Linear(problem="unknown")
+    if lin.problem is not None or not lin.affine or lin.a == 0:
+        why = "not a unit pint knows" if lin.problem in (None, "unknown") else lin.problem
+        raise InputError(
+            f"{field}: {text!r} is not a unit of {_dimension_word(kind)} ({why}); "
+            f"expected {expected}",
+            field=field,
+            value=text,
+            expected=expected,
+        )
+    return unit

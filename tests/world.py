@@ -255,7 +255,26 @@ def build(url: str) -> World:
     for login, role in ROLES.items():
         w.add_user(login, NAMES[login], role, PASSWORDS[login])
     w.ok(w.as_user("eng.ray", "module-type", "add", "HF-750", *TYPE_OPTIONS))
+    register_shipped_templates(w)
     return w
+
+
+# The shipped templates are in force in every world from this time on, before any clock a
+# test freezes, so runs planned at any test time find them (an approval entered late).
+TEMPLATES_EFFECTIVE = "2026-01-01T00:00:00+00:00"
+
+
+def register_shipped_templates(w: World) -> None:
+    """The engineer submits every shipped template and QA approves each, in force from
+    TEMPLATES_EFFECTIVE (the steps a site takes before planning runs on them)."""
+    from ledger.runs.template import shipped_dir
+
+    why = "test world: approved before any test's clock"
+    for path in sorted(shipped_dir().glob("*.toml")):
+        submitted = w.ok(w.as_user("eng.ray", "template", "submit", str(path), "--json")).json()
+        version = submitted["version"]
+        w.ok(w.as_user("qa.lin", "template", "approve", version["template"], version["version"],
+                       "--effective-from", TEMPLATES_EFFECTIVE, "--late-reason", why))  # fmt: skip
 
 
 # --- Built once, copied per test ------------------------------------------------------------

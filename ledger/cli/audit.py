@@ -133,20 +133,26 @@ def show(
     db: str | None = DB_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
-    """List audit events: who, when (UTC), what, old and new value, why."""
+    """List audit events: who, when (the site's local time with its offset; UTC while no
+    zone is set), what, old and new value, why."""
     import textwrap
 
     from ledger.audittext import describe
     from ledger.cli.output import Report, Table
     from ledger.entries.uses import audit_filter
     from ledger.logbook.history import audit_events
+    from ledger.logbook.site import site_zone
+    from ledger.rules.localtime import local_text
 
     filters = audit_filter(locals())
-    events = read(db, lambda s: audit_events(s, **filters))  # type: ignore[arg-type]
+    events, zone = read(db, lambda s: (audit_events(s, **filters), site_zone(s)))  # type: ignore[arg-type]
     if as_json:
         report = Report("audit show")
         table = Table("Events", [(k, k) for k in EVENT_FIELDS])
-        table.rows = [[getattr(e, k) for k in EVENT_FIELDS] for e in events]
+        table.rows = [
+            [e.at.astimezone(zone) if k == "at" else getattr(e, k) for k in EVENT_FIELDS]
+            for e in events
+        ]
         report.tables.append(table)
         report.print(as_json=True)
         return
@@ -154,7 +160,7 @@ def show(
     for e in events:
         module = f" (module ID {e.module_id})" if e.module_id is not None else ""
         typer.echo(
-            f"#{e.seq}  {e.at.isoformat(timespec='seconds')}  {e.actor}  {e.action} "
+            f"#{e.seq}  {local_text(e.at, zone)}  {e.actor}  {e.action} "
             f"{e.entity} {e.entity_id}{module}"
         )
         if e.field is not None or e.new_value is not None:

@@ -63,10 +63,41 @@ def _software() -> str:
     return __version__
 
 
-def _file_name(ctx: Any, suffix: str = "") -> str:
+def _file_name(ctx: Any, copy: Any, suffix: str = "") -> str:
+    """e.g. BR-000001-rev1-in-review-copy3.pdf, BR-000001-draft-copy1.pdf: the state shows."""
     h = ctx.header
-    rev = f"rev{h.revision}" if h.revision else "draft"
-    return f"{h.record_id}-{rev}{suffix}.pdf"
+    rev = f"rev{h.revision}-{copy.state.replace(' ', '-')}" if h.revision else "draft"
+    return f"{h.record_id}-{rev}-copy{copy.number}{suffix}.pdf"
+
+
+PRINT_USER = typer.Option(
+    None,
+    "--user",
+    help="Your user ID (asked for when not given); the password is always asked for: every "
+    "copy is numbered and audited.",
+)
+
+
+def _make_copy(
+    db: str | None,
+    login: str,
+    password_stdin: bool,
+    work: Any,
+) -> tuple[Any, Any, Path, bytes]:
+    """Run ``work(session, actor)`` -> (issued, copy, staged file, bytes) as one audited write,
+    then put the staged file in place: a file under its final name is a registered copy."""
+    from ledger.cli.session import write
+
+    staged: list[Any] = []
+    try:
+        issued, copy, file, data = write(db, login, password_stdin,
+                                         lambda s, a: work(s, a, staged))  # fmt: skip
+    except BaseException:
+        for f in staged:
+            f.discard()
+        raise
+    file.place()
+    return issued, copy, file.path, data
 
 
 @app.command("print")
@@ -77,24 +108,39 @@ def print_record(
     out: Path | None = typer.Option(None, "--out", help="PDF file or folder (default: ./)."),
     no_charts: bool = typer.Option(False, "--no-charts", help="Leave the charts out."),
     force: bool = FORCE,
+    user: str | None = PRINT_USER,
+    password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
-    """Write the batch record as PDF: the current revision with its signatures, or a draft.
-    An existing file is kept unless --force is given."""
-    from ledger.records.pdf import render, write_atomic
+    """Write a controlled copy of the batch record as PDF: the current revision with its
+    signatures, or a draft. Each copy is numbered and audited; a revision not fully signed
+    carries its state on every page and in the file name. An existing file is kept unless
+    --force is given (and then no copy is registered)."""
+    from ledger.records import copies
+    from ledger.records.pdf import Staged, render
     from ledger.records.service import record_of
 
-    issued = read(db, lambda s: record_of(s, run, revision))
-    ctx = issued.context
-    path = _out(out, _file_name(ctx), force)
-    issue = issued.revision.as_of if issued.revision else None
-    data = render(ctx, software_version=_software(), charts=not no_charts, issued=issue)
-    write_atomic(path, data)
-    _written(path, ctx, data, as_json)
+    def work(s: Any, a: Any, staged: list[Any]) -> tuple[Any, Any, Any, bytes]:
+        issued = record_of(s, run, revision)
+        ctx = issued.context
+        copy = copies.new_copy(s, run, issued, "print")
+        path = _out(out, _file_name(ctx, copy), force)
+        issue = issued.revision.as_of if issued.revision else None
+        data = render(ctx, software_version=_software(), charts=not no_charts, issued=issue,
+                      copy=copy)  # fmt: skip
+        staged.append(Staged(path, data))
+        copies.register(s, a, run, issued, copy, path.name, data)
+        return issued, copy, staged[-1], data
+
+    login = _user(user, password_stdin)
+    issued, copy, path, data = _make_copy(db, login, password_stdin, work)
+    _written(path, issued.context, copy, data, as_json)
 
 
-def _written(path: Path, ctx: Any, data: bytes, as_json: bool, sealed: bool = False) -> None:
+def _written(
+    path: Path, ctx: Any, copy: Any, data: bytes, as_json: bool, sealed: bool = False
+) -> None:
     import hashlib
 
     h = ctx.header
@@ -103,7 +149,9 @@ def _written(path: Path, ctx: Any, data: bytes, as_json: bool, sealed: bool = Fa
         "record": h.record_id,
         "revision": h.revision,
         "revision_sha256": ctx.sha256(),
-        "signatures": [s.meaning for s in ctx.signatures if s.revision == h.revision],
+        "copy": copy.number,
+        "state": copy.state,
+        "signatures": list(copy.meanings),
         "bytes": len(data),
         "file_sha256": hashlib.sha256(data).hexdigest(),
         "sealed": sealed,
@@ -116,8 +164,8 @@ def _written(path: Path, ctx: Any, data: bytes, as_json: bool, sealed: bool = Fa
     what = "draft (not issued for signature)" if not h.revision else f"revision {h.revision}"
     signed = ", ".join(info["signatures"]) or "none"
     typer.echo(
-        f"{path}: {h.record_id} {what}, {len(data):,} bytes; signatures: {signed}"
-        + ("; digitally sealed" if sealed else "")
+        f"{path}: {h.record_id} {what}, copy {copy.number} ({copy.state}), {len(data):,} "
+        f"bytes; signatures: {signed}" + ("; digitally sealed" if sealed else "")
     )
     typer.echo(SITE_NOTE)
 
@@ -311,31 +359,46 @@ def seal(
     revision: int | None = REVISION,
     out: Path | None = typer.Option(None, "--out", help="PDF file or folder (default: ./)."),
     force: bool = FORCE,
+    user: str | None = PRINT_USER,
+    password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
-    """Print the approved record and seal the file digitally (PAdES, pyHanko). An existing
-    file is kept unless --force is given."""
-    from ledger.records.pdf import render, write_atomic
+    """Print the approved record as a numbered, audited copy and seal the file digitally
+    (PAdES, pyHanko). Your password is asked for first, then the key's. An existing file is
+    kept unless --force is given (and then no copy is registered)."""
+    from ledger.records import copies
+    from ledger.records.pdf import Staged, render
     from ledger.records.seal import seal as do_seal
     from ledger.records.service import approved_record
 
-    issued = read(db, lambda s: approved_record(s, run, revision))
-    ctx = issued.context
-    path = _out(out, _file_name(ctx, "-sealed"), force)
-    password = read_secret("Key password", from_stdin=key_password_stdin)
-    issue = issued.revision.as_of if issued.revision else None
-    data = render(ctx, software_version=_software(), issued=issue)
-    sealed = do_seal(
-        data,
-        key_file=key,
-        cert_file=cert,
-        passphrase=password.encode() or None,
-        tsa_url=tsa or os.environ.get("FLUXLEDGER_TSA_URL") or None,
-        reason=f"Batch record {ctx.header.record_id} revision {ctx.header.revision}, approved",
-    )
-    write_atomic(path, sealed)
-    _written(path, ctx, sealed, as_json, sealed=True)
+    read(db, lambda s: approved_record(s, run, revision))  # refused before any password
+    login = _user(user, password_stdin)
+
+    def work(s: Any, a: Any, staged: list[Any]) -> tuple[Any, Any, Any, bytes]:
+        # Asked before the session's first statement, so the prompt holds no lock.
+        password = read_secret("Key password", from_stdin=key_password_stdin)
+        issued = approved_record(s, run, revision)
+        ctx = issued.context
+        copy = copies.new_copy(s, run, issued, "sealed")
+        path = _out(out, _file_name(ctx, copy, "-sealed"), force)
+        issue = issued.revision.as_of if issued.revision else None
+        data = render(ctx, software_version=_software(), issued=issue, copy=copy)
+        sealed = do_seal(
+            data,
+            key_file=key,
+            cert_file=cert,
+            passphrase=password.encode() or None,
+            tsa_url=tsa or os.environ.get("FLUXLEDGER_TSA_URL") or None,
+            reason=f"Batch record {ctx.header.record_id} revision {ctx.header.revision}, "
+            f"approved, copy {copy.number}",
+        )
+        staged.append(Staged(path, sealed))
+        copies.register(s, a, run, issued, copy, path.name, sealed)
+        return issued, copy, staged[-1], sealed
+
+    issued, copy, path, data = _make_copy(db, login, password_stdin, work)
+    _written(path, issued.context, copy, data, as_json, sealed=True)
 
 
 @app.command("verify")
@@ -348,8 +411,9 @@ def verify(
     db: str | None = DB_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
-    """Check a record file against the database: seal, file content, revision, signatures and
-    audit trail. Exit 1 naming each problem."""
+    """Check a record file against the database: seal, file content, revision, signatures,
+    the controlled copy and the audit trail. Exit 1 naming each problem: a copy that claims
+    more than the database holds is one; a copy older than the current state is stated."""
     from ledger.cli.output import Report
     from ledger.records.verify import MAX_RECORD_BYTES, verify_file
     from ledger.userfiles import read_user_file
@@ -361,15 +425,19 @@ def verify(
     sec.add("file", str(file))
     sec.add("record", result.record)
     sec.add("revision", result.revision)
-    for title, items in (
-        ("Passed", result.passed),
-        ("Problems", result.problems),
-        ("Notes", result.notes),
-    ):
+    if result.copy is not None:
+        sec.add("copy", result.copy, "copy")
+        sec.add("state", result.state, "state")
+        sec.add("signatures", ", ".join(result.signatures) or "none", "signatures")
+        if result.revision:
+            sec.add("lacks", ", ".join(result.lacks) or "nothing", "lacks")
+    for title, items in (("Passed", result.passed), ("Problems", result.problems)):
         if items:
             s = report.section(title)
             for i, text in enumerate(items, start=1):
                 s.add(f"{title.lower()}_{i}", text, str(i))
+    # Report notes, not a "Notes" section: in JSON a section of that name was overwritten.
+    report.notes += result.notes
     report.print(as_json)
     if not result.ok:
         raise typer.Exit(1)

@@ -28,8 +28,12 @@ SAMPLES = Path(__file__).resolve().parents[2] / "sample_records"
 # The demo's own note in its output folder: the names it wrote there. A later run replaces
 # those and refuses a folder holding anything else (a real logbook, someone's files).
 MARKER = ".fluxledger-demo"
+# The controlled copies the run's steps print and seal (sample_records/run_history.toml).
+COPIES = ("BR-000001-rev1-in-review-copy1.pdf", "BR-000001-rev1-approved-copy2.pdf",
+          "BR-000001-rev1-approved-copy3-sealed.pdf")  # fmt: skip
 FIXED_OUTPUTS = ("bench_calculations.json", "bench_session.txt", "fluxledger.db",
-                 "logbook_session.txt", "qb117-26-014_skid_export.csv", "demo-seal")  # fmt: skip
+                 "logbook_session.txt", "qb117-26-014_skid_export.csv", "demo-seal",
+                 *COPIES)  # fmt: skip
 # Files SQLite and our atomic writes keep beside a file for a while.
 COMPANIONS = ("-wal", "-shm", "-journal", ".tmp")
 
@@ -236,6 +240,7 @@ def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
                 f"{temporary}\n{u['password']}\n",
             ))  # fmt: skip
     now = datetime.now(UTC)
+    setup += _template_steps(users, now - timedelta(days=45))
     steps: list[tuple[str | None, list[str], str, str | None, int]] = [
         ("Users of the logbook" if i == 0 else None, args, stdin, None, 0)
         for i, (args, stdin) in enumerate(setup)
@@ -270,10 +275,29 @@ def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
             _, jtext = _run([*args, *db, "--json"], stdin)
             written.append(_write_atomically(out / save, jtext))
     written.insert(0, out / "fluxledger.db")
-    written += [p for p in (out / "BR-000001-rev1.pdf", out / "BR-000001-rev1-sealed.pdf")
-                if p.exists()]  # fmt: skip
+    written += [p for p in (out / name for name in COPIES) if p.exists()]
     written.append(_write_atomically(out / "logbook_session.txt", "\n".join(transcript) + "\n"))
     return written
+
+
+def _template_steps(
+    users: dict[str, dict[str, str]], since: datetime
+) -> list[tuple[list[str], str]]:
+    """The engineer submits each shipped template and QA approves it, in force from ``since``
+    (before the scenario's first record: its history is entered late, from paper)."""
+    from ledger.runs.template import catalogue, shipped_dir
+
+    engineer = next(login for login, u in users.items() if u["role"] == "engineer")
+    qa = next(login for login, u in users.items() if u["role"] == "qa")
+    why = "the demo history is entered late from paper; the template was approved before it"
+    out: list[tuple[list[str], str]] = []
+    for t in catalogue():
+        out.append((["template", "submit", _shown(shipped_dir() / t.file), "--user", engineer,
+                     "--password-stdin"], users[engineer]["password"] + "\n"))  # fmt: skip
+        out.append((["template", "approve", t.id, t.version, "--effective-from",
+                     since.isoformat(timespec="seconds"), "--late-reason", why, "--user", qa,
+                     "--password-stdin"], users[qa]["password"] + "\n"))  # fmt: skip
+    return out
 
 
 def _demo_seal(out: Path) -> Any:

@@ -54,6 +54,33 @@ def quantity_of(name: str, value: Any) -> tuple[str, Any]:
     return key, Q(float(value), kind)
 
 
+def shown_q(
+    rec: Any,
+    column: str,
+    kind: str,
+    site: dict[str, str] | None = None,
+    default: str | None = None,
+) -> Q | None:
+    """The stored value of ``column`` as people read it: as typed (the record's ``entered``),
+    else in the unit :func:`ledger.units.display_unit` picks (``default`` instead of the
+    kind's own when neither the record nor the site names one). None stays None."""
+    from ledger import units
+    from ledger.audittext import entered_key, typed_units
+
+    value = getattr(rec, column)
+    if value is None:
+        return None
+    entered = getattr(rec, "entered", None) or {}
+    text = entered.get(entered_key(column))
+    columns = {c.name: getattr(rec, c.name) for c in rec.__table__.columns}
+    typed = [] if text else typed_units(columns).get(kind, [])
+    if default is not None and not typed and not (site and site.get(kind)):
+        unit = default
+    else:
+        unit = units.display_unit(kind, site, typed)
+    return Q(float(value), kind, unit, entered=str(text) if text else None)
+
+
 def record_json(record: Any) -> dict[str, Any]:
     """Every column of a record, quantities with their units, points and readings included."""
     out: dict[str, Any] = {}
@@ -77,13 +104,14 @@ def _pct(x: float | None) -> str:
     return "—" if x is None else f"{100 * x:.1f} %"
 
 
-def water_line(t: Any) -> str:
-    """One line for a recorded water-flux test."""
+def water_line(t: Any, site: dict[str, str] | None = None) -> str:
+    """One line for a recorded water-flux test (``site``: the site's display units)."""
     text = (
         f"water-flux test {t.id} ({t.stage.replace('_', '-')}): NWP "
-        f"{human(Q(t.nwp_m_s_pa, 'permeability'))} at "
-        f"{human(Q(t.reference_temperature_k, 'temperature'))}, TMP "
-        f"{human(Q(t.tmp_pa, 'pressure'))}, flux {human(Q(t.flux_m_s, 'flux'))}"
+        f"{human(shown_q(t, 'nwp_m_s_pa', 'permeability', site))} at "
+        f"{human(shown_q(t, 'reference_temperature_k', 'temperature', site))}, TMP "
+        f"{human(shown_q(t, 'tmp_pa', 'pressure', site))}, "
+        f"flux {human(shown_q(t, 'flux_m_s', 'flux', site))}"
     )
     if t.r_squared is not None:
         text += f", r² {t.r_squared:.4f}"
@@ -96,47 +124,75 @@ def water_line(t: Any) -> str:
     return text
 
 
-def integrity_line(t: Any) -> str:
+def _rate_unit(t: Any, site: dict[str, str] | None) -> str | None:
+    """A decay rate in the units typed for its pressures and hold ("psi" and "min" ->
+    "psi/min"); None when nothing was typed for them."""
+    from ledger.audittext import typed_units
+
+    columns = {c.name: getattr(t, c.name) for c in t.__table__.columns}
+    typed = typed_units(columns)
+    pressures = set(typed.get("pressure", []))
+    if len(pressures) != 1:
+        return None
+    times = set(typed.get("time", [])) or {"min"}
+    return f"{pressures.pop()}/{times.pop() if len(times) == 1 else 'min'}"
+
+
+def integrity_line(t: Any, site: dict[str, str] | None = None) -> str:
+    """One line for a recorded integrity test (``site``: the site's display units)."""
     if t.kind == "bubble_point":
         text = (
             f"integrity test {t.id} (bubble point): "
-            f"{human(Q(t.bubble_point_pa, 'pressure', 'psi'))}"
-            f", minimum {human(Q(t.limit_value, 'pressure', 'psi'))}"
+            f"{human(shown_q(t, 'bubble_point_pa', 'pressure', site, 'psi'))}"
+            f", minimum {human(Q(t.limit_value, 'pressure', _site(site, 'pressure', 'psi')))}"
         )
     else:
+        from ledger import units
+
+        rate = _rate_unit(t, site)
+        rate_unit = units.display_unit("pressure_rate", site, [rate] if rate else [])
         text = (
             f"integrity test {t.id} (pressure decay): "
-            f"{human(Q(t.decay_rate_pa_s, 'pressure_rate'))} at "
-            f"{human(Q(t.test_pressure_pa, 'pressure', 'psi'))}, limit "
-            f"{human(Q(t.limit_value, 'pressure_rate'))}"
+            f"{human(Q(t.decay_rate_pa_s, 'pressure_rate', rate_unit))} at "
+            f"{human(shown_q(t, 'test_pressure_pa', 'pressure', site, 'psi'))}, limit "
+            f"{human(Q(t.limit_value, 'pressure_rate', rate_unit))}"
         )
         if t.gas_flow_m3_s is not None:
-            text += f", gas flow {human(Q(t.gas_flow_m3_s, 'gas_flow'))}"
+            text += f", gas flow {human(shown_q(t, 'gas_flow_m3_s', 'gas_flow', site))}"
     text += " — " + ("pass" if t.passed else "FAIL")
     if t.late:
         text += " (late entry)"
     return text
 
 
-def _summary(kind: str, rec: Any) -> tuple[str, Any, str]:
-    """(what, value, result) of one history entry."""
+def _site(site: dict[str, str] | None, kind: str, default: str) -> str:
+    return (site or {}).get(kind) or default
+
+
+def _summary(kind: str, rec: Any, site: dict[str, str] | None = None) -> tuple[str, Any, str]:
+    """(what, value, result) of one history entry (``site``: the site's display units)."""
     if kind == "water-test":
         result = f"{_pct(rec.recovery)} of baseline" if rec.recovery is not None else ""
         if rec.verdict:
             result = f"{result}, {rec.verdict}"
-        return rec.stage.replace("_", "-"), Q(rec.nwp_m_s_pa, "permeability"), result
+        return rec.stage.replace("_", "-"), shown_q(rec, "nwp_m_s_pa", "permeability", site), result
     if kind == "integrity-test":
-        value = (
-            Q(rec.bubble_point_pa, "pressure", "psi")
-            if rec.kind == "bubble_point"
-            else Q(rec.decay_rate_pa_s, "pressure_rate")
-        )
+        if rec.kind == "bubble_point":
+            value = shown_q(rec, "bubble_point_pa", "pressure", site, "psi")
+        else:
+            from ledger import units
+
+            rate = _rate_unit(rec, site)
+            unit = units.display_unit("pressure_rate", site, [rate] if rate else [])
+            value = Q(rec.decay_rate_pa_s, "pressure_rate", unit)
         return rec.kind.replace("_", "-"), value, "pass" if rec.passed else "FAIL"
     if kind == "cleaning":
+        strength = _strength(rec, site)
         return (
             rec.agent,
-            Q(rec.temperature_k, "temperature"),
-            f"{human(Q(rec.contact_time_s, 'time'))}, reagent lot {rec.reagent_lot}",
+            shown_q(rec, "temperature_k", "temperature", site),
+            f"{strength}, {human(shown_q(rec, 'contact_time_s', 'time', site))}, "
+            f"reagent lot {rec.reagent_lot}",
         )
     if kind == "storage":
         return rec.solution, None, ""
@@ -154,11 +210,23 @@ def _summary(kind: str, rec: Any) -> tuple[str, Any, str]:
     return kind, None, ""
 
 
+def _strength(rec: Any, site: dict[str, str] | None, column: str = "concentration") -> str:
+    """A concentration (a cleaning's, a procedure's limit) as typed, else in its kind's
+    display unit; its kind comes from the record's ``concentration_unit``."""
+    kind = _CONCENTRATION_KINDS.get(rec.concentration_unit, "fraction")
+    return human(shown_q(rec, column, kind, site))
+
+
+_CONCENTRATION_KINDS = {"mol/m**3": "molarity", "kg/m**3": "concentration", "": "fraction"}
+
+
 def history_report(session: Any, serial: str) -> Report:
     from ledger.logbook import latest
     from ledger.logbook.history import module_history
     from ledger.logbook.modules import list_types, row_id
+    from ledger.logbook.site import display_units
 
+    site = display_units(session)
     module, entries = module_history(session, serial)
     mtype = next(t for t in list_types(session) if t.id == module.type_id)
     report = Report("module show")
@@ -173,7 +241,8 @@ def history_report(session: Any, serial: str) -> Report:
     s.add("received_on", module.received_on.isoformat() if module.received_on else None, "received")
     base = latest.water(session, row_id(module.id), "baseline")
     post = latest.water(session, row_id(module.id), "post_clean")
-    s.add("baseline_nwp", Q(base.nwp_m_s_pa, "permeability") if base else None, "baseline NWP")
+    s.add("baseline_nwp", shown_q(base, "nwp_m_s_pa", "permeability", site) if base else None,
+          "baseline NWP")  # fmt: skip
     s.add("last_recovery", Q(post.recovery, "fraction") if post and post.recovery else None,
           "last post-clean recovery")  # fmt: skip
     table = Table(
@@ -187,7 +256,7 @@ def history_report(session: Any, serial: str) -> Report:
         ],
     )
     for e in entries:
-        what, value, result = _summary(e.kind, e.record)
+        what, value, result = _summary(e.kind, e.record, site)
         flags = [result] if result else []
         if getattr(e.record, "late", False):
             flags.append("late")
@@ -255,14 +324,6 @@ def finish(command: str, record: Any, line: str, note: str | None, as_json: bool
         typer.echo(f"status: {note}")
 
 
-def _concentration_text(value: float, unit: str) -> str:
-    if unit == "mol/m**3":
-        return human(Q(value, "molarity"))
-    if unit == "kg/m**3":
-        return human(Q(value, "concentration"))
-    return human(Q(value, "fraction"))
-
-
 def procedure_row(p: Any) -> list[Any]:
     """One cleaning procedure as a table row: code, agent and its ranges."""
     rinse = []
@@ -274,10 +335,9 @@ def procedure_row(p: Any) -> list[Any]:
     return [
         p.code,
         p.agent,
-        f"{_concentration_text(p.concentration_min, p.concentration_unit)} – "
-        f"{_concentration_text(p.concentration_max, p.concentration_unit)}",
-        f"{human(Q(p.temperature_min_k, 'temperature'))} – "
-        f"{human(Q(p.temperature_max_k, 'temperature'))}",
-        Q(p.contact_time_min_s, "time"),
+        f"{_strength(p, None, 'concentration_min')} – {_strength(p, None, 'concentration_max')}",
+        f"{human(shown_q(p, 'temperature_min_k', 'temperature'))} – "
+        f"{human(shown_q(p, 'temperature_max_k', 'temperature'))}",
+        shown_q(p, "contact_time_min_s", "time"),
         ", ".join(rinse) or "—",
     ]

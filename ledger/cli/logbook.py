@@ -52,6 +52,7 @@ def water(
     """Record a water-flux test; prints NWP at T_ref and the recovery against baseline."""
     from ledger.cli.describe import water_line
     from ledger.entries.water import water_test
+    from ledger.logbook.site import display_units
     from ledger.logbook.waterflux import record_water_test
 
     e = water_test(locals())
@@ -59,9 +60,9 @@ def water(
     def work(s: Any, a: Any) -> Any:
         test, status = record_water_test(
             s, a, e.serial, e.stage, e.points, e.temperature_k, water_grade=e.water_grade,
-            activity_at=e.activity_at, note=e.note,
+            activity_at=e.activity_at, note=e.note, entered=e.entered,
         )  # fmt: skip
-        return test, water_line(test), status
+        return test, water_line(test, display_units(s)), status
 
     with e.blame():
         test, text, status = write(db, user, password_stdin, work)
@@ -99,20 +100,26 @@ def integrity(
     from ledger.cli.describe import integrity_line
     from ledger.entries.integrity import integrity_test
     from ledger.logbook.integrity import record_bubble_point, record_decay_test
+    from ledger.logbook.site import display_units
 
     e = integrity_test(locals())
 
     def work(s: Any, a: Any) -> Any:
         if e.decay is None:
-            return record_bubble_point(
+            test, status = record_bubble_point(
                 s, a, e.serial, e.bubble_point(), temperature_k=e.temperature_k,
-                activity_at=e.activity_at, note=e.note,
+                activity_at=e.activity_at, note=e.note, entered=e.entered,
             )  # fmt: skip
-        return record_decay_test(s, a, e.serial, e.decay, activity_at=e.activity_at, note=e.note)
+        else:
+            test, status = record_decay_test(
+                s, a, e.serial, e.decay, activity_at=e.activity_at, note=e.note,
+                entered=e.entered,
+            )  # fmt: skip
+        return test, integrity_line(test, display_units(s)), status
 
     with e.blame():
-        test, status = write(db, user, password_stdin, work)
-    finish("test integrity", test, integrity_line(test), status, as_json)
+        test, line, status = write(db, user, password_stdin, work)
+    finish("test integrity", test, line, status, as_json)
 
 
 @care_app.command("clean")

@@ -42,6 +42,8 @@ COMMANDS: dict[str, tuple[str, str, str]] = {
     "log": ("logs", "app", "group"),
     "record": ("batch_record", "app", "group"),
     "skid": ("skids", "app", "group"),
+    "template": ("templates", "app", "group"),
+    "site": ("site", "app", "group"),
     "demo": ("demo", "demo", "command"),
 }
 

@@ -96,8 +96,14 @@ def type_add(
     finish("module-type add", created, f"added module type {created.code}", None, as_json)
 
 
-def _type_report(t: Any) -> Any:
-    from ledger.cli.output import Q, Report
+def _type_report(t: Any, site: dict[str, str] | None = None) -> Any:
+    """A module type's report: each value as typed, else in the site's display unit (``site``,
+    kind -> unit) or the unit this screen has always used."""
+    from ledger.cli.describe import shown_q
+    from ledger.cli.output import Report
+
+    def q(column: str, kind: str, default: str | None = None) -> Any:
+        return shown_q(t, column, kind, site, default)
 
     report = Report("module-type show")
     g = report.section(f"Module type {t.code}")
@@ -105,34 +111,34 @@ def _type_report(t: Any) -> Any:
     g.add("supplier", t.supplier)
     g.add("membrane", t.membrane)
     g.add("pore_rating", t.pore_rating, "pore rating")
-    g.add("lumen_diameter", Q(t.lumen_diameter_m, "length"), "lumen diameter")
+    g.add("lumen_diameter", q("lumen_diameter_m", "length"), "lumen diameter")
     g.add("fibers", t.fiber_count)
-    g.add("length", Q(t.effective_length_m, "fiber_length"), "effective length")
-    g.add("area", Q(t.area_m2, "area"))
+    g.add("length", q("effective_length_m", "fiber_length"), "effective length")
+    g.add("area", q("area_m2", "area"))
     lim = report.section("Site limits")
     lim.add(
         "reference_temperature",
-        Q(t.reference_temperature_k, "temperature"),
+        q("reference_temperature_k", "temperature"),
         "NWP reference temperature",
     )
-    lim.add("recovery_min", Q(t.recovery_min, "fraction"), "post-clean recovery minimum")
-    lim.add("recovery_alert", Q(t.recovery_alert, "fraction"), "recovery alert below")
-    lim.add("damage_ratio", Q(t.damage_ratio, "fraction"), "damage suspected above")
-    lim.add("preuse_band", Q(t.preuse_band, "fraction"), "pre-use band ±")
-    lim.add("decay_limit", Q(t.decay_limit_pa_s, "pressure_rate"), "pressure-decay limit")
-    lim.add("test_pressure", Q(t.integrity_test_pressure_pa, "pressure", "psi"), "at test pressure")
+    lim.add("recovery_min", q("recovery_min", "fraction"), "post-clean recovery minimum")
+    lim.add("recovery_alert", q("recovery_alert", "fraction"), "recovery alert below")
+    lim.add("damage_ratio", q("damage_ratio", "fraction"), "damage suspected above")
+    lim.add("preuse_band", q("preuse_band", "fraction"), "pre-use band ±")
+    lim.add("decay_limit", q("decay_limit_pa_s", "pressure_rate"), "pressure-decay limit")
+    lim.add("test_pressure", q("integrity_test_pressure_pa", "pressure", "psi"), "at test pressure")
     if t.bubble_point_min_pa is not None:
         lim.add(
-            "bubble_point_min", Q(t.bubble_point_min_pa, "pressure", "psi"), "bubble point minimum"
+            "bubble_point_min", q("bubble_point_min_pa", "pressure", "psi"), "bubble point minimum"
         )
     lim.add("reuse_limit", t.reuse_limit_cycles, "validated reuse limit (cycles)")
-    lim.add("storage_limit", Q(t.storage_limit_s, "time", "d"), "storage limit")
+    lim.add("storage_limit", q("storage_limit_s", "time", "d"), "storage limit")
     if t.clean_hold_s is not None:
-        lim.add("clean_hold", Q(t.clean_hold_s, "time", "h"), "clean-hold window")
+        lim.add("clean_hold", q("clean_hold_s", "time", "h"), "clean-hold window")
     if t.max_volume_loading_m is not None:
-        lim.add("max_loading", Q(t.max_volume_loading_m, "areal_volume"), "maximum loading")
+        lim.add("max_loading", q("max_volume_loading_m", "areal_volume"), "maximum loading")
     if t.max_mass_loading_kg_m2 is not None:
-        lim.add("max_mass_loading", Q(t.max_mass_loading_kg_m2, "areal_mass"), "maximum mass")
+        lim.add("max_mass_loading", q("max_mass_loading_kg_m2", "areal_mass"), "maximum mass")
     report.notes.append(SITE_NOTE)
     return report
 
@@ -144,8 +150,9 @@ def type_show(
 ) -> None:
     """Show a module type and its limits."""
     from ledger.logbook.modules import get_type
+    from ledger.logbook.site import display_units
 
-    read(db, lambda s: _type_report(get_type(s, code))).print(as_json)
+    read(db, lambda s: _type_report(get_type(s, code), display_units(s))).print(as_json)
 
 
 @types_app.command("list")

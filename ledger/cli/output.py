@@ -33,11 +33,13 @@ _HUMAN_UNITS = {
 
 @dataclass(frozen=True)
 class Q:
-    """An SI value of a physical kind, printed in ``unit`` (default: the kind's display unit)."""
+    """An SI value of a physical kind, printed in ``unit`` (default: the kind's display unit);
+    one a person typed has its text as typed in ``entered`` and is printed as typed."""
 
     value: float
     kind: str
     unit: str | None = None
+    entered: str | None = None
 
 
 def _number(x: float, digits: int = 4) -> str:
@@ -63,6 +65,8 @@ def printable(text: str) -> str:
 
 def human(value: Any) -> str:
     """Format one report value for the terminal."""
+    if isinstance(value, Q) and value.entered:
+        return printable(units.shown(value.value, value.kind, entered=value.entered))
     if isinstance(value, Q):
         shown = units.quantity(value.value, value.kind, value.unit)
         unit = _HUMAN_UNITS.get(shown["unit"], shown["unit"])
@@ -84,7 +88,8 @@ def plain(value: Any) -> Any:
     """Convert one report value to its JSON form."""
     if isinstance(value, Q):
         q = units.quantity(value.value, value.kind, value.unit)
-        return {"value": q["value"] if math.isfinite(q["value"]) else None, "unit": q["unit"]}
+        out = {"value": q["value"] if math.isfinite(q["value"]) else None, "unit": q["unit"]}
+        return out | ({"entered": value.entered} if value.entered else {})
     if isinstance(value, datetime):
         return value.isoformat()
     if isinstance(value, float) and not math.isfinite(value):

@@ -75,7 +75,15 @@ def list_templates(as_json: bool = JSON_OPTION) -> None:
 @app.command("plan")
 @guarded
 def plan(
-    template: str = typer.Argument(..., help="A shipped template ID or a template .toml file."),
+    template: str = typer.Argument(
+        ..., help="A template ID (its version in force is used) or a submitted .toml file."
+    ),
+    template_version: str | None = typer.Option(
+        None,
+        "--template-version",
+        help="The template version meant; refused unless it is the one in force at the "
+        "plan time (see fluxledger template history ID).",
+    ),
     module: str = typer.Option(..., "--module", help="Serial of the module to run on."),
     product: str = typer.Option(..., "--product", help="Product of the run."),
     lot: str = typer.Option(..., "--lot", help="Batch or lot of the run."),
@@ -121,7 +129,7 @@ def plan(
         lambda s, a: plan_run(
             s, a, e.template, e.module, e.product, e.lot, e.inputs, scouting=e.scouting,
             override_reason=e.override_reason, product_override_reason=e.product_override_reason,
-            planned_at=e.planned_at, skid=e.skid,
+            planned_at=e.planned_at, skid=e.skid, template_version=e.template_version,
         ),
     )  # fmt: skip
     if not as_json:
@@ -134,9 +142,16 @@ def plan(
 
 def _report(session: Any, run_id: int) -> Any:
     from ledger.cli.output import Q, Report, Table
+    from ledger.logbook.site import site_zone
+    from ledger.rules.localtime import local_text
     from ledger.runs.queries import run_view
 
     view = run_view(session, run_id)
+    zone = site_zone(session)
+
+    def local(at: Any) -> str | None:
+        return local_text(at, zone) if at is not None else None
+
     run, plan = view.run, view.plan
     report = Report("run show")
     head = report.section(f"Run {run.id}")
@@ -148,9 +163,9 @@ def _report(session: Any, run_id: int) -> Any:
     head.add("template", f"{run.template_id} v{run.template_version}")
     head.add("template_sha256", run.template_sha256, "template SHA-256")
     head.add("planned_by", run.created_by, "planned by")
-    head.add("planned_at", run.created_at, "planned at")
-    head.add("started_at", run.started_at, "started")
-    head.add("finished_at", run.finished_at, "finished")
+    head.add("planned_at", local(run.created_at), "planned at")
+    head.add("started_at", local(run.started_at), "started")
+    head.add("finished_at", local(run.finished_at), "finished")
     if run.override_reason:
         head.add("override_reason", run.override_reason, "planned despite NOT FIT")
     inputs = Table("Inputs", [("name", "input"), ("text", "as given")])

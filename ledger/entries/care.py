@@ -60,6 +60,7 @@ def cleaning(raw: Mapping[str, object]) -> CleaningEntry:
         reagent_lot=v["reagent_lot"],
         rinse_ph=v["rinse_ph"],
         rinse_conductivity_s_m=v["rinse_conductivity"],
+        entered=v.entered(),
     )
     return CleaningEntry(v["serial"], c, v["procedure"], when(v), v["note"])
 
@@ -135,4 +136,5 @@ def procedure(raw: Mapping[str, object]) -> ProcedureSpec:
         rinse_ph_min=v["rinse_ph_min"],
         rinse_ph_max=v["rinse_ph_max"],
         rinse_conductivity_max_s_m=v["rinse_conductivity_max"],
+        entered=v.entered(),
     )

@@ -50,6 +50,7 @@ class Values:
     entry: str
     values: dict[str, Any] = field(default_factory=dict)
     raw: dict[str, str] = field(default_factory=dict)
+    typed: dict[str, str] = field(default_factory=dict)  # quantities as typed (see entered)
 
     def __getitem__(self, name: str) -> Any:
         return self.values.get(name)
@@ -57,6 +58,18 @@ class Values:
     def get(self, name: str, default: Any = None) -> Any:
         value = self.values.get(name)
         return default if value is None else value
+
+    def entered(self, *names: str, skip: Mapping[str, str] | None = None) -> dict[str, str] | None:
+        """The quantity fields a person typed (all, or those among ``names``) as they typed
+        them, surrounding whitespace stripped: {"concentration": "0.5 M"}; None if there are
+        none. A field whose text came from the entry's defaults was not typed; nor was one
+        whose text equals its default in ``skip`` (a front end that fills in the default)."""
+        out = {
+            k: t
+            for k, t in self.typed.items()
+            if (not names or k in names) and not (skip and skip.get(k) == t)
+        }
+        return out or None
 
     def given(self, *names: str) -> list[str]:
         """The names among ``names`` that were filled in."""
@@ -196,6 +209,10 @@ def _parse(f: Field, text: object) -> Any:
     )
 
 
+# Field kinds that are not physical quantities (their text is not kept as entered).
+_NOT_QUANTITIES = frozenset({"text", "number", "integer", "datetime", "date"})
+
+
 @dataclass(frozen=True)
 class Spec:
     """An entry's fields: ``parse`` checks each given one and that the required ones are there."""
@@ -219,6 +236,7 @@ class Spec:
             text = raw.get(f.name)
             if isinstance(text, str) and f.kind != "text" and not text.strip():
                 text = None  # an empty web form field is a field left out
+            typed = text is not None
             if text is None and defaults:
                 text = defaults.get(f.name)
             if text is None:
@@ -227,6 +245,8 @@ class Spec:
                 continue
             out.raw[f.name] = str(text)
             out.values[f.name] = parse_field(f, text)
+            if typed and f.kind not in _NOT_QUANTITIES:
+                out.typed[f.name] = str(text).strip()  # checked by parse_field just above
         if missing:
             raise InputError(
                 f"{self.name} needs {', '.join(label(n) for n in missing)}",

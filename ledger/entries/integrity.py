@@ -44,6 +44,7 @@ class IntegrityEntry:
     activity_at: datetime | None
     note: str | None
     readings: Points | None = None
+    entered: dict[str, str] | None = None  # quantity options as typed ("30 psi")
 
     def bubble_point(self) -> float:
         """The bubble point (Pa); only for a bubble-point entry."""
@@ -73,6 +74,7 @@ def integrity_test(raw: Mapping[str, object]) -> IntegrityEntry:
         temperature_k=v["temperature"],
         activity_at=when(v),
         note=v["note"],
+        entered=v.entered(),
     )
     if v["bubble_point"] is not None:
         refuse_with(

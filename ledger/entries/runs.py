@@ -89,6 +89,7 @@ RUN_PLAN = Spec(
         Field("product_override_reason"),
         Field("activity_time", "datetime"),
         Field("skid"),
+        Field("template_version"),
     ),
 )
 
@@ -105,6 +106,7 @@ class PlanEntry:
     product_override_reason: str | None = None  # a template of another product, and why
     planned_at: datetime | None = None  # entered late: when the run was planned
     skid: str | None = None  # the registered skid the run is made on
+    template_version: str | None = None  # must be the version in force at the plan time
 
 
 def run_plan(raw: Mapping[str, Any]) -> PlanEntry:
@@ -114,7 +116,7 @@ def run_plan(raw: Mapping[str, Any]) -> PlanEntry:
     scouting = read_scouting(v["scouting"]) if v["scouting"] is not None else None
     return PlanEntry(
         v["template"], v["module"], v["product"], v["lot"], given, scouting, v["override_reason"],
-        v["product_override_reason"], v["activity_time"], v["skid"],
+        v["product_override_reason"], v["activity_time"], v["skid"], v["template_version"],
     )  # fmt: skip
 
 

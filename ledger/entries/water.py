@@ -196,6 +196,7 @@ class WaterTestEntry:
     activity_at: datetime | None
     note: str | None
     points_file: WaterPoints | None  # to name the file's lines in later errors
+    entered: dict[str, str] | None = None  # quantity options as typed ("20 psi")
 
     def blame(self) -> AbstractContextManager[None]:
         """Attribute a later error on the points to the points file's line."""
@@ -259,6 +260,9 @@ def water_test(raw: Mapping[str, object]) -> WaterTestEntry:
         activity_at=when(v),
         note=v["note"],
         points_file=pts,
+        # The command line fills in --permeate's "0 psi"; nobody typed it. A points file's
+        # values are not kept as text: its points are stored in SI as before.
+        entered=v.entered(skip={"permeate": "0 psi"}),
     )
 
 

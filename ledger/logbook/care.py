@@ -31,6 +31,7 @@ class CleaningInput:
     reagent_lot: str
     rinse_ph: float | None = None
     rinse_conductivity_s_m: float | None = None
+    entered: dict[str, str] | None = None  # field -> text as typed ("0.5 M"), shown as is
 
 
 def _check(c: CleaningInput) -> CleaningInput:

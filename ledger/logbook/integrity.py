@@ -84,7 +84,10 @@ def record_decay_test(
     *,
     activity_at: datetime | None = None,
     note: str | None = None,
+    entered: dict[str, str] | None = None,
 ) -> tuple[IntegrityTest, str | None]:
+    """Record the test; ``entered``: the quantities as typed (field -> "30 psi"), kept beside
+    the SI values so that they are shown as typed."""
     work = begin(session, actor, serial, "integrity", activity_at)
     rate, r2, test_pressure, hold, readings = _decay(d)
     _check_pressure(work, test_pressure)
@@ -114,6 +117,7 @@ def record_decay_test(
         if readings
         else "pressure decay: (start − end) / hold time",
         method_version=f"fluxledger {__version__}",
+        entered=entered or None,
     )
     work.journal.create(test)
     return test, _advance(work, test)
@@ -128,7 +132,10 @@ def record_bubble_point(
     temperature_k: float | None = None,
     activity_at: datetime | None = None,
     note: str | None = None,
+    entered: dict[str, str] | None = None,
 ) -> tuple[IntegrityTest, str | None]:
+    """Record the test; ``entered``: the quantities as typed (field -> "30 psi"), kept beside
+    the SI values so that they are shown as typed."""
     work = begin(session, actor, serial, "integrity", activity_at)
     minimum = work.mtype.bubble_point_min_pa
     if minimum is None:
@@ -153,6 +160,7 @@ def record_bubble_point(
         passed=bubble_point_pa >= minimum,
         method="bubble point: pass at or above the type's minimum",
         method_version=f"fluxledger {__version__}",
+        entered=entered or None,
     )
     work.journal.create(test)
     return test, _advance(work, test)

@@ -45,6 +45,7 @@ class TypeSpec:
     max_volume_loading_m: float | None = None  # m³ of feed per m² of membrane
     max_mass_loading_kg_m2: float | None = None
     clean_hold_s: float | None = None  # pre-use tests older than this must be repeated
+    entered: dict[str, str] | None = None  # field -> text as typed ("30 psi"), shown as is
 
 
 def check_type(spec: TypeSpec) -> TypeSpec:

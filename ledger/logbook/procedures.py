@@ -32,6 +32,7 @@ class ProcedureSpec:
     rinse_ph_min: float | None = None
     rinse_ph_max: float | None = None
     rinse_conductivity_max_s_m: float | None = None
+    entered: dict[str, str] | None = None  # field -> text as typed ("0.5 M"), shown as is
 
 
 def _ordered(field: str, low: float, high: float, what: str) -> None:

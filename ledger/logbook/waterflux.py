@@ -96,8 +96,12 @@ def record_water_test(
     water_grade: str | None = None,
     activity_at: datetime | None = None,
     note: str | None = None,
+    entered: dict[str, str] | None = None,
 ) -> tuple[WaterFluxTest, str | None]:
-    """Record a test; return it and a note on what the status became (hold, available...)."""
+    """Record a test; return it and a note on what the status became (hold, available...).
+
+    ``entered`` holds the quantities as the person typed them (field -> "20 psi"), kept
+    beside the SI values so that they are shown as typed."""
     stage = _stage(stage)
     work = begin(session, actor, serial, f"water:{stage}", activity_at)  # type: ignore[arg-type]
     water.check_temperature(temperature_k)
@@ -176,6 +180,7 @@ def record_water_test(
         verdict=verdict,
         method=method,
         method_version=f"fluxledger {__version__}",
+        entered=entered or None,
     )
     work.journal.create(test)
     return test, _advance(work, test)

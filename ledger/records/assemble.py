@@ -13,14 +13,17 @@ import hashlib
 import re
 import tempfile
 from collections.abc import Sequence
-from datetime import UTC, datetime
+from contextvars import ContextVar
+from datetime import UTC, datetime, tzinfo
 from pathlib import Path
 from typing import Any
 
 from sqlmodel import Session, col, select
 
 from ledger.errors import TamperedError
+from ledger.logbook.site import site_name, site_zone
 from ledger.records import context as c
+from ledger.rules.localtime import local_text
 from ledger.runs import service as runs
 from ledger.runs.plan import Plan, show
 from ledger.runs.template import Template
@@ -57,11 +60,17 @@ def record_id(run_id: int) -> str:
     return f"BR-{run_id:06d}"
 
 
-def iso(at: datetime | None) -> str | None:
-    """ISO 8601 in UTC with its offset, to the second."""
+# The zone of the record being assembled. assemble() sets it once, so the dozen helpers
+# below that print times need not each be handed it; outside assemble() it is UTC.
+_ZONE: ContextVar[tzinfo] = ContextVar("record_zone", default=UTC)
+
+
+def iso(at: datetime | None, zone: tzinfo | None = None) -> str | None:
+    """ISO 8601 local time in ``zone`` (default: the site zone of the record being
+    assembled, else UTC) with its offset, to the second."""
     if at is None:
         return None
-    return at.astimezone(UTC).isoformat(timespec="seconds")
+    return local_text(at, zone or _ZONE.get())
 
 
 def _at(at: datetime | None) -> str:
@@ -85,7 +94,25 @@ def assemble(
     as_of: datetime | None = None,
     audit_seq: int | None = None,
 ) -> c.Context:
-    """The context of ``run_id``; revision 0 is a draft of the live data (no cut-off)."""
+    """The context of ``run_id``; revision 0 is a draft of the live data (no cut-off).
+
+    Every time in it is the site's local time with its offset, in the zone set at ``as_of``
+    (the issue time of a revision), so a revision assembled again shows the same text."""
+    token = _ZONE.set(site_zone(session, as_of))
+    try:
+        return _assemble(session, run_id, revision, reason, as_of, audit_seq)
+    finally:
+        _ZONE.reset(token)
+
+
+def _assemble(
+    session: Session,
+    run_id: int,
+    revision: int,
+    reason: str,
+    as_of: datetime | None,
+    audit_seq: int | None,
+) -> c.Context:
     run = runs.get_run(session, run_id)
     if run.status == "aborted" and revision == 0:
         reason = (f"ABORTED on {iso(run.aborted_at)} by {run.aborted_by}: {run.abort_reason}; "
@@ -133,6 +160,7 @@ def assemble(
         submitted_at=iso(run.submitted_at),
         skid_log=_log_line(session, run_id, log, as_of),
         override_reason=run.override_reason,
+        site=site_name(session, as_of),
     )
     qc_rows = _qc_rows(session, run_id, as_of)
     checks = _checks(plan, template, log, qc_rows, devs, as_of)
@@ -172,7 +200,7 @@ def assemble(
         signature_roles={m: tuple(r) for m, r in template.signers.items()},
         assumptions=_assumptions(summary),
         cautions=tuple(cautions),
-        review=gather(session, run, as_of, checks, dev_rows, log),
+        review=gather(session, run, as_of, checks, dev_rows, log, zone=_ZONE.get()),
     )
 
 
@@ -236,7 +264,9 @@ def _late_note(done_at: datetime, entered_at: datetime) -> str:
 def signature_rows(
     session: Session, run_id: int, up_to: int | None = None
 ) -> tuple[c.SignatureRow, ...]:
-    """The run's signatures (of revisions up to ``up_to``), in the order they were given."""
+    """The run's signatures (of revisions up to ``up_to``), in the order they were given,
+    dated in the site's current zone (signatures are not part of the hashed content)."""
+    zone = site_zone(session)
     rows = session.exec(
         select(Signature).where(Signature.run_id == run_id).order_by(col(Signature.id))
     ).all()
@@ -248,7 +278,7 @@ def signature_rows(
             s.login,
             s.full_name,
             s.role,
-            _at(s.signed_at),
+            iso(s.signed_at, zone) or "—",
             s.revision_sha256,
         )
         for s in rows

@@ -57,6 +57,7 @@ class Header:
     submitted_at: str | None
     skid_log: str | None  # "file.csv (86,400 rows, SHA-256 1a2b…)" or None
     override_reason: str | None  # planned on a module that was not fit, and why
+    site: str | None = None  # the site's name when the revision was issued (None: not set)
 
 
 @dataclass(frozen=True)

@@ -1,4 +1,5 @@
-"""What every page of a batch record carries: running head, footer and the draft watermark.
+"""What every page of a batch record carries: running head, footer, the draft watermark and,
+on a copy of a revision that is not fully signed, a status band.
 
 The footer names the record, revision, short content hash, template and software version,
 "page x of y" and the true-copy statement. "y" is only known once the story is laid out, so
@@ -20,6 +21,10 @@ from ledger.records.context import TRUE_COPY
 
 DRAFT_INK = colors.Color(0.70, 0.10, 0.10)
 WATERMARK = colors.Color(0.95, 0.86, 0.86)
+# The status band: amber, apart from the draft's red; dark ink on it stays legible in grey.
+BAND_FILL = colors.Color(0.98, 0.80, 0.35)
+BAND_INK = colors.Color(0.25, 0.16, 0.0)
+BAND_H = 5.2 * mm
 
 
 @dataclass(frozen=True)
@@ -30,6 +35,7 @@ class Marks:
     head_right: str
     foot: str
     draft: bool
+    band: str | None = None  # e.g. "revision 1 — in review — not for release"
 
 
 def _fitted(canv: Any, text: str, font: str, size: float, room: float) -> float:
@@ -71,6 +77,21 @@ def furniture(canv: Any, marks: Marks, page: int, pages: int) -> None:
     canv.setFillColor(layout.MUTED)
     _fitted(canv, TRUE_COPY, fonts.ITALIC, 6.8, layout.FRAME_W)
     canv.drawString(left, bottom - 9, TRUE_COPY)
+    canv.restoreState()
+    if marks.band:
+        status_band(canv, marks.band)
+
+
+def status_band(canv: Any, text: str) -> None:
+    """A full-width band above the running head, in the top margin clear of the content."""
+    top = layout.PAGE_H - 2.5 * mm
+    canv.saveState()
+    canv.setFillColor(BAND_FILL)
+    canv.rect(0, top - BAND_H, layout.PAGE_W, BAND_H, stroke=0, fill=1)
+    canv.setFillColor(BAND_INK)
+    shown = layout.plain(text)
+    _fitted(canv, shown, fonts.BOLD, 8.5, layout.FRAME_W)
+    canv.drawCentredString(layout.PAGE_W / 2, top - BAND_H + 1.6 * mm, shown)
     canv.restoreState()
 
 

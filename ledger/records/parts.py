@@ -140,6 +140,8 @@ def identity(ctx: Context, content_sha256: str) -> list[Any]:
             ),
         ),
     ]
+    if h.site is not None:
+        wide.insert(0, ("Site", h.site))
     return [*out, Spacer(1, 5), layout.fields_grid(pairs, wide)]
 
 

@@ -23,7 +23,7 @@ import tempfile
 from collections.abc import Iterator
 from datetime import UTC, datetime
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from reportlab import rl_config  # type: ignore[import-untyped]
 from reportlab.platypus import (  # type: ignore[import-untyped]
@@ -37,17 +37,27 @@ from reportlab.platypus import (  # type: ignore[import-untyped]
 from ledger.records import fonts, layout, pages, parts, signblocks
 from ledger.records.context import Context
 
+if TYPE_CHECKING:
+    from ledger.records.copies import Copy
+
 STAMP_PREFIX = "fluxledger-record"
 SHORT_HASH = 12
 HEAD_ROOM = 110.0  # points: a section heading, a note and a few table rows
 
 
-def keywords(ctx: Context, content_sha256: str, software_version: str) -> str:
-    """The machine stamp: record, revision, content hash, signature ids, software version."""
+def keywords(ctx: Context, content_sha256: str, software_version: str,
+             copy: Copy | None = None) -> str:  # fmt: skip
+    """The machine stamp: record, revision, content hash, signature ids, the copy's number,
+    state and meanings (read back by ``copies.from_stamp``), software version."""
     ids = ",".join(str(s.id) for s in ctx.signatures)
     h = ctx.header
+    numbered = (
+        ""
+        if copy is None
+        else f"copy={copy.number};state={copy.state};meanings={','.join(copy.meanings)};"
+    )
     return (f"{STAMP_PREFIX};record={h.record_id};revision={h.revision};sha256={content_sha256};"
-            f"signatures={ids};software={software_version}")  # fmt: skip
+            f"signatures={ids};{numbered}software={software_version}")  # fmt: skip
 
 
 def _time(iso: str | None) -> datetime | None:
@@ -115,20 +125,24 @@ def story(ctx: Context, content_sha256: str, charts: bool) -> list[Any]:
 
 
 def render(ctx: Context, *, software_version: str, charts: bool = True,
-           issued: datetime | None = None) -> bytes:  # fmt: skip
-    """The PDF of one revision of a batch record (A4; same context and ``issued``, same
-    bytes). ``issued`` (the revision's ``as_of``) dates the document; by default
-    :func:`issued_at` of the context."""
+           issued: datetime | None = None, copy: Copy | None = None) -> bytes:  # fmt: skip
+    """The PDF of one revision of a batch record (A4; same context, ``issued`` and ``copy``,
+    same bytes). ``issued`` (the revision's ``as_of``) dates the document; by default
+    :func:`issued_at` of the context. ``copy`` numbers the controlled copy in the running head
+    and the stamp, and a revision not fully signed gets its status band on every page; the
+    content hash does not depend on it."""
     fonts.register()
     content_sha256 = ctx.sha256()
     h = ctx.header
+    numbered = f" · copy {copy.number}" if copy is not None else ""
     marks = pages.Marks(
-        head_left=f"Batch record {h.record_id} · revision {h.revision}",
+        head_left=f"Batch record {h.record_id} · revision {h.revision}{numbered}",
         head_right=f"{h.product} · lot {h.lot} · module {h.module_serial}",
         foot=(f"{h.record_id} · revision {h.revision} · content {content_sha256[:SHORT_HASH]} · "
               f"template {h.template_id} version {h.template_version} · "
               f"fluxledger {software_version}"),
         draft=h.revision == 0,
+        band=copy.band(h.revision) if copy is not None else None,
     )  # fmt: skip
     buffer = io.BytesIO()
     doc = BaseDocTemplate(
@@ -142,7 +156,7 @@ def render(ctx: Context, *, software_version: str, charts: bool = True,
         author="fluxledger",
         subject=f"{h.product} lot {h.lot}",
         creator=f"fluxledger {software_version}",
-        keywords=keywords(ctx, content_sha256, software_version),
+        keywords=keywords(ctx, content_sha256, software_version, copy),
         invariant=1,
         pageCompression=1,
         initialFontName=fonts.SANS,
@@ -187,25 +201,48 @@ def write_atomic(path: Path, data: bytes) -> None:
     """Write ``data`` to ``path`` through a temporary file in the same folder (flushed and
     fsynced, then renamed over ``path``), so a crash leaves the old file or the new one, never
     half of one. The temporary file is removed if anything fails."""
-    path = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as f:
-            f.write(data)
-            f.flush()
-            os.fsync(f.fileno())
-        # mkstemp makes the file private (0600); a record keeps the mode of the one it
-        # replaces, else the usual 0644.
+    Staged(Path(path), data).place()
+
+
+class Staged:
+    """``data`` written and fsynced to a temporary file beside ``path``, not yet in place:
+    ``place`` renames it over ``path``, ``discard`` removes it. A controlled copy is staged,
+    registered and committed, then placed: a file under its final name is always registered."""
+
+    def __init__(self, path: Path, data: bytes) -> None:
+        self.path = path
+        fd, self.tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
         try:
-            mode = path.stat().st_mode & 0o777
-        except FileNotFoundError:
-            mode = 0o644
-        os.chmod(tmp, mode)
-        os.replace(tmp, path)
-    except BaseException:
+            with os.fdopen(fd, "wb") as f:
+                f.write(data)
+                f.flush()
+                os.fsync(f.fileno())
+        except BaseException:
+            self.discard()
+            raise
+
+    def discard(self) -> None:
         with contextlib.suppress(FileNotFoundError):
-            os.unlink(tmp)
-        raise
+            os.unlink(self.tmp)
+
+    def place(self) -> None:
+        path = self.path
+        try:
+            # mkstemp makes the file private (0600); a record keeps the mode of the one it
+            # replaces, else the usual 0644.
+            try:
+                mode = path.stat().st_mode & 0o777
+            except FileNotFoundError:
+                mode = 0o644
+            os.chmod(self.tmp, mode)
+            os.replace(self.tmp, path)
+        except BaseException:
+            self.discard()
+            raise
+        _sync_folder(path)
+
+
+def _sync_folder(path: Path) -> None:
     # The rename itself must reach the disk too (POSIX; not possible on Windows).
     with contextlib.suppress(OSError):
         dir_fd = os.open(path.parent, os.O_RDONLY)

@@ -9,7 +9,10 @@
    run's current revision — the database still gives that content when assembled again as it
    stood when the revision was issued (a value edited after signing shows here);
 4. every signature of the run: bound to its own run's revision by that revision's hash;
-5. the audit trail's hash chain and record hashes (ledger.store.audit.verify).
+5. the audit trail's hash chain and record hashes (ledger.store.audit.verify);
+6. the controlled copy (ledger.records.copies.check): its number is registered with this
+   file's SHA-256, and it claims no signature or state the database does not hold. A copy
+   older than the database (signed further, or corrected, since) is a note, not a problem.
 """
 
 from __future__ import annotations
@@ -24,6 +27,7 @@ from sqlmodel import Session, col, select
 
 from ledger.errors import TamperedError
 from ledger.records import context as c
+from ledger.records import copies
 from ledger.records.assemble import record_id
 from ledger.records.service import current_revision, recompute, stored_context
 from ledger.store.tables import RecordRevision, Run, Signature, UserAccount
@@ -37,6 +41,10 @@ class Report:
 
     record: str | None = None
     revision: int | None = None
+    copy: int | None = None  # the controlled copy's number, its state and signed meanings
+    state: str | None = None
+    signatures: tuple[str, ...] = ()
+    lacks: tuple[str, ...] = ()  # meanings of a fully signed record the copy does not carry
     passed: list[str] = field(default_factory=list)
     problems: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
@@ -145,6 +153,12 @@ def _first_difference(a: bytes, b: bytes) -> int:
 MAX_RECORD_BYTES = 256 << 20
 
 
+def _merge(report: Report, found: copies.Findings) -> None:
+    report.passed += found.passed
+    report.problems += found.problems
+    report.notes += found.notes
+
+
 def verify_file(session: Session, data: bytes, *, trust: Sequence[Path] = ()) -> Report:
     """Check a batch-record PDF (sealed or not) against the database; see the module doc."""
     from ledger.records.pdf import render, stamp_of
@@ -190,7 +204,11 @@ def verify_file(session: Session, data: bytes, *, trust: Sequence[Path] = ()) ->
         )
         return report
     report.revision = number
+    copy = copies.from_stamp(stamp)
+    if copy is not None:
+        report.copy, report.state, report.signatures = copy.number, copy.state, copy.meanings
     if number == 0:
+        _merge(report, copies.check(session, run.id or 0, None, copy, data, (), ()))
         report.problems.append(
             "the file is a draft (revision 0): drafts are not issued records and cannot be verified"
         )
@@ -213,6 +231,11 @@ def verify_file(session: Session, data: bytes, *, trust: Sequence[Path] = ()) ->
     if not found:
         report.passed.append(f"revision {number} content matches its hash and the database")
     ctx = stored_context(session, rev)
+    held = [s.meaning for s in ctx.signatures if s.revision == number]
+    if copy is not None:
+        report.lacks = tuple(m for m in ctx.required_signatures if m not in copy.meanings)
+    _merge(report, copies.check(session, rev.run_id, rev, copy, data,
+                                ctx.required_signatures, held))  # fmt: skip
     ids = [int(x) for x in stamp.get("signatures", "").split(",") if x.strip().isdigit()]
     rows = {s.id: s for s in ctx.signatures}
     unknown = [i for i in ids if i not in rows]
@@ -229,8 +252,8 @@ def verify_file(session: Session, data: bytes, *, trust: Sequence[Path] = ()) ->
         )
     shown = ctx.with_signatures(tuple(rows[i] for i in ids if i in rows))
     software = stamp.get("software", "")
-    expected = [render(shown, software_version=software, charts=charts, issued=rev.as_of)
-                for charts in (True, False)]  # fmt: skip
+    expected = [render(shown, software_version=software, charts=charts, issued=rev.as_of,
+                       copy=copy) for charts in (True, False)]  # fmt: skip
     if base in expected:
         report.passed.append("the file is byte for byte the record rendered from the database")
     else:

@@ -103,11 +103,15 @@ def plan_run(
     product_override_reason: str | None = None,
     planned_at: datetime | None = None,
     skid: str | None = None,
+    template_version: str | None = None,
 ) -> Run:
     """Plan a run on a module. A module that is not fit needs an engineer's or QA's override
     with a reason; so does a template written for another product (the reason is kept in the
-    plan record and the audit event); a failing plan check (module loading) refuses the plan."""
+    plan record and the audit event); a failing plan check (module loading) refuses the plan.
+    The template is the version in force at the plan time (``ledger.runs.versions``); a
+    ``template_version`` or a file given must be that version."""
     from ledger.rules import planning
+    from ledger.runs.versions import for_plan
 
     require_role(actor, DECIDERS, "plan runs")
     product = required("product", product, "the product of the run", kind="identifier")
@@ -117,7 +121,9 @@ def plan_run(
         "product_override_reason", product_override_reason,
         "why the template of another product is used",
     )  # fmt: skip
-    tmpl = templates.find(template_ref)
+    journal = Journal(session, actor.login)
+    planned_at, _ = activity_time(planned_at, journal.at)
+    _, tmpl = for_plan(session, template_ref, template_version, planned_at)
     skid_id = None
     if skid is not None:
         from ledger.equipment.service import current_mapping, get_skid
@@ -143,8 +149,6 @@ def plan_run(
     module = get_module(session, serial)
     mtype = session.get(ModuleType, module.type_id)
     assert mtype is not None
-    journal = Journal(session, actor.login)
-    planned_at, _ = activity_time(planned_at, journal.at)
     judged = verdict(facts(session, module, product, now=journal.at))
     failing = [r for r in judged.reasons if r.outcome == "fail"]
     if failing and not (override_reason and override_reason.strip()):

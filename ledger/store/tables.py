@@ -120,6 +120,10 @@ class ModuleType(Recorded, table=True):
     max_volume_loading_m: float | None = None  # feed volume per membrane area (m³/m²)
     max_mass_loading_kg_m2: float | None = None
     clean_hold_s: float | None = None  # pre-use tests must be this recent at a run's start
+    # As typed, field -> text with its unit (e.g. {"concentration": "0.5 M"}), so a value is
+    # shown in the unit it was entered in; the SI columns hold the values computed with.
+    entered: dict[str, str] | None = Field(default=None, sa_type=JSON)
+    hash_defaults: ClassVar[dict[str, Any]] = {"entered": None}
 
 
 class Module(Recorded, table=True):
@@ -165,6 +169,10 @@ class WaterFluxTest(Activity, table=True):
     verdict: str | None = Field(default=None, max_length=16)  # pass, alert, fail
     method: str
     method_version: str
+    # As typed, field -> text with its unit (e.g. {"concentration": "0.5 M"}), so a value is
+    # shown in the unit it was entered in; the SI columns hold the values computed with.
+    entered: dict[str, str] | None = Field(default=None, sa_type=JSON)
+    hash_defaults: ClassVar[dict[str, Any]] = {"entered": None}
 
 
 class IntegrityTest(Activity, table=True):
@@ -191,6 +199,10 @@ class IntegrityTest(Activity, table=True):
     passed: bool
     method: str
     method_version: str
+    # As typed, field -> text with its unit (e.g. {"concentration": "0.5 M"}), so a value is
+    # shown in the unit it was entered in; the SI columns hold the values computed with.
+    entered: dict[str, str] | None = Field(default=None, sa_type=JSON)
+    hash_defaults: ClassVar[dict[str, Any]] = {"entered": None}
 
 
 class CleaningProcedure(Recorded, table=True):
@@ -212,6 +224,10 @@ class CleaningProcedure(Recorded, table=True):
     rinse_ph_min: float | None = None
     rinse_ph_max: float | None = None
     rinse_conductivity_max_s_m: float | None = None
+    # As typed, field -> text with its unit (e.g. {"concentration": "0.5 M"}), so a value is
+    # shown in the unit it was entered in; the SI columns hold the values computed with.
+    entered: dict[str, str] | None = Field(default=None, sa_type=JSON)
+    hash_defaults: ClassVar[dict[str, Any]] = {"entered": None}
 
 
 class Cleaning(Activity, table=True):
@@ -232,6 +248,10 @@ class Cleaning(Activity, table=True):
     procedure_id: int | None = Field(default=None, foreign_key="cleaning_procedure.id")
     # None: not checked against a procedure; []: conforms; else each departure in words.
     deviations: list[str] | None = Field(default=None, sa_type=JSON)
+    # As typed, field -> text with its unit (e.g. {"concentration": "0.5 M"}), so a value is
+    # shown in the unit it was entered in; the SI columns hold the values computed with.
+    entered: dict[str, str] | None = Field(default=None, sa_type=JSON)
+    hash_defaults: ClassVar[dict[str, Any]] = {"entered": None}
 
 
 class Storage(Activity, table=True):
@@ -532,3 +552,69 @@ def primary_key(record: Recorded) -> str:
     """The record's primary key as text (audit events store it so)."""
     value: Any = getattr(record, "key", None) if isinstance(record, Setting) else record.id  # type: ignore[attr-defined]
     return str(value)
+
+
+class RecordCopy(Recorded, table=True):
+    """One controlled copy of a batch record: a print or a sealed file, numbered within the
+    run, with the revision and signatures it carries and the SHA-256 of the file written."""
+
+    __tablename__ = "record_copy"
+    __table_args__ = (
+        Index("ix_record_copy_run_number", "run_id", "copy_number", unique=True),
+        {"sqlite_autoincrement": True},
+    )
+
+    id: int | None = Field(default=None, primary_key=True)
+    run_id: int = Field(foreign_key="run.id")
+    copy_number: int  # 1, 2, ... within the run
+    revision: int  # 0 for a draft
+    revision_sha256: str | None = Field(default=None, max_length=64)
+    state: str = Field(max_length=32)  # draft, in review, approved, superseded
+    signatures: list[str] = Field(sa_type=JSON)  # the meanings the copy carries, in order
+    file_name: str
+    file_sha256: str = Field(max_length=64)
+    kind: str = Field(max_length=16)  # print, sealed, archive
+
+
+# Defined after RECORDS, so it joins it here: copies are audited like every record.
+RECORDS["record_copy"] = RecordCopy
+
+
+TEMPLATE_STATES = ("draft", "approved", "retired")  # stored; "effective" is read off the clock
+
+
+class TemplateVersion(Recorded, table=True):
+    """One version of a master-record template: the file's exact text and its SHA-256, who
+    wrote it, which QA approved it and from when it takes effect, and its retirement.
+
+    ``state`` holds what people decided (draft, approved, retired); whether an approved
+    version is effective is a matter of ``effective_from`` against the clock, so it is derived
+    (ledger.rules.versions), never stored: storing it would need a write at that time that
+    nobody makes."""
+
+    __tablename__ = "template_version"
+    __table_args__ = (
+        Index("ix_template_version_id_version", "template_id", "version", unique=True),
+        Index("ix_template_version_sha256", "sha256"),
+        {"sqlite_autoincrement": True},
+    )
+
+    id: int | None = Field(default=None, primary_key=True)
+    template_id: str = Field(max_length=64)
+    version: str = Field(max_length=32)
+    sha256: str = Field(max_length=64)  # of the file's bytes (text is those bytes, UTF-8)
+    text: str
+    title: str
+    source: str  # the file name it was submitted from
+    state: str = Field(default="draft", max_length=16)  # TEMPLATE_STATES
+    authored_by: str = Field(max_length=64)
+    approved_by: str | None = Field(default=None, max_length=64)
+    approved_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    effective_from: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    late_reason: str | None = None  # why an approval takes effect from a time already past
+    retired_by: str | None = Field(default=None, max_length=64)
+    retired_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    retire_reason: str | None = None
+
+
+RECORDS["template_version"] = TemplateVersion

@@ -132,14 +132,18 @@ def test_demo_writes_signed_and_sealed_records_the_readme_can_verify(
     from ledger.records.seal import examine
 
     tmp_path, _ = demo
-    signed = (tmp_path / "BR-000001-rev1.pdf").read_bytes()
-    sealed = (tmp_path / "BR-000001-rev1-sealed.pdf").read_bytes()
+    signed = (tmp_path / "BR-000001-rev1-approved-copy2.pdf").read_bytes()
+    sealed = (tmp_path / "BR-000001-rev1-approved-copy3-sealed.pdf").read_bytes()
     stamp = stamp_of(signed)
     assert stamp is not None and stamp["record"] == "BR-000001" and stamp["revision"] == "1"
     assert len(stamp["signatures"].split(",")) == 4  # performed, verified, reviewed, approved
     report = examine(sealed, trust=[tmp_path / "demo-seal" / "seal-cert.pem"])
     assert report.sealed and report.intact and report.whole_file and report.trusted
-    assert sealed[: report.signed_length] == signed
+    # The sealed file is its own copy (3) of the same revision content as the print (copy 2).
+    base = stamp_of(sealed[: report.signed_length])
+    assert base is not None and base["sha256"] == stamp["sha256"]
+    assert (stamp["copy"], stamp["state"], base["copy"], base["state"]) == (
+        "2", "approved", "3", "approved")  # fmt: skip
     readme = (Path(__file__).resolve().parents[2] / "README.md").read_text(encoding="utf-8")
     lines = [
         line.strip()
@@ -178,7 +182,8 @@ def test_demo_refuses_its_own_folder_once_other_files_were_added(
     folder = tmp_path / "demo-copy"
     shutil.copytree(earlier, folder)
     marker = json.loads((folder / ".fluxledger-demo").read_text())
-    assert "fluxledger.db" in marker["files"] and "BR-000001-rev1.pdf" in marker["files"]
+    assert "fluxledger.db" in marker["files"]
+    assert "BR-000001-rev1-approved-copy2.pdf" in marker["files"]
     (folder / "my-own-report.pdf").write_bytes(b"%PDF-1.7 mine")
     before = {p.name: p.stat().st_mtime_ns for p in folder.iterdir()}
     out = cli("demo", "--out", str(folder))

@@ -181,7 +181,7 @@ def test_a_log_in_two_files_is_joined_kept_and_read_by_the_record(
     )
     assert f"voided: skid.csv (SHA-256 {reference.sha256[:16]}…) by eng.ray" in line
     assert ctx.charts and all(series.raw_points == rows for series in ctx.charts)
-    world.ok(world.cli("record", "print", "1", "--out", str(tmp_path / "br.pdf")))
+    world.ok(world.as_user("eng.ray", "record", "print", "1", "--out", str(tmp_path / "br.pdf")))
     from pypdf import PdfReader
 
     text = " ".join(

@@ -72,7 +72,7 @@ def test_an_aborted_run_sends_its_module_to_cleaning(world: World, tmp_path: Pat
     again = world.as_user("eng.ray", "run", "abort", "1", "--reason", "twice")
     assert again.code == 3 and "aborted" in again.stderr
     pdf = tmp_path / "aborted.pdf"
-    world.ok(world.cli("record", "print", "1", "--out", str(pdf)))
+    world.ok(world.as_user("eng.ray", "record", "print", "1", "--out", str(pdf)))
     from pypdf import PdfReader
 
     text = PdfReader(str(pdf)).pages[0].extract_text()
@@ -108,7 +108,7 @@ def test_a_run_on_a_registered_skid_reads_its_log_through_the_approved_mapping(
     warnings = done.json()["warnings"]
     assert any("PT-101" in w and "2026-01-31" in w for w in warnings), warnings
     pdf = tmp_path / "draft.pdf"
-    world.ok(world.cli("record", "print", "1", "--out", str(pdf)))
+    world.ok(world.as_user("eng.ray", "record", "print", "1", "--out", str(pdf)))
     from pypdf import PdfReader
 
     text = " ".join(PdfReader(str(pdf)).pages[0].extract_text().split())

@@ -50,7 +50,7 @@ def test_plan_prints_every_planned_parameter(world: World) -> None:
     feed = next(r for r in out["plan"] if r["name"] == "feed_flow")
     assert feed["planned"]["unit"] == "mL/min"
     assert feed["planned"]["value"] == pytest.approx(353.43, rel=1e-4)
-    assert out["run_1"]["template"] == "QB-MR-LNP-101 v6"
+    assert out["run_1"]["template"] == "QB-MR-LNP-101 v7"
     assert len(out["run_1"]["template_sha256"]) == 64
     assert any("validated procedures" in n for n in out["notes"])
 

@@ -36,8 +36,9 @@ def used(backend: str, worlds: Worlds, tmp_path: Path) -> Iterator[World]:
 def test_procedures_are_listed_with_their_ranges(used: World) -> None:
     rows = used.cli("care", "procedure", "list", "--json").json()["procedures"]
     assert [r["code"] for r in rows] == ["CP-NAOH-05"]
-    assert rows[0]["concentration"] == "0.4500 mol/L – 0.5500 mol/L"
-    assert rows[0]["contact_time_min"] == {"value": 60.0, "unit": "min"}
+    assert rows[0]["concentration"] == "0.45 mol/L (450 mol/m³) – 0.55 mol/L (550 mol/m³)"
+    # JSON keeps the value and adds the text as typed (issue 14 item 3)
+    assert rows[0]["contact_time_min"] == {"value": 60.0, "unit": "min", "entered": "60 min"}
 
 
 def test_a_conforming_cleaning_leaves_the_module_cleaned(used: World) -> None:

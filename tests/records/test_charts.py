@@ -358,8 +358,8 @@ def test_a_printed_record_is_dated_by_its_revision_issue_time(
     from ledger.store.tables import RecordRevision
 
     w = approved_sqlite
-    w.ok(w.cli("record", "print", "1", "--out", str(tmp_path)))
-    path = tmp_path / "BR-000001-rev1.pdf"
+    args = ("record", "print", "1", "--out", str(tmp_path / "BR-1.pdf"), "--json")
+    path = Path(w.ok(w.as_user("qa.lin", *args)).json()["file"])
     with Session(w.engine()) as session:
         rev = session.exec(select(RecordRevision)).one()
         issued = rev.as_of
@@ -369,6 +369,6 @@ def test_a_printed_record_is_dated_by_its_revision_issue_time(
         session.add(rev)
         session.commit()
     assert _dates(path.read_bytes()) == (issued.replace(microsecond=0),) * 2
-    w.ok(w.cli("record", "print", "1", "--out", str(tmp_path), "--force"))
+    w.ok(w.as_user("qa.lin", *args, "--force"))
     moved = issued.replace(microsecond=0) + timedelta(days=1, seconds=7)
     assert _dates(path.read_bytes()) == (moved, moved)

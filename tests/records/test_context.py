@@ -40,7 +40,7 @@ def test_header_names_the_record_template_module_and_log(review: World, tmp_path
         "QB-117",
         "QB117-26-020",
     )
-    assert (h.template_id, h.template_version) == ("QB-MR-LNP-101", "6")
+    assert (h.template_id, h.template_version) == ("QB-MR-LNP-101", "7")
     raw = (shipped_dir() / "qb_lnp_buffer_exchange.toml").read_bytes()
     assert h.template_sha256 == hashlib.sha256(raw).hexdigest()
     assert (h.module_serial, h.module_type, h.module_area, h.cycle) == (

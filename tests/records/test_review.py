@@ -89,7 +89,7 @@ def test_a_run_with_one_fail_one_override_and_one_late_entry_shows_exactly_those
     human = world.cli("record", "review", "1").stdout
     assert "3 to look at" in human
     # The printed record opens with the same summary, before anything else.
-    world.ok(world.cli("record", "print", "1", "--out", str(tmp_path)))
+    world.ok(world.as_user("eng.ray", "record", "print", "1", "--out", str(tmp_path)))
     (pdf,) = tmp_path.glob("BR-*.pdf")
     text = _pdf_text(pdf)
     assert text.index("Review by exception") < text.index("Cautions")

@@ -174,19 +174,24 @@ def test_print_keeps_an_existing_file_unless_told_to_overwrite_it(
     w = review_sqlite
     target = tmp_path / "record.pdf"
     target.write_bytes(b"the user's own file")
-    refused = w.cli("record", "print", "1", "--out", str(target))
+    before = w.snapshot()
+    refused = w.as_user("op.kim", "record", "print", "1", "--out", str(target))
     assert refused.code == 2 and "--out" in refused.stderr and "--force" in refused.stderr
     assert "Traceback" not in refused.stderr
     assert target.read_bytes() == b"the user's own file"  # nothing written
-    assert not list(tmp_path.glob("*.tmp*"))
+    assert not list(tmp_path.glob("*.tmp*")) and not list(tmp_path.glob(".*.part"))
+    assert w.snapshot() == before  # no copy registered
     # A folder whose default file name is taken is refused alike.
-    w.ok(w.cli("record", "print", "1", "--out", str(tmp_path)))
-    default = tmp_path / "BR-000001-draft.pdf"
+    w.ok(w.as_user("op.kim", "record", "print", "1", "--out", str(tmp_path)))
+    default = tmp_path / "BR-000001-draft-copy1.pdf"
     first = default.read_bytes()
-    again = w.cli("record", "print", "1", "--out", str(tmp_path))
-    assert again.code == 2 and str(default) in again.stderr
+    (tmp_path / "BR-000001-draft-copy2.pdf").write_bytes(b"another file of the user's")
+    again = w.as_user("op.kim", "record", "print", "1", "--out", str(tmp_path))
+    assert again.code == 2 and str(tmp_path / "BR-000001-draft-copy2.pdf") in again.stderr
     # --force overwrites: the PDF replaces the user's file.
-    forced = w.ok(w.cli("record", "print", "1", "--out", str(target), "--force", "--json"))
+    forced = w.ok(
+        w.as_user("op.kim", "record", "print", "1", "--out", str(target), "--force", "--json")
+    )
     assert forced.json()["file"] == str(target)
     assert target.read_bytes().startswith(b"%PDF-")
     assert default.read_bytes() == first

@@ -14,8 +14,9 @@ from tests.world import World
 
 
 def _print(w: World, out: Path, run: int = 1, *extra: str) -> Path:
-    w.ok(w.cli("record", "print", str(run), "--out", str(out), *extra))
-    return out / f"BR-{run:06d}-rev1.pdf"
+    """Print a copy (an audited write: by qa.lin); the file it wrote."""
+    args = ("record", "print", str(run), "--out", str(out), "--json", *extra)
+    return Path(w.ok(w.as_user("qa.lin", *args)).json()["file"])
 
 
 def _verify(w: World, path: Path) -> tuple[int, str]:
@@ -29,12 +30,17 @@ def test_a_printed_record_verifies_and_prints_identically_twice(
 ) -> None:
     first = _print(approved, tmp_path)
     data = first.read_bytes()
-    again = _print(approved, tmp_path, 1, "--force")
-    assert again.read_bytes() == data  # same database content -> identical bytes
-    assert not list(tmp_path.glob("*.tmp*"))  # the temporary file was renamed
-    code, out = _verify(approved, first)
-    assert code == 0, out
-    assert "byte for byte" in out and "bound to their revision" in out
+    again = _print(approved, tmp_path)
+    # Each print is its own numbered copy, so the bytes differ by the copy number; verify
+    # renders each again from the database and finds it byte for byte the same.
+    assert (first.name, again.name) == ("BR-000001-rev1-approved-copy1.pdf",
+                                        "BR-000001-rev1-approved-copy2.pdf")  # fmt: skip
+    assert again.read_bytes() != data and first.read_bytes() == data
+    assert not list(tmp_path.glob("*.tmp*")) and not list(tmp_path.glob(".*.part"))
+    for path in (first, again):
+        code, out = _verify(approved, path)
+        assert code == 0, out
+        assert "byte for byte" in out and "bound to their revision" in out
 
 
 def test_one_flipped_byte_in_the_pdf_is_found(approved_sqlite: World, tmp_path: Path) -> None:
@@ -113,7 +119,8 @@ def test_a_sealed_record_verifies_and_an_edit_after_sealing_is_found(
         organization="Quellmoor Biotherapeutics (invented)",
         passphrase=b"seal-pass-1",
     )
-    sealed = approved_sqlite.cli(
+    sealed = approved_sqlite.as_user(
+        "qa.lin",
         "record",
         "seal",
         "1",
@@ -122,10 +129,12 @@ def test_a_sealed_record_verifies_and_an_edit_after_sealing_is_found(
         "--key-password-stdin",
         "--out",
         str(tmp_path),
-        input="seal-pass-1\n",
+        "--json",
+        extra=["seal-pass-1"],
     )
     approved_sqlite.ok(sealed)
-    path = tmp_path / "BR-000001-rev1-sealed.pdf"
+    path = tmp_path / "BR-000001-rev1-approved-copy1-sealed.pdf"
+    assert sealed.json()["file"] == str(path) and sealed.json()["sealed"] is True
     r = approved_sqlite.cli("record", "verify", str(path), "--trust", str(ident.cert), "--json")
     assert r.code == 0, r.stdout
     assert "digital seal intact" in r.stdout

@@ -164,43 +164,52 @@ def test_killed_skid_log_imports(started_world: World, tmp_path: Path) -> None:
 
 
 def test_killed_record_prints(review_world: World, tmp_path: Path) -> None:
+    """Each print is a numbered, audited copy: staged, registered, committed, then renamed
+    into place. Whatever the kill hits, a file under the final name is whole and is a
+    registered copy (its SHA-256 is a record_copy row's)."""
+    import hashlib
+
     out = tmp_path / "pdf"
     out.mkdir()
-    reference: list[bytes] = []
+    db = sqlite_path(review_world.url)
+    assert db is not None
+
+    def registered() -> set[str]:
+        with sqlite3.connect(db) as conn:
+            return {r[0] for r in conn.execute("SELECT file_sha256 FROM record_copy")}
 
     def fresh(i: int) -> tuple[list[str], str | None]:
         for f in out.iterdir():
             f.unlink()
         return ["record", "print", "1", "--out", str(out / "BR-1.pdf"), "--force",
-                "--db", review_world.url], None  # fmt: skip
+                "--user", "op.kim", "--password-stdin", "--db", review_world.url], None  # fmt: skip
+
+    stdin = PASSWORDS["op.kim"] + "\n"
 
     def after(i: int, killed: Child, again: Child) -> None:
         assert again.code == 0, again.output
         final = out / "BR-1.pdf"
         data = final.read_bytes()
         assert data.startswith(b"%PDF-") and data.rstrip().endswith(b"%%EOF")
-        if reference:
-            assert data == reference[0]  # the same content gives the same bytes
-        else:
-            reference.append(data)
+        assert hashlib.sha256(data).hexdigest() in registered()
 
     # The kill's own leftovers are looked at before the repeat overwrites the final name.
     rng = random.Random(SEED + 1)
     argv, _ = fresh(-1)
-    whole = run(tmp_path, argv)
+    whole = run(tmp_path, argv, stdin)
     assert whole.code == 0, whole.output
-    reference.append((out / "BR-1.pdf").read_bytes())
+    after(-1, whole, whole)
     killed_count = 0
     for i in range(12):
         argv, _ = fresh(i)
-        killed = run(tmp_path, argv, kill_after=rng.uniform(0.0, whole.seconds))
+        killed = run(tmp_path, argv, stdin, kill_after=rng.uniform(0.0, whole.seconds))
         final = out / "BR-1.pdf"
         if killed.code is None:
             killed_count += 1
-        if final.exists():  # only ever the whole file under its final name
-            assert final.read_bytes() == reference[0]
-        check_database(sqlite_path(review_world.url))  # type: ignore[arg-type]
-        again = run(tmp_path, argv)
+        if final.exists():  # only ever the whole file, and a registered copy, under its name
+            assert hashlib.sha256(final.read_bytes()).hexdigest() in registered()
+        check_database(db)
+        again = run(tmp_path, argv, stdin)
         after(i, killed, again)
     assert killed_count >= 6, killed_count
     # A temporary ".BR-1.pdf.*.part" may stay behind after SIGKILL; it never has the final name.

@@ -52,7 +52,7 @@ def test_three_mistakes_are_reported_together_with_their_lines() -> None:
 
 def test_mistakes_in_every_part_of_the_file_are_all_reported() -> None:
     text = (
-        LNP.replace('version = "6"\n', 'version = "6"\nauthor = "x"\n')
+        LNP.replace('version = "7"\n', 'version = "7"\nauthor = "x"\n')
         .replace('default = "4000 1/s"', 'default = "4000 mL"')
         .replace('actual = "tmp.mean"', 'actual = "tmp.median"')
         .replace('signatures = ["performed"]', 'signatures = ["witnessed"]')

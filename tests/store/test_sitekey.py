@@ -8,6 +8,7 @@ import os
 import stat
 from collections.abc import Iterator
 from pathlib import Path
+from typing import Any
 
 import pytest
 from sqlalchemy import text
@@ -132,6 +133,45 @@ def test_rotation_re_keys_the_chain_as_an_audited_event(keyed: World, tmp_path: 
     assert _problems(keyed) == []
 
 
+def _forget_entered_texts(conn: Any) -> None:
+    """Rows as revision 0007 wrote them: no ``entered`` texts (0010 added them), so their
+    hashes and creation events are those of rows without one (hash_defaults)."""
+    from ledger.store import tables
+
+    with audit._triggers_lifted(conn):
+        for cls in (tables.ModuleType, tables.WaterFluxTest, tables.IntegrityTest,
+                    tables.CleaningProcedure, tables.Cleaning):  # fmt: skip
+            table: Any = cls.__table__  # type: ignore[attr-defined]
+            for row in conn.execute(table.select().where(table.c.entered.is_not(None))):
+                values = {**row._mapping, "entered": None}
+                content = audit._values(table, cls.hash_excluded, values.__getitem__,
+                                        cls.hash_defaults)  # fmt: skip
+                new = audit._digest(table.name, content)
+                conn.execute(table.update().where(table.c.id == row.id)
+                             .values(entered=None, record_hash=new))  # fmt: skip
+                events = audit._EVENT_TABLE
+                conn.execute(events.update().where(events.c.record_hash == row.record_hash)
+                             .values(record_hash=new))  # fmt: skip
+
+
+def _forget_template_versions(conn: Any) -> None:
+    """No template versions (0011 added them): the world's registration of the shipped
+    templates is the last thing it wrote, so its rows and their final events go."""
+    events = audit._EVENT_TABLE
+    first = conn.execute(
+        text("SELECT min(seq) FROM audit_event WHERE entity = 'template_version'")
+    ).scalar_one()
+    later = conn.execute(
+        text("SELECT count(*) FROM audit_event WHERE seq >= :s AND entity <> 'template_version'"),
+        {"s": first},
+    ).scalar_one()
+    assert later == 0, "template versions are no longer the world's last events"
+    with audit._triggers_lifted(conn):
+        conn.execute(events.delete().where(events.c.seq >= first))
+        conn.execute(text("DELETE FROM template_version"))
+        conn.execute(text("UPDATE audit_head SET seq = :s"), {"s": first - 1})
+
+
 def test_a_database_from_before_keying_is_keyed_by_init(world: World) -> None:
     """Turn a world back into what revision 0007 wrote (plain SHA-256 chain, no key columns),
     then `init`: the chain is verified, re-linked under the key and the old head recorded."""
@@ -141,6 +181,8 @@ def test_a_database_from_before_keying_is_keyed_by_init(world: World) -> None:
 
     engine = world.engine()
     with engine.begin() as conn:
+        _forget_entered_texts(conn)
+        _forget_template_versions(conn)
         table = audit._EVENT_TABLE
         rows = [dict(r._mapping) for r in conn.execute(table.select().order_by(table.c.seq))]
         prev = audit.GENESIS
