@@ -107,6 +107,19 @@ def decay_rate(
     )
 
 
+def checked_decay_rate(decay_rate_pa_s: float) -> float:
+    """A pressure-decay rate (Pa/s) that is finite and not negative, else a DomainError."""
+    rate = finite("decay_rate_pa_s", decay_rate_pa_s)
+    if rate < 0.0:
+        raise out_of_range(
+            "decay_rate_pa_s",
+            decay_rate_pa_s,
+            "a value of zero or more (a rising pressure implies no gas loss; check that the "
+            "temperature was stable during the hold)",
+        )
+    return rate
+
+
 def gas_flow_from_decay(
     decay_rate_pa_s: float,
     upstream_volume_m3: float,
@@ -119,14 +132,7 @@ def gas_flow_from_decay(
     gas (Boyle's law): the gas lost from V_up is expressed as a volume at P_atm and the same
     temperature. Source: EPA 815-R-06-009 (2005) ch. 4.
     """
-    rate = finite("decay_rate_pa_s", decay_rate_pa_s)
-    if rate < 0.0:
-        raise out_of_range(
-            "decay_rate_pa_s",
-            decay_rate_pa_s,
-            "a value of zero or more (a rising pressure implies no gas loss; check that the "
-            "temperature was stable during the hold)",
-        )
+    rate = checked_decay_rate(decay_rate_pa_s)
     volume = positive("upstream_volume_m3", upstream_volume_m3)
     p_atm = positive("atmospheric_pressure_pa", atmospheric_pressure_pa)
     return volume * rate / p_atm
