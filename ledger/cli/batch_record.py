@@ -124,13 +124,19 @@ def print_record(
     def work(s: Any, a: Any, staged: list[Any]) -> tuple[Any, Any, Any, bytes]:
         issued = record_of(s, run, revision)
         ctx = issued.context
-        copy = copies.new_copy(s, run, issued, "print")
-        path = _out(out, _file_name(ctx, copy), force)
         issue = issued.revision.as_of if issued.revision else None
-        data = render(ctx, software_version=_software(), charts=not no_charts, issued=issue,
-                      copy=copy)  # fmt: skip
-        staged.append(Staged(path, data))
-        copies.register(s, a, run, issued, copy, path.name, data)
+        paths: list[Path] = []
+
+        def name(copy: Any) -> str:
+            paths.append(_out(out, _file_name(ctx, copy), force))
+            return paths[-1].name
+
+        def produce(copy: Any) -> bytes:
+            return render(ctx, software_version=_software(), charts=not no_charts,
+                          issued=issue, copy=copy)  # fmt: skip
+
+        copy, data = copies.make_copy(s, a, run, issued, "print", name=name, produce=produce)
+        staged.append(Staged(paths[-1], data))
         return issued, copy, staged[-1], data
 
     login = _user(user, password_stdin)
@@ -380,21 +386,26 @@ def seal(
         password = read_secret("Key password", from_stdin=key_password_stdin)
         issued = approved_record(s, run, revision)
         ctx = issued.context
-        copy = copies.new_copy(s, run, issued, "sealed")
-        path = _out(out, _file_name(ctx, copy, "-sealed"), force)
         issue = issued.revision.as_of if issued.revision else None
-        data = render(ctx, software_version=_software(), issued=issue, copy=copy)
-        sealed = do_seal(
-            data,
-            key_file=key,
-            cert_file=cert,
-            passphrase=password.encode() or None,
-            tsa_url=tsa or os.environ.get("FLUXLEDGER_TSA_URL") or None,
-            reason=f"Batch record {ctx.header.record_id} revision {ctx.header.revision}, "
-            f"approved, copy {copy.number}",
-        )
-        staged.append(Staged(path, sealed))
-        copies.register(s, a, run, issued, copy, path.name, sealed)
+        paths: list[Path] = []
+
+        def name(copy: Any) -> str:
+            paths.append(_out(out, _file_name(ctx, copy, "-sealed"), force))
+            return paths[-1].name
+
+        def produce(copy: Any) -> bytes:
+            return do_seal(
+                render(ctx, software_version=_software(), issued=issue, copy=copy),
+                key_file=key,
+                cert_file=cert,
+                passphrase=password.encode() or None,
+                tsa_url=tsa or os.environ.get("FLUXLEDGER_TSA_URL") or None,
+                reason=f"Batch record {ctx.header.record_id} revision {ctx.header.revision}, "
+                f"approved, copy {copy.number}",
+            )
+
+        copy, sealed = copies.make_copy(s, a, run, issued, "sealed", name=name, produce=produce)
+        staged.append(Staged(paths[-1], sealed))
         return issued, copy, staged[-1], sealed
 
     issued, copy, path, data = _make_copy(db, login, password_stdin, work)

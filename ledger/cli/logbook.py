@@ -28,7 +28,9 @@ def water(
     stage: str = typer.Option(..., "--stage", help="baseline, pre-use, post-use or post-clean."),
     feed: str | None = quantity_option(None, "--feed", help="Feed pressure (gauge), '10 psi'."),
     retentate: str | None = quantity_option(None, "--retentate", help="Retentate pressure."),
-    permeate: str = quantity_option("0 psi", "--permeate", help="Permeate pressure (default 0)."),
+    permeate: str | None = quantity_option(
+        None, "--permeate", help="Permeate pressure (default 0)."
+    ),
     flow: str | None = quantity_option(None, "--flow", help="Permeate flow, '120 mL/min'."),
     volume: str | None = quantity_option(
         None, "--volume", help="Or: permeate collected, '250 mL'."

@@ -9,7 +9,6 @@ import typer
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
 from ledger.cli.describe import SITE_NOTE, finish
 from ledger.cli.session import DB_OPTION, PASSWORD_STDIN, USER_OPTION, read, write
-from ledger.entries.defaults import TYPE_DEFAULTS as TYPE
 
 types_app = typer.Typer(
     help="Module types: geometry, membrane and the site's limits.", no_args_is_help=True
@@ -60,26 +59,26 @@ def type_add(
         help="How recent the pre-use water-flux and integrity tests must be when a run "
         "starts, e.g. '72 h' (default: the storage limit).",
     ),
-    reference_temperature: str = quantity_option(
-        TYPE["reference_temperature"],
+    reference_temperature: str | None = quantity_option(
+        None,
         "--reference-temperature",
         help="T_ref of NWP (default 20 degC).",
     ),
-    recovery_min: str = quantity_option(
-        TYPE["recovery_min"], "--recovery-min", help="Post-clean recovery minimum (default 80 %)."
+    recovery_min: str | None = quantity_option(
+        None, "--recovery-min", help="Post-clean recovery minimum (default 80 %)."
     ),
-    recovery_alert: str = quantity_option(
-        TYPE["recovery_alert"], "--recovery-alert", help="Alert below (default 90 %)."
+    recovery_alert: str | None = quantity_option(
+        None, "--recovery-alert", help="Alert below (default 90 %)."
     ),
-    damage_ratio: str = quantity_option(
-        TYPE["damage_ratio"],
+    damage_ratio: str | None = quantity_option(
+        None,
         "--damage-ratio",
-        help="NWP above this share of baseline suggests damage (120 %).",
+        help="NWP above this share of baseline suggests damage (default 120 %).",
     ),
-    preuse_band: str = quantity_option(
-        TYPE["preuse_band"],
+    preuse_band: str | None = quantity_option(
+        None,
         "--preuse-band",
-        help="Pre-use NWP band around the last post-clean (±10 %).",
+        help="Pre-use NWP band around the last post-clean (default ±10 %).",
     ),
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,

@@ -51,7 +51,6 @@ def template_submit(
 ) -> None:
     """Submit a template file as a draft version (engineer). QA approves it next; the same
     file again changes nothing."""
-    from ledger.cli.output import Report
     from ledger.entries.templates import submit as entry
     from ledger.runs.versions import submit
 
@@ -66,15 +65,7 @@ def template_submit(
             typer.echo(f"template {found.template_id} version {found.version} is submitted "
                        f"already ({found.state}); nothing changed")  # fmt: skip
         return
-    report = Report("template submit")
-    s = report.section("Version")
-    s.add("template", found.template_id)
-    s.add("version", found.version)
-    s.add("state", found.state)
-    s.add("sha256", found.sha256)
-    s.add("authored_by", found.authored_by)
-    s.add("created", created)
-    report.print(as_json)
+    _print_version("template submit", found, ("sha256", "authored_by"), created=created)
 
 
 @app.command("approve")
@@ -100,7 +91,6 @@ def template_approve(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Approve a draft version (QA, not its author; your password is your approval)."""
-    from ledger.cli.output import Report
     from ledger.entries.templates import approve as entry
     from ledger.runs.versions import approve
 
@@ -114,15 +104,7 @@ def template_approve(
         typer.echo(f"template {found.template_id} version {found.version} approved by "
                    f"{found.approved_by}, effective from {when}")  # fmt: skip
         return
-    report = Report("template approve")
-    s = report.section("Version")
-    s.add("template", found.template_id)
-    s.add("version", found.version)
-    s.add("state", found.state)
-    s.add("approved_by", found.approved_by)
-    s.add("approved_at", found.approved_at)
-    s.add("effective_from", found.effective_from)
-    report.print(as_json)
+    _print_version("template approve", found, ("approved_by", "approved_at", "effective_from"))
 
 
 @app.command("retire")
@@ -137,7 +119,6 @@ def template_retire(
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Retire a version (QA): no run is planned on it from now on."""
-    from ledger.cli.output import Report
     from ledger.entries.templates import retire as entry
     from ledger.runs.versions import retire
 
@@ -149,14 +130,7 @@ def template_retire(
         typer.echo(f"template {found.template_id} version {found.version} retired by "
                    f"{found.retired_by}: {found.retire_reason}")  # fmt: skip
         return
-    report = Report("template retire")
-    s = report.section("Version")
-    s.add("template", found.template_id)
-    s.add("version", found.version)
-    s.add("state", found.state)
-    s.add("retired_by", found.retired_by)
-    s.add("retired_at", found.retired_at)
-    report.print(as_json)
+    _print_version("template retire", found, ("retired_by", "retired_at"))
 
 
 @app.command("list")
@@ -194,3 +168,16 @@ def template_history(
     report = Report("template history")
     report.tables.append(_table(f"Versions of {template}", lines))
     report.print(as_json)
+
+
+def _print_version(command: str, found: Any, fields: tuple[str, ...], **more: Any) -> None:
+    """One version as JSON: its identity and state, then ``fields`` of it, then ``more``."""
+    from ledger.cli.output import Report
+
+    report = Report(command)
+    s = report.section("Version")
+    for name in ("template_id", "version", "state", *fields):
+        s.add("template" if name == "template_id" else name, getattr(found, name))
+    for name, value in more.items():
+        s.add(name, value)
+    report.print(as_json=True)

@@ -59,16 +59,12 @@ class Values:
         value = self.values.get(name)
         return default if value is None else value
 
-    def entered(self, *names: str, skip: Mapping[str, str] | None = None) -> dict[str, str] | None:
+    def entered(self, *names: str) -> dict[str, str] | None:
         """The quantity fields a person typed (all, or those among ``names``) as they typed
         them, surrounding whitespace stripped: {"concentration": "0.5 M"}; None if there are
-        none. A field whose text came from the entry's defaults was not typed; nor was one
-        whose text equals its default in ``skip`` (a front end that fills in the default)."""
-        out = {
-            k: t
-            for k, t in self.typed.items()
-            if (not names or k in names) and not (skip and skip.get(k) == t)
-        }
+        none. A field whose text came from the entry's defaults was not typed (front ends
+        leave a field out rather than fill in its default)."""
+        out = {k: t for k, t in self.typed.items() if not names or k in names}
         return out or None
 
     def given(self, *names: str) -> list[str]:

@@ -75,8 +75,7 @@ def module_type(raw: Mapping[str, object]) -> TypeSpec:
         max_volume_loading_m=v["max_loading"],
         max_mass_loading_kg_m2=v["max_mass_loading"],
         clean_hold_s=v["clean_hold"],
-        # The command line fills in the defaults' text; a default was not typed by anyone.
-        entered=v.entered(skip=TYPE_DEFAULTS),
+        entered=v.entered(),
     )
 
 

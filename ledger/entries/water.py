@@ -260,9 +260,8 @@ def water_test(raw: Mapping[str, object]) -> WaterTestEntry:
         activity_at=when(v),
         note=v["note"],
         points_file=pts,
-        # The command line fills in --permeate's "0 psi"; nobody typed it. A points file's
-        # values are not kept as text: its points are stored in SI as before.
-        entered=v.entered(skip={"permeate": "0 psi"}),
+        # A points file's values are not kept as text: its points are stored in SI as before.
+        entered=v.entered(),
     )
 
 

@@ -14,7 +14,7 @@ States: ``draft`` (revision 0, the live data), ``in review`` (issued, not fully 
 from __future__ import annotations
 
 import hashlib
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 
 from sqlmodel import Session, func, select
@@ -117,6 +117,26 @@ def register(
         ),
         reason=f"{record_id(run_id)} {what} {PAST[copy.kind]} as copy {copy.number} ({copy.state})",
     )
+
+
+def make_copy(
+    session: Session,
+    actor: UserAccount,
+    run_id: int,
+    issued: Issued,
+    kind: str,
+    *,
+    name: Callable[[Copy], str],
+    produce: Callable[[Copy], bytes],
+) -> tuple[Copy, bytes]:
+    """Make one controlled copy of ``issued`` in the caller's transaction: number it, ask
+    ``name`` for its file name (which may refuse, e.g. a file that exists), ``produce`` its
+    bytes (the PDF, sealed or not) and register it. Returns the copy and its bytes."""
+    copy = new_copy(session, run_id, issued, kind)
+    file_name = name(copy)
+    data = produce(copy)
+    register(session, actor, run_id, issued, copy, file_name, data)
+    return copy, data
 
 
 def from_stamp(stamp: Mapping[str, str]) -> Copy | None:

@@ -88,6 +88,19 @@ def test_a_water_test_typed_in_psi_shows_its_tmp_in_psi(sqlite_world: World) -> 
     assert "mbar" not in audit
 
 
+def test_a_permeate_pressure_is_entered_only_when_typed(sqlite_world: World) -> None:
+    """Left out, --permeate takes its default in the entry layer and is no entered text;
+    typed, even as the default's "0 psi", it is kept as typed."""
+    w = sqlite_world
+    w.add_module()
+    w.ok(w.baseline())
+    assert "permeate" not in (_row(w, "water_flux_test")["entered"] or "")
+    w.ok(w.water("QMB-0142", "baseline", "150 mL/min", "--permeate", "0 psi"))
+    row = _row(w, "water_flux_test")
+    assert '"permeate": "0 psi"' in str(row["entered"])
+    assert row["tmp_pa"] == pytest.approx(3.0 * PA_PER_PSI, rel=1e-6)  # (3.2 + 2.8) / 2 - 0
+
+
 def test_a_site_display_unit_shows_computed_values_in_it(sqlite_world: World) -> None:
     w = sqlite_world
     w.add_module()

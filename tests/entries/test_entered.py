@@ -14,7 +14,6 @@ import pytest
 
 from ledger import units
 from ledger.entries import care, integrity, modules, water
-from ledger.entries.defaults import TYPE_DEFAULTS
 from ledger.errors import InputError
 
 MOL_M3_PER_M = 1000.0
@@ -57,11 +56,12 @@ def test_a_blank_field_is_not_entered() -> None:
 
 
 def test_defaults_are_not_entered_text() -> None:
+    # The other limits are left out, as the command line leaves them: defaults fill them in.
     raw = {
         "code": "HF-750", "membrane": "mPES", "pore_rating": "750 kDa",
         "lumen_diameter": "0.5 mm", "fibers": "120", "length": "30 cm",
         "decay_limit": "0.05 psi/min", "test_pressure": "15 psi", "reuse_limit": "3",
-        "storage_limit": "30 d", **TYPE_DEFAULTS, "recovery_min": "85 %",
+        "storage_limit": "30 d", "recovery_min": "85 %",
     }  # fmt: skip
     spec = modules.module_type(raw)
     assert spec.integrity_test_pressure_pa == pytest.approx(15 * PA_PER_PSI, rel=1e-6)
@@ -85,10 +85,10 @@ def test_a_procedure_keeps_its_limits_as_typed() -> None:
 def test_a_single_point_water_test_keeps_its_pressures_as_typed() -> None:
     e = water.water_test({
         "serial": "Q", "stage": "baseline", "feed": "20 psi", "retentate": "18 psi",
-        "permeate": "0 psi", "flow": "120 mL/min", "temperature": "22 degC",
+        "flow": "120 mL/min", "temperature": "22 degC",
     })  # fmt: skip
     assert e.points[0].feed_pa == pytest.approx(20 * PA_PER_PSI, rel=1e-6)
-    # "0 psi" is what the command line fills in for --permeate: nobody typed it
+    assert e.points[0].permeate_pa == 0.0  # left out: the entry's default
     assert e.entered == {
         "feed": "20 psi", "retentate": "18 psi", "flow": "120 mL/min", "temperature": "22 degC",
     }  # fmt: skip
