@@ -9,7 +9,6 @@ from typing import Any
 import typer
 
 from ledger.cli.common import JSON_OPTION, guarded
-from ledger.cli.describe import SITE_NOTE
 from ledger.cli.session import DB_OPTION, PASSWORD_STDIN, read, read_secret
 from ledger.errors import InputError
 from ledger.rules.signing import MEANINGS
@@ -173,7 +172,6 @@ def _written(
         f"{path}: {h.record_id} {what}, copy {copy.number} ({copy.state}), {len(data):,} "
         f"bytes; signatures: {signed}" + ("; digitally sealed" if sealed else "")
     )
-    typer.echo(SITE_NOTE)
 
 
 @app.command("sign")

@@ -6,10 +6,6 @@ from typing import Any
 
 from ledger.cli.output import Q, Report, Table, human
 
-CAUSTIC_NOTE = (
-    "Cleaning agents such as sodium hydroxide are caustic: follow the site's safety procedure "
-    "(eye and skin protection) whenever a cleaning is carried out."
-)
 SITE_NOTE = (
     "Acceptance limits come from the site's validated procedures and its quality unit; "
     "fluxledger applies them and supports, but does not make, the decision."
@@ -272,9 +268,12 @@ def history_report(session: Any, serial: str) -> Report:
             ]
         )
     report.tables.append(table)
-    report.notes.append(SITE_NOTE)
-    if any(e.kind == "cleaning" for e in entries):
-        report.notes.append(CAUSTIC_NOTE)
+    from ledger.logbook.site import agent_hazards
+    from ledger.rules.hazards import cautions_for
+
+    agents = [e.record.agent for e in entries if e.kind == "cleaning"]
+    agents += [e.record.solution for e in entries if e.kind == "storage"]
+    report.notes += [*cautions_for(agents, agent_hazards(session)), SITE_NOTE]
     return report
 
 
@@ -307,8 +306,16 @@ def fitness_report(v: Any, product: str | None) -> Report:
     return report
 
 
-def finish(command: str, record: Any, line: str, note: str | None, as_json: bool) -> None:
-    """Print what was recorded: one line (and the status step), or one JSON object."""
+def finish(
+    command: str,
+    record: Any,
+    line: str,
+    note: str | None,
+    as_json: bool,
+    caution: str | None = None,
+) -> None:
+    """Print what was recorded: one line (the status step, the agent's caution), or one JSON
+    object."""
     import typer
 
     if as_json:
@@ -317,11 +324,15 @@ def finish(command: str, record: Any, line: str, note: str | None, as_json: bool
         from ledger.cli.output import plain
 
         body = {"command": command, "record": plain(record_json(record)), "status_note": note}
+        if caution is not None:
+            body["caution"] = caution
         typer.echo(json.dumps(body, indent=2, ensure_ascii=False))
         return
     typer.echo(line)
     if note:
         typer.echo(f"status: {note}")
+    if caution:
+        typer.echo(caution)
 
 
 def procedure_row(p: Any) -> list[Any]:

@@ -7,7 +7,7 @@ from typing import Any
 import typer
 
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
-from ledger.cli.describe import CAUSTIC_NOTE, finish
+from ledger.cli.describe import finish
 from ledger.cli.session import ACTIVITY_TIME, DB_OPTION, PASSWORD_STDIN, USER_OPTION, write
 
 test_app = typer.Typer(help="Record water-flux and integrity tests.", no_args_is_help=True)
@@ -150,20 +150,21 @@ def clean(
     db: str | None = DB_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
-    """Record a cleaning. CAUTION: sodium hydroxide and similar agents are caustic; wear eye
-    and skin protection and follow the site's procedure."""
+    """Record a cleaning; the caution of its agent's hazard class is printed with it (follow
+    the site's safety procedure)."""
     from ledger.entries.care import cleaning
     from ledger.logbook.care import record_cleaning
+    from ledger.logbook.site import caution_of
 
     e = cleaning(locals())
-    record, status = write(
+    record, status, caution = write(
         db,
         user,
         password_stdin,
-        lambda s, a: record_cleaning(
+        lambda s, a: (*record_cleaning(
             s, a, e.serial, e.cleaning, procedure=e.procedure, activity_at=e.activity_at,
             note=e.note,
-        ),
+        ), caution_of(s, e.cleaning.agent)),
     )  # fmt: skip
     line = f"cleaning {record.id} recorded for {serial}" + (" (late entry)" if record.late else "")
     if record.deviations is not None:
@@ -172,7 +173,7 @@ def clean(
             if record.deviations
             else f"; follows procedure {procedure}"
         )
-    finish("care clean", record, f"{line}\ncaution: {CAUSTIC_NOTE}", status, as_json)
+    finish("care clean", record, line, status, as_json, caution=caution)
 
 
 @care_app.command("store")
@@ -190,18 +191,20 @@ def store(
     """Record the start of a storage period (its length counts against the storage limit)."""
     from ledger.entries.care import storage
     from ledger.logbook.care import record_storage
+    from ledger.logbook.site import caution_of
 
     e = storage(locals())
-    record = write(
+    record, caution = write(
         db,
         user,
         password_stdin,
-        lambda s, a: record_storage(
-            s, a, e.serial, e.solution, activity_at=e.activity_at, note=e.note
+        lambda s, a: (
+            record_storage(s, a, e.serial, e.solution, activity_at=e.activity_at, note=e.note),
+            caution_of(s, e.solution),
         ),
     )
     line = f"storage {record.id} started for {serial} in {record.solution}"
-    finish("care store", record, line, None, as_json)
+    finish("care store", record, line, None, as_json, caution=caution)
 
 
 @use_app.command("start")
@@ -337,7 +340,11 @@ def procedure_list(db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> N
                                  ("temperature", "temperature"),
                                  ("contact_time_min", "contact ≥"),
                                  ("rinse", "final rinse")])  # fmt: skip
-    table.rows = [procedure_row(p) for p in read(db, list_procedures)]
+    from ledger.logbook.site import agent_hazards
+    from ledger.rules.hazards import cautions_for
+
+    procedures, site = read(db, lambda s: (list_procedures(s), agent_hazards(s)))
+    table.rows = [procedure_row(p) for p in procedures]
     report.tables.append(table)
-    report.notes += [SITE_NOTE, CAUSTIC_NOTE]
+    report.notes += [*cautions_for([p.agent for p in procedures], site), SITE_NOTE]
     report.print(as_json)

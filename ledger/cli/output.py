@@ -151,7 +151,7 @@ class Report:
             out[_key(t.title)] = [
                 {k: plain(v) for (k, _), v in zip(t.columns, row, strict=True)} for row in t.rows
             ]
-        out["notes"] = list(self.notes)
+        out["notes"] = list(dict.fromkeys(self.notes))
         return out
 
     def print(self, as_json: bool) -> None:
@@ -183,7 +183,7 @@ class Report:
             lines.append("")
         if self.verdict is not None:
             lines.append(f"Verdict: {printable(self.verdict)}")
-        for note in self.notes:
+        for note in dict.fromkeys(self.notes):  # each note once, in its first place
             lines.extend(fold(f"note: {printable(note)}", terminal_width()))
         sys.stdout.write("\n".join(lines) + "\n")
 

@@ -60,6 +60,21 @@ def _print(command: str, site: Any, as_json: bool) -> None:
     report.print(as_json)
 
 
+def _needs(reason: str | None, user: str | None) -> tuple[str, str]:
+    """The reason and user of a ``--set``, refused without either."""
+    if reason is None or user is None:
+        from ledger.errors import InputError
+
+        missing = "reason" if reason is None else "user"
+        raise InputError(
+            f"--set needs --{missing}",
+            field=missing,
+            value=None,
+            expected="--user ADMIN and --reason WHY with --set",
+        )
+    return reason, user
+
+
 @app.command("units")
 @guarded
 def units_(
@@ -81,18 +96,8 @@ def units_(
     from ledger.logbook.site import display_unit_rows, display_units, set_display_units
 
     if set_:
-        if reason is None or user is None:
-            from ledger.errors import InputError
-
-            missing = "reason" if reason is None else "user"
-            raise InputError(
-                f"--set needs --{missing}",
-                field=missing,
-                value=None,
-                expected="--user ADMIN and --reason WHY with --set",
-            )
-        why = reason
-        chosen = write(db, user, password_stdin, lambda s, a: set_display_units(s, a, set_, why))
+        why, login = _needs(reason, user)
+        chosen = write(db, login, password_stdin, lambda s, a: set_display_units(s, a, set_, why))
     else:
         chosen = read(db, display_units, user, password_stdin)
     report = Report("site units")
@@ -100,4 +105,42 @@ def units_(
     table.rows = [list(row) for row in display_unit_rows(chosen)]
     report.tables.append(table)
     report.notes.append("values typed by a person are shown as they were typed")
+    report.print(as_json)
+
+
+@app.command("agents")
+@guarded
+def agents(
+    set_: list[str] | None = typer.Option(
+        None,
+        "--set",
+        help="AGENT=CLASS, e.g. 'sodium percarbonate=oxidizer'; CLASS is caustic, acid, "
+        "oxidizer, solvent or none. Repeat for several agents. Without --set: show the list.",
+    ),
+    reason: str | None = typer.Option(None, "--reason", help="Why they are set (recorded)."),
+    user: str | None = typer.Option(None, "--user", help="Your user ID."),
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Show the agent list whose hazard classes choose the caution printed with a cleaning,
+    a solution or a storage period, or add agents to it (an administrator; audited)."""
+    from ledger.cli.output import Report, Table
+    from ledger.cli.session import read
+    from ledger.logbook.site import agent_hazards, set_agent_hazards
+    from ledger.rules.hazards import agent_rows
+
+    if set_:
+        why, login = _needs(reason, user)
+        chosen = write(db, login, password_stdin, lambda s, a: set_agent_hazards(s, a, set_, why))
+    else:
+        chosen = read(db, agent_hazards, user, password_stdin)
+    report = Report("site agents")
+    table = Table("Agents", [("agent", "agent"), ("hazard_class", "hazard class"),
+                             ("source", "listed by")])  # fmt: skip
+    table.rows = [list(row) for row in agent_rows(chosen)]
+    report.tables.append(table)
+    report.notes.append(
+        "the class chooses the caution printed; the site's safety procedure governs"
+    )
     report.print(as_json)

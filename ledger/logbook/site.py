@@ -173,3 +173,68 @@ def display_units(session: Session) -> dict[str, str]:
     """The site's display unit of each kind that has one set (kind -> unit)."""
     rows = session.exec(select(Setting).where(col(Setting.key).startswith(UNITS_PREFIX)))
     return {r.key[len(UNITS_PREFIX) :]: r.value for r in rows}
+
+
+# The site's agent list (hazard classes) ---------------------------------------------------------
+
+AGENTS_KEY = "agents.hazards"  # JSON object: agent name -> hazard class
+
+
+def _agent_setting(text: str) -> tuple[str, str]:
+    """("sodium percarbonate", "oxidizer") from "sodium percarbonate=oxidizer" (InputError
+    naming the field ``set``, the value and what was expected)."""
+    from ledger.rules.hazards import HAZARD_CLASSES, check_class, key
+
+    name, sep, klass = text.rpartition("=")
+    expected = f"AGENT=CLASS with CLASS one of {', '.join(HAZARD_CLASSES)}"
+    if not sep or not key(name):
+        raise InputError(f"--set: {shown(text)} is not AGENT=CLASS", field="set",
+                         value=shown(text), expected=expected)  # fmt: skip
+    found = check_class(klass)
+    if found is None:
+        raise InputError(f"--set {shown(name.strip())}: {shown(klass.strip())} is not a hazard "
+                         "class", field="set", value=shown(klass.strip()),
+                         expected=expected)  # fmt: skip
+    if len(key(name)) > 80:
+        raise InputError("--set: the agent's name is longer than 80 characters", field="set",
+                         value=shown(name.strip()), expected="an agent name of 80 characters "
+                         "or fewer")  # fmt: skip
+    return key(name), found
+
+
+def agent_hazards(session: Session, as_of: datetime | None = None) -> dict[str, str]:
+    """The site's own agent list (agent name -> hazard class) over the shipped one; with
+    ``as_of``, the list as it stood then. Empty while the site has added none."""
+    value = _value(session, AGENTS_KEY, as_of)
+    if not value:
+        return {}
+    table = json.loads(value)
+    return {str(k): str(v) for k, v in table.items()} if isinstance(table, dict) else {}
+
+
+def set_agent_hazards(
+    session: Session, actor: UserAccount, settings: list[str], reason: str
+) -> dict[str, str]:
+    """Add agents to the site's list or change their class ("NAME=CLASS"; an administrator;
+    audited as the setting ``agents.hazards``). Every entry is checked before anything is
+    written. Returns the site's list now."""
+    require_role(actor, ADMINS, "set the site's agent list")
+    if not settings:
+        raise InputError("--set: give at least one AGENT=CLASS", field="set", value=None,
+                         expected="AGENT=CLASS, e.g. 'sodium percarbonate=oxidizer'")  # fmt: skip
+    chosen = dict(_agent_setting(text) for text in settings)
+    why = required("reason", reason, "why the agent list is changed", kind="text")
+    now = agent_hazards(session)
+    new = {**now, **chosen}
+    if new != now:
+        _set(session, actor, AGENTS_KEY, json.dumps(dict(sorted(new.items())),
+                                                    ensure_ascii=False), why)  # fmt: skip
+    return new
+
+
+def caution_of(session: Session, agent: str, as_of: datetime | None = None) -> str | None:
+    """The caution to print with ``agent`` (a cleaning's agent, a solution, a storage
+    solution) from its hazard class on the site's agent list; None for class "none"."""
+    from ledger.rules.hazards import hazard_of
+
+    return hazard_of(agent, agent_hazards(session, as_of)).caution

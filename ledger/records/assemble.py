@@ -14,6 +14,7 @@ import re
 import tempfile
 from collections.abc import Sequence
 from contextvars import ContextVar
+from dataclasses import replace
 from datetime import UTC, datetime, tzinfo
 from pathlib import Path
 from typing import Any
@@ -21,8 +22,9 @@ from typing import Any
 from sqlmodel import Session, col, select
 
 from ledger.errors import TamperedError
-from ledger.logbook.site import site_name, site_zone
+from ledger.logbook.site import agent_hazards, site_name, site_zone
 from ledger.records import context as c
+from ledger.rules.hazards import agents_in, cautions_for
 from ledger.rules.localtime import local_text
 from ledger.runs import service as runs
 from ledger.runs.plan import Plan, show
@@ -93,16 +95,30 @@ def assemble(
     reason: str = "draft: not issued for signature",
     as_of: datetime | None = None,
     audit_seq: int | None = None,
+    version: int = c.CONTEXT_VERSION,
 ) -> c.Context:
     """The context of ``run_id``; revision 0 is a draft of the live data (no cut-off).
 
     Every time in it is the site's local time with its offset, in the zone set at ``as_of``
-    (the issue time of a revision), so a revision assembled again shows the same text."""
+    (the issue time of a revision), so a revision assembled again shows the same text.
+    ``version`` is the context version to assemble: a revision issued at an older one is
+    assembled as it was then, so it can be compared with what was signed."""
     token = _ZONE.set(site_zone(session, as_of))
     try:
-        return _assemble(session, run_id, revision, reason, as_of, audit_seq)
+        ctx = _assemble(session, run_id, revision, reason, as_of, audit_seq)
     finally:
         _ZONE.reset(token)
+    return ctx if version >= 3 else _before_hazard_classes(ctx)
+
+
+def _before_hazard_classes(ctx: c.Context) -> c.Context:
+    """``ctx`` as a version-2 context: one caustic caution for any cleaning, none per step."""
+    steps = tuple(replace(s, cautions=None) for s in ctx.steps)
+    cautions = [c.SITE_CAUTION]
+    if ctx.history.cleanings or any(s.cleaning for s in steps):
+        cautions.append(c.CAUSTIC_CAUTION)
+    return replace(ctx, steps=steps, history=replace(ctx.history, cleaning_cautions=None),
+                   cautions=tuple(cautions), version=2)  # fmt: skip
 
 
 def _assemble(
@@ -165,6 +181,7 @@ def _assemble(
     qc_rows = _qc_rows(session, run_id, as_of)
     checks = _checks(plan, template, log, qc_rows, devs, as_of)
     executed = _executed(session, run, len(plan.steps), as_of)
+    agent_list = agent_hazards(session, as_of)
     steps = tuple(
         c.Step(
             s["operation"],
@@ -174,15 +191,21 @@ def _assemble(
             tuple(s["signatures"]),
             bool(_CLEANING_WORDS.search(f"{s['operation']} {s['title']} {s['text']}")),
             *executed[i],
+            cautions=tuple(
+                h.caution for h in agents_in(f"{s['title']} {s['text']}", agent_list) if h.caution
+            ),
         )
         for i, s in enumerate(plan.steps)
     )
     cutoff = run.finished_at or run.started_at or as_of or datetime.now(UTC)
     history = _history(session, module, mtype, uses, run.use_id, cutoff, as_of)
+    cleaning_cautions = tuple(cautions_for([r.agent for r in history.cleanings], agent_list))
+    history = replace(history, cleaning_cautions=cleaning_cautions)
     summary = _summary(log)
     cautions = [c.SITE_CAUTION]
-    if history.cleanings or any(s.cleaning for s in steps):
-        cautions.append(c.CAUSTIC_CAUTION)
+    for text in [*(t for st in steps for t in st.cautions or ()), *cleaning_cautions]:
+        if text not in cautions:
+            cautions.append(text)
     from ledger.records.review import gather
 
     dev_rows = _deviation_rows(devs, as_of)

@@ -17,13 +17,17 @@ from typing import Any, TypeVar, get_args, get_origin, get_type_hints
 from ledger.canonical import canonical
 
 # 2: the review by exception (``review``); revisions issued at 1 are compared without it.
-CONTEXT_VERSION = 2
+# 3: cautions by the hazard class of each agent named (steps, cleanings) instead of one
+#    caustic caution; a revision issued at 2 is assembled again the old way.
+CONTEXT_VERSION = 3
 
 SITE_CAUTION = (
     "Acceptance limits, specifications and signature roles in this record come from the site's "
     "validated procedures and are set by its quality unit. fluxledger computes and records; "
     "it does not release product."
 )
+# Revisions issued before version 3 printed this one caution for every cleaning; kept so they
+# render and verify as issued.
 CAUSTIC_CAUTION = (
     "Caution: cleaning and sanitizing agents (e.g. sodium hydroxide) are caustic. Follow the "
     "site's safety procedure: eye and skin protection, and flush spills with water."
@@ -94,11 +98,13 @@ class Step:
     title: str
     text: str
     signatures: tuple[str, ...]
-    cleaning: bool  # prints the caustic caution beside it
+    cleaning: bool  # before version 3: prints the caustic caution beside it
     # None (not an empty tuple) when a step has no entries or signatures, so revisions issued
     # before steps were executed one by one assemble to the same content.
     values: tuple[StepValue, ...] | None = None
     signoffs: tuple[StepSignoff, ...] | None = None
+    # version 3 on: the cautions of the agents the step names (by hazard class); None before
+    cautions: tuple[str, ...] | None = None
 
 
 @dataclass(frozen=True)
@@ -219,6 +225,8 @@ class History:
     recovery: tuple[RecoveryPoint, ...]
     last_integrity: IntegrityRow | None
     cleanings: tuple[CleaningRow, ...]  # the last cleanings before this run
+    # version 3 on: the cautions of those cleanings' agents; None before (one caustic caution)
+    cleaning_cautions: tuple[str, ...] | None = None
 
 
 @dataclass(frozen=True)

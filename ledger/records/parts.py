@@ -114,7 +114,7 @@ def identity(ctx: Context, content_sha256: str) -> list[Any]:
     pairs: list[tuple[str, object]] = [
         ("Record ID", h.record_id), ("Revision", str(h.revision)),
         ("Product", h.product), ("Lot", h.lot),
-        ("Status at issue", h.status), ("Run", str(h.run_id)),
+        ("Status at issue", h.status.replace("_", " ")), ("Run", str(h.run_id)),
         ("Module serial", h.module_serial), ("Module type", h.module_type),
         ("Module area", h.module_area),
         ("Cycle on module", "not started" if h.cycle is None else str(h.cycle)),
@@ -228,27 +228,44 @@ def deviations(ctx: Context) -> list[Any]:
     return [layout.table(heading, rows, widths(5, 13, 36, 18, 28))]
 
 
+def _step_cautions(st: Any, width: float) -> list[Any]:
+    """The caution panels under a step: its agents' (version 3 on), or before that the one
+    caustic caution for a step that reads as a cleaning; none for none."""
+    texts = st.cautions if st.cautions is not None else (CAUSTIC_CAUTION,) if st.cleaning else ()
+    return [caution_panel(t, width, small=True) for t in texts]
+
+
+def _signoff(o: Any) -> str:
+    """One signature of a step (markup): meaning, person, when done; when a late entry, when
+    it was entered; the deviation that explains a value out of range."""
+    text = (f"<b>{esc(o.meaning)}</b> by {esc(o.full_name)} ({esc(o.login)})"
+            f"<br/>done {esc(when(o.done_at))}")  # fmt: skip
+    if o.late:
+        text += f"<br/><b>late entry</b>, entered {esc(when(o.entered_at))}"
+    if o.deviation is not None:
+        text += f"<br/>deviation {o.deviation}"
+    return text
+
+
 def procedure(ctx: Context) -> list[Any]:
     if not ctx.steps:
         return [note("The template lists no steps.")]
     s = styles()
-    cols = widths(4, 15, 41, 13, 27)
+    cols = widths(4, 14, 50, 32)
     rows = []
     for i, st in enumerate(ctx.steps, start=1):
-        body = layout.markup(f"<b>{esc(st.title)}</b><br/>{esc(st.text)}{_step_values(st)}",
-                             s.cell)  # fmt: skip
-        beside: object = caution_panel(CAUSTIC_CAUTION, cols[4] - 2 * layout.PAD, small=True) \
-            if st.cleaning else ""  # fmt: skip
-        signed = ", ".join(st.signatures) or "—"
-        if st.signoffs:
-            signed = layout.markup(esc(signed) + "".join(
-                f"<br/>{esc(o.meaning)}: {esc(o.full_name)} ({esc(o.login)}), "
-                f"{esc(when(o.done_at))}"
-                + (f"<br/><b>{esc(o.note)}</b>" if o.note else "")
-                + (f"<br/>deviation {o.deviation}" if o.deviation is not None else "")
-                for o in st.signoffs), s.cell)  # fmt: skip
-        rows.append([str(i), f"{st.operation} · {st.phase}", body, signed, beside])
-    heading = ("No.", "Operation · phase", "Step", "Signed as", "Caution")
+        body: Any = layout.markup(
+            f"<b>{esc(st.title)}</b><br/>{esc(st.text)}{_step_values(st)}", s.cell
+        )
+        panels = _step_cautions(st, cols[2] - 2 * layout.PAD)
+        if panels:
+            body = [body, Spacer(1, 3), *panels]
+        needed = "needs " + (", ".join(st.signatures) or "no signature")
+        signed = layout.markup(
+            "<br/>".join([esc(needed), *(_signoff(o) for o in st.signoffs or ())]), s.cell
+        )
+        rows.append([str(i), f"{st.operation} · {st.phase}", body, signed])
+    heading = ("No.", "Operation · phase", "Step, values entered and cautions", "Signatures")
     return [layout.table(heading, rows, cols)]
 
 
@@ -330,7 +347,10 @@ def history(ctx: Context, draw: bool) -> list[Any]:
                                 [[when(t.at), t.kind, t.result, t.limit,
                                   marks.VerdictMark(word)]],
                                 widths(26, 22, 18, 18, 16)))  # fmt: skip
-    out += [Spacer(1, 5), sub("Recent cleanings"), caution_panel(CAUSTIC_CAUTION), Spacer(1, 3)]
+    out += [Spacer(1, 5), sub("Recent cleanings")]
+    shown = (CAUSTIC_CAUTION,) if h.cleaning_cautions is None else h.cleaning_cautions
+    for text in shown:
+        out += [caution_panel(text), Spacer(1, 3)]
     if h.cleanings:
         rows = [[when(c.at), c.agent, c.concentration, c.temperature, c.contact_time, c.conforms]
                 for c in h.cleanings]  # fmt: skip

@@ -65,6 +65,7 @@ def recompute(session: Session, rev: RecordRevision) -> c.Context:
         reason=rev.reason,
         as_of=rev.as_of,
         audit_seq=rev.audit_seq,
+        version=int(rev.content.get("version", 1)),
     )
 
 

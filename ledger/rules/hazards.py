@@ -125,7 +125,43 @@ def cautions_for(agents: list[str], site: Mapping[str, str] | None = None) -> li
     return out
 
 
+def agents_in(text: str, site: Mapping[str, str] | None = None) -> list[Hazard]:
+    """The listed agents named in free ``text`` (a step's instruction), longest names first so
+    "peracetic acid" is not also read as "acetic acid"; each as its words appear in the text.
+    Agents of class "none" are left out (they carry no caution)."""
+    table = {**SHIPPED, **{key(k): v for k, v in (site or {}).items()}}
+    folded = text.casefold()
+    taken: list[tuple[int, int]] = []
+    found: list[tuple[int, Hazard]] = []
+    for listed in sorted(table, key=len, reverse=True):
+        if table[listed] == "none":
+            continue
+        for m in re.finditer(rf"(?<![\w-]){re.escape(listed)}(?![\w-])", folded):
+            if any(a < m.end() and m.start() < b for a, b in taken):
+                continue
+            taken.append((m.start(), m.end()))
+            shown = text[m.start() : m.end()]
+            cls = table[listed]
+            found.append((m.start(), Hazard(shown, cls, CAUTIONS[cls].format(agent=shown))))
+    out: list[Hazard] = []
+    seen: set[str] = set()
+    for _, h in sorted(found, key=lambda x: x[0]):
+        if key(h.agent) not in seen:
+            seen.add(key(h.agent))
+            out.append(h)
+    return out
+
+
 def check_class(value: str) -> str | None:
     """``value`` as a hazard class, or None when it is not one."""
     v = value.strip().casefold()
     return v if v in HAZARD_CLASSES else None
+
+
+def agent_rows(site: Mapping[str, str] | None = None) -> list[tuple[str, str, str]]:
+    """(agent, class, "site" or "shipped") for every listed agent, sorted by name; a site's
+    entry replaces the shipped one of the same name."""
+    own = {key(k): v for k, v in (site or {}).items()}
+    rows = {k: (k, v, "shipped") for k, v in SHIPPED.items()}
+    rows.update({k: (k, v, "site") for k, v in own.items()})
+    return [rows[k] for k in sorted(rows)]

@@ -144,3 +144,26 @@ def test_an_unknown_zone_is_refused_naming_field_value_and_expectation(
     assert "an IANA time zone such as Europe/Berlin" in str(err.value)
     assert err.value.exit_code == 2
     assert sqlite_world.snapshot() == before
+
+
+@pytest.mark.sqlite_only
+def test_the_agent_list_as_it_stood_at_an_earlier_time(sqlite_world: World) -> None:
+    from ledger.logbook.site import agent_hazards, caution_of, set_agent_hazards
+
+    with transaction(sqlite_world.engine()) as s:
+        admin = find_user(s, "sysadm")
+        assert admin is not None
+        set_agent_hazards(s, admin, ["Sodium Percarbonate=oxidizer"], "new agent")
+    between = datetime.now(UTC)
+    with transaction(sqlite_world.engine()) as s:
+        admin = find_user(s, "sysadm")
+        assert admin is not None
+        set_agent_hazards(s, admin, ["sodium percarbonate=none", "glycerol=none"], "reclassed")
+    with transaction(sqlite_world.engine()) as s:
+        assert agent_hazards(s, between) == {"sodium percarbonate": "oxidizer"}
+        assert agent_hazards(s) == {"sodium percarbonate": "none", "glycerol": "none"}
+        assert caution_of(s, "sodium percarbonate") is None
+        assert "oxidizer" in (caution_of(s, "sodium percarbonate", between) or "")
+        with pytest.raises(InputError) as err:
+            set_agent_hazards(s, find_user(s, "sysadm"), ["x=corrosive"], "why")  # type: ignore[arg-type]
+    assert err.value.field == "set" and "corrosive" in str(err.value)

@@ -235,7 +235,7 @@ def test_header_block_names_the_record_and_its_versions(ctx: c.Context, texts: l
     h = ctx.header
     find_in_order(texts[0], [
         f"Batch record {h.record_id}", f"Revision {h.revision}", h.revision_reason,
-        "Product", h.product, "Lot", h.lot, "Status at issue", h.status,
+        "Product", h.product, "Lot", h.lot, "Status at issue", "in review",
         "Module serial", h.module_serial, "Module type", h.module_type, "Module area",
         h.module_area, "Cycle on module", str(h.cycle), "Template ID", h.template_id,
         "Template version", h.template_version, "Planned by", h.planned_by,
@@ -320,9 +320,10 @@ def test_caustic_caution_stands_beside_the_cleaning_step_only(ctx: c.Context, te
     part = between(text, "Procedure steps", "Skid-log charts")
     flush = between(part, "Flush and equilibrate", "Diafilter into storage buffer")
     assert "caustic" not in flush
-    # The cleaning row reads: title, text, who signs, then the caution in the same row.
-    find_in_order(part, ["Clean after use", "Recirculate 0.5 mol/L NaOH", "performed",
-                         c.CAUSTIC_CAUTION])  # fmt: skip
+    # The cleaning row reads: title, text, the caution under them, then who signs. (The
+    # sample is a context issued before version 3: one caustic caution for a cleaning step.)
+    find_in_order(part, ["Clean after use", "Recirculate 0.5 mol/L NaOH", c.CAUSTIC_CAUTION,
+                         "needs performed"])  # fmt: skip
     assert part.count(c.CAUSTIC_CAUTION) == 1
     cleanings = between(text, "Recent cleanings", "Audit trail excerpt")
     find_in_order(cleanings, [c.CAUSTIC_CAUTION, "NaOH", "0.5 mol/L", "25 °C", "60 min", "yes"])

@@ -87,3 +87,32 @@ def test_cautions_for_several_agents_are_distinct_and_in_order() -> None:
 def test_surrounding_space_and_case_do_not_change_the_class(agent: str, pad: str) -> None:
     assert hazard_of(pad + agent.upper() + pad).hazard_class == hazard_of(agent).hazard_class
     assert key(agent.upper()) == key(agent)
+
+
+def test_agents_named_in_a_step_are_found_longest_name_first() -> None:
+    from ledger.rules.hazards import agents_in
+
+    found = agents_in("Flush with WFI, sanitize with 2 % Peracetic Acid, then 0.5 M NaOH; "
+                      "store in 20 % ethanol. Peracetic acid again.")  # fmt: skip
+    # peracetic acid is an oxidizer and is not also read as acetic acid; WFI carries none;
+    # each agent once, in the order the text names them, in the text's own words
+    assert [(h.agent, h.hazard_class) for h in found] == [
+        ("Peracetic Acid", "oxidizer"),
+        ("NaOH", "caustic"),
+        ("ethanol", "solvent"),
+    ]
+    assert agents_in("Equilibrate with formulation buffer") == []
+
+
+def test_a_site_entry_replaces_the_shipped_class_and_is_listed_as_the_sites() -> None:
+    from ledger.rules.hazards import agent_rows, agents_in
+
+    site = {"Sodium Percarbonate": "oxidizer", "ethanol": "none"}
+    rows = {r[0]: r for r in agent_rows(site)}
+    assert rows["sodium percarbonate"] == ("sodium percarbonate", "oxidizer", "site")
+    assert rows["ethanol"] == ("ethanol", "none", "site")
+    assert rows["sodium hydroxide"] == ("sodium hydroxide", "caustic", "shipped")
+    assert hazard_of("20 % ethanol", site).caution is None
+    assert [h.agent for h in agents_in("soak in sodium percarbonate", site)] == [
+        "sodium percarbonate"
+    ]
