@@ -1,4 +1,4 @@
-"""`fluxledger record ...`: batch records — print, sign, correct, seal and verify them."""
+"""`fluxledger record ...`: batch records — print, sign, correct, seal, archive and verify them."""
 
 from __future__ import annotations
 
@@ -15,7 +15,8 @@ from ledger.rules.signing import MEANINGS
 
 app = typer.Typer(
     help=f"Batch records: print the PDF, sign it ({', '.join(MEANINGS)}), "
-    "correct it as a new revision, seal it digitally, verify a printed file.",
+    "correct it as a new revision, seal it digitally, archive it as PDF/A-3b, verify a "
+    "printed file.",
     no_args_is_help=True,
 )
 RUN = typer.Argument(..., help="The run's number (see `fluxledger run list`).")
@@ -144,7 +145,13 @@ def print_record(
 
 
 def _written(
-    path: Path, ctx: Any, copy: Any, data: bytes, as_json: bool, sealed: bool = False
+    path: Path,
+    ctx: Any,
+    copy: Any,
+    data: bytes,
+    as_json: bool,
+    sealed: bool = False,
+    archived: bool = False,
 ) -> None:
     import hashlib
 
@@ -161,6 +168,8 @@ def _written(
         "file_sha256": hashlib.sha256(data).hexdigest(),
         "sealed": sealed,
     }
+    if archived:
+        info["archive"] = "PDF/A-3b, record.json attached"
     if as_json:
         import json
 
@@ -170,7 +179,9 @@ def _written(
     signed = ", ".join(info["signatures"]) or "none"
     typer.echo(
         f"{path}: {h.record_id} {what}, copy {copy.number} ({copy.state}), {len(data):,} "
-        f"bytes; signatures: {signed}" + ("; digitally sealed" if sealed else "")
+        f"bytes; signatures: {signed}"
+        + ("; digitally sealed" if sealed else "")
+        + ("; archive copy (PDF/A-3b, record.json attached)" if archived else "")
     )
 
 
@@ -408,6 +419,49 @@ def seal(
 
     issued, copy, path, data = _make_copy(db, login, password_stdin, work)
     _written(path, issued.context, copy, data, as_json, sealed=True)
+
+
+@app.command("archive")
+@guarded
+def archive(
+    run: int = RUN,
+    revision: int | None = REVISION,
+    out: Path | None = typer.Option(None, "--out", help="PDF file or folder (default: ./)."),
+    force: bool = FORCE,
+    user: str | None = PRINT_USER,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Write the approved record as a numbered, audited archive copy: PDF/A-3b, with the
+    record's content and signatures attached as record.json. An existing file is kept unless
+    --force is given (and then no copy is registered)."""
+    from ledger.records import copies
+    from ledger.records.archive import archive_copy
+    from ledger.records.pdf import Staged
+    from ledger.records.service import approved_record
+
+    read(db, lambda s: approved_record(s, run, revision))  # refused before any password
+    login = _user(user, password_stdin)
+
+    def work(s: Any, a: Any, staged: list[Any]) -> tuple[Any, Any, Any, bytes]:
+        issued = approved_record(s, run, revision)
+        ctx = issued.context
+        paths: list[Path] = []
+
+        def name(copy: Any) -> str:
+            paths.append(_out(out, _file_name(ctx, copy, "-archive"), force))
+            return paths[-1].name
+
+        def produce(copy: Any) -> bytes:
+            return archive_copy(issued, copy, software_version=_software())
+
+        copy, data = copies.make_copy(s, a, run, issued, "archive", name=name, produce=produce)
+        staged.append(Staged(paths[-1], data))
+        return issued, copy, staged[-1], data
+
+    issued, copy, path, data = _make_copy(db, login, password_stdin, work)
+    _written(path, issued.context, copy, data, as_json, archived=True)
 
 
 @app.command("verify")

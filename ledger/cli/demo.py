@@ -209,7 +209,11 @@ def _expand(
         when = now - timedelta(days=float(m.group(1)))
         return when.isoformat(timespec="seconds")
 
+    def date_in(m: re.Match[str]) -> str:
+        return (now + timedelta(days=float(m.group(1)))).date().isoformat()
+
     text = re.sub(r"\{days_ago:([0-9.]+)\}", days_ago, command)
+    text = re.sub(r"\{date_in:([0-9.]+)\}", date_in, text)
     for key, value in {"samples": _shown(samples), **(more or {})}.items():
         text = text.replace("{" + key + "}", shlex.quote(value))
     return shlex.split(text)

@@ -93,7 +93,28 @@ def record_json(record: Any) -> dict[str, Any]:
         out["limit_value"] = Q(record.limit_value, "pressure_rate")
     elif getattr(record, "kind", None) == "bubble_point" and "limit_value" in out:
         out["limit_value"] = Q(record.limit_value, "pressure", "psi")
+    elif getattr(record, "kind", None) in _FLOW_COLUMNS and "limit_value" in out:
+        flow, limit = flow_values(record)
+        out[_FLOW_COLUMNS[record.kind].removesuffix("_m3_s")] = flow
+        out["limit_value"] = limit
     return out
+
+
+# Flow-type integrity tests: the column holding the flow, and the test's name in words.
+_FLOW_COLUMNS = {"diffusion": "gas_flow_m3_s", "water_intrusion": "intrusion_flow_m3_s"}
+_FLOW_WORDS = {"diffusion": "diffusion", "water_intrusion": "water intrusion"}
+
+
+def flow_values(t: Any, site: dict[str, str] | None = None) -> tuple[Q | None, Q]:
+    """(flow, limit) of a diffusion or water-intrusion test: the flow as typed or in the
+    display unit, the limit (m³/s stored) in the unit the flow was typed in, else the same."""
+    from ledger import units
+
+    flow = shown_q(t, _FLOW_COLUMNS[t.kind], "flow", site)
+    unit = flow.unit if flow is not None else None
+    if flow is not None and flow.entered:
+        unit = units.entered_unit(flow.entered) or unit
+    return flow, Q(t.limit_value, "flow", unit)
 
 
 def _pct(x: float | None) -> str:
@@ -142,6 +163,19 @@ def integrity_line(t: Any, site: dict[str, str] | None = None) -> str:
             f"{human(shown_q(t, 'bubble_point_pa', 'pressure', site, 'psi'))}"
             f", minimum {human(Q(t.limit_value, 'pressure', _site(site, 'pressure', 'psi')))}"
         )
+    elif t.kind in _FLOW_COLUMNS:
+        flow, limit = flow_values(t, site)
+        text = (
+            f"integrity test {t.id} ({_FLOW_WORDS[t.kind]}): {human(flow)} at "
+            f"{human(shown_q(t, 'test_pressure_pa', 'pressure', site, 'psi'))}, limit "
+            f"{human(limit)}"
+        )
+        if t.decay_rate_pa_s is not None:
+            from ledger import units
+
+            rate = _rate_unit(t, site)
+            unit = units.display_unit("pressure_rate", site, [rate] if rate else [])
+            text += f", from a decay of {human(Q(t.decay_rate_pa_s, 'pressure_rate', unit))}"
     else:
         from ledger import units
 
@@ -175,6 +209,8 @@ def _summary(kind: str, rec: Any, site: dict[str, str] | None = None) -> tuple[s
     if kind == "integrity-test":
         if rec.kind == "bubble_point":
             value = shown_q(rec, "bubble_point_pa", "pressure", site, "psi")
+        elif rec.kind in _FLOW_COLUMNS:
+            value = flow_values(rec, site)[0]
         else:
             from ledger import units
 
@@ -182,6 +218,13 @@ def _summary(kind: str, rec: Any, site: dict[str, str] | None = None) -> tuple[s
             unit = units.display_unit("pressure_rate", site, [rate] if rate else [])
             value = Q(rec.decay_rate_pa_s, "pressure_rate", unit)
         return rec.kind.replace("_", "-"), value, "pass" if rec.passed else "FAIL"
+    if kind == "cleaning" and getattr(rec, "procedure_version_id", None) is not None:
+        solutions = "" if rec.reagent_lot == "—" else f", solutions {rec.reagent_lot}"
+        return (
+            f"cycle: {rec.agent}",
+            None,
+            f"total contact {human(shown_q(rec, 'contact_time_s', 'time', site))}{solutions}",
+        )
     if kind == "cleaning":
         strength = _strength(rec, site)
         return (
@@ -204,6 +247,118 @@ def _summary(kind: str, rec: Any, site: dict[str, str] | None = None) -> tuple[s
         )
         return f"{rec.cause} hold: {rec.reason}", None, decided
     return kind, None, ""
+
+
+_ENDPOINT_WORDS = {"ph": "pH", "conductivity": "conductivity", "toc": "TOC", "volume": "volume"}
+_ENDPOINT_QKINDS = {"conductivity": "conductivity", "toc": "concentration", "volume": "volume"}
+
+
+def step_text(step: Any, site: dict[str, str] | None = None) -> str:
+    """One cleaning-cycle step as done: its values as typed (else in display units), its
+    endpoint, and whether it kept its procedure step ("conforms") or how it departed."""
+    what = f"({step.agent}, solution {step.solution_code})" if step.solution_code else (
+        f"({step.agent})")  # fmt: skip
+    return f"step {step.number} {step.name} {what}: {step_values(step, site)}"
+
+
+def step_values(step: Any, site: dict[str, str] | None = None) -> str:
+    """A cycle step's values and verdict, without its name (see :func:`step_text`)."""
+    parts = []
+    if step.concentration is not None:
+        parts.append(_strength(step, site))
+    for column, kind in (("temperature_k", "temperature"), ("contact_time_s", "time"),
+                         ("flow_m3_s", "flow"), ("tmp_pa", "pressure")):  # fmt: skip
+        if getattr(step, column) is not None:
+            parts.append(human(shown_q(step, column, kind, site)))
+    if step.endpoint_kind is not None and step.endpoint_value is not None:
+        typed = (step.entered or {}).get("endpoint")
+        if step.endpoint_kind == "ph":
+            value = typed or f"{step.endpoint_value:g}"
+        else:
+            qkind = _ENDPOINT_QKINDS[step.endpoint_kind]
+            value = human(Q(step.endpoint_value, qkind, entered=typed))
+        parts.append(f"endpoint {_ENDPOINT_WORDS[step.endpoint_kind]} {value}")
+    verdict = "DEPARTS: " + "; ".join(step.departures) if step.departures else "conforms"
+    return (", ".join(parts) or "no values") + f" — {verdict}"
+
+
+def cycle_report(
+    serial: str, cleaning: Any, steps: list[Any], status: str | None, version: Any, as_json: bool
+) -> None:
+    """Print a recorded cleaning cycle: one line for the cycle, one per step, the status
+    step, and the caution of each hazard class met (once each); or one JSON object."""
+    import typer
+
+    where = f"{version.template_id} v{version.version}" if version is not None else "?"
+    if as_json:
+        import json
+
+        from ledger.cli.output import plain
+
+        body = {
+            "command": "care cycle",
+            "record": plain(record_json(cleaning)),
+            "procedure": {"id": version.template_id, "version": version.version,
+                          "sha256": version.sha256},
+            "steps": [plain({**record_json(r.row), "caution": r.caution}) for r in steps],
+            "status_note": status,
+        }  # fmt: skip
+        typer.echo(json.dumps(body, indent=2, ensure_ascii=False))
+        return
+    late = " (late entry)" if cleaning.late else ""
+    departed = sum(1 for r in steps if r.row.departures)
+    outcome = (f"{departed} of {len(steps)} steps depart from the procedure" if departed
+               else f"all {len(steps)} steps follow the procedure")  # fmt: skip
+    typer.echo(f"cleaning cycle {cleaning.id} recorded for {serial} under {where}{late}: "
+               f"{outcome}")  # fmt: skip
+    for r in steps:
+        typer.echo("  " + step_text(r.row))
+    if status:
+        typer.echo(f"status: {status}")
+    seen: list[str] = []
+    for r in steps:
+        if r.caution and r.caution not in seen:
+            seen.append(r.caution)
+            typer.echo(r.caution)
+
+
+def solution_text(row: Any, site: dict[str, str] | None = None) -> str:
+    """A prepared solution in one line: agent, target and verified strength, reagent lot and
+    expiry, use-by, who prepared and verified it."""
+    text = (f"{row.agent}, target {_strength(row, site, 'target_concentration')}, reagent lot "
+            f"{row.reagent_lot} (expires {row.reagent_expiry.isoformat()}), prepared by "
+            f"{row.prepared_by}, use by {human(row.use_by)} UTC")  # fmt: skip
+    if row.verified_concentration is None:
+        return text + "; not verified"
+    how = row.verification_method
+    v = row.verification or {}
+    if how == "conductivity" and v.get("conductivity_s_m") is not None:
+        typed = (v.get("entered") or {}).get("conductivity")
+        how += f" {human(Q(v['conductivity_s_m'], 'conductivity', entered=typed))}"
+    return text + (f"; verified {_strength(row, site, 'verified_concentration')} by {how}, "
+                   f"{row.verified_by}")  # fmt: skip
+
+
+def solutions_report(rows: list[tuple[Any, str]]) -> Report:
+    """The prepared solutions as a table, each with its state."""
+    report = Report("care solution list")
+    table = Table(
+        "Prepared solutions",
+        [("code", "code"), ("agent", "agent"), ("target", "target"), ("verified", "verified"),
+         ("use_by", "use by (UTC)"), ("reagent", "reagent lot (expiry)"), ("state", "state")],
+    )  # fmt: skip
+    for r, state in rows:
+        verified = "—"
+        if r.verified_concentration is not None:
+            verified = f"{_strength(r, None, 'verified_concentration')} ({r.verification_method})"
+        table.rows.append([r.code, r.agent, _strength(r, None, "target_concentration"), verified,
+                           r.use_by, f"{r.reagent_lot} ({r.reagent_expiry.isoformat()})",
+                           state])  # fmt: skip
+    report.tables.append(table)
+    from ledger.rules.hazards import cautions_for
+
+    report.notes += [*cautions_for([r.agent for r, _ in rows]), SITE_NOTE]
+    return report
 
 
 def _strength(rec: Any, site: dict[str, str] | None, column: str = "concentration") -> str:
@@ -251,6 +406,9 @@ def history_report(session: Any, serial: str) -> Report:
             ("result", "result"),
         ],
     )
+    from ledger.logbook.cycles import steps_of
+
+    agents: list[str] = []
     for e in entries:
         what, value, result = _summary(e.kind, e.record, site)
         flags = [result] if result else []
@@ -267,11 +425,18 @@ def history_report(session: Any, serial: str) -> Report:
                 "; ".join(flags),
             ]
         )
+        if e.kind == "cleaning" and getattr(e.record, "procedure_version_id", None) is not None:
+            for step in steps_of(session, e.record.id):
+                agents.append(step.agent)
+                solution = f", solution {step.solution_code}" if step.solution_code else ""
+                done = f"{step.agent}{solution}: {step_values(step, site)}"
+                table.rows.append(["", "", f"  step {step.number} {step.name}", "", done])
+        elif e.kind == "cleaning":
+            agents.append(e.record.agent)
     report.tables.append(table)
     from ledger.logbook.site import agent_hazards
     from ledger.rules.hazards import cautions_for
 
-    agents = [e.record.agent for e in entries if e.kind == "cleaning"]
     agents += [e.record.solution for e in entries if e.kind == "storage"]
     report.notes += [*cautions_for(agents, agent_hazards(session)), SITE_NOTE]
     return report

@@ -8,12 +8,21 @@ import typer
 
 from ledger.cli.common import JSON_OPTION, guarded, quantity_option
 from ledger.cli.describe import finish
-from ledger.cli.session import ACTIVITY_TIME, DB_OPTION, PASSWORD_STDIN, USER_OPTION, write
+from ledger.cli.session import (
+    ACTIVITY_TIME,
+    DB_OPTION,
+    PASSWORD_STDIN,
+    READ_USER_OPTION,
+    USER_OPTION,
+    read,
+    write,
+)
 
 test_app = typer.Typer(help="Record water-flux and integrity tests.", no_args_is_help=True)
 care_app = typer.Typer(
-    help="Record cleanings and storage. Cleaning agents are caustic: follow your site's "
-    "safety procedure (eye and skin protection).",
+    help="Record cleanings, cleaning cycles, prepared solutions and storage. Each agent's "
+    "caution comes from its hazard class (`fluxledger site agents`): follow your site's "
+    "safety procedure.",
     no_args_is_help=True,
 )
 use_app = typer.Typer(help="Start and end a use (one processing cycle).", no_args_is_help=True)
@@ -85,10 +94,25 @@ def integrity(
         None, "--test-pressure", help="Test pressure (default: the first reading or --start)."
     ),
     upstream_volume: str | None = quantity_option(
-        None, "--upstream-volume", help="Pressurized volume, to report the gas flow, '120 mL'."
+        None,
+        "--upstream-volume",
+        help="Pressurized gas volume, '120 mL': reports a decay's gas flow; gives the flow of "
+        "a diffusion or water-intrusion test from its decay.",
     ),
     bubble_point: str | None = quantity_option(
         None, "--bubble-point", help="Instead of a decay: the bubble point seen, '52 psi'."
+    ),
+    method: str | None = typer.Option(
+        None,
+        "--method",
+        help="pressure-decay, bubble-point, diffusion or water-intrusion (default: a decay, or "
+        "a bubble point when --bubble-point is given).",
+    ),
+    flow: str | None = quantity_option(
+        None,
+        "--flow",
+        help="Diffusion or water-intrusion: the flow as measured, '8 mL/min' (with "
+        "--test-pressure); or give the decay and --upstream-volume.",
     ),
     temperature: str | None = quantity_option(None, "--temperature", help="During the test."),
     activity_time: str | None = ACTIVITY_TIME,
@@ -98,16 +122,22 @@ def integrity(
     db: str | None = DB_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
-    """Record an integrity test (pressure decay or bubble point); a failure holds the module."""
+    """Record an integrity test (pressure decay, bubble point, diffusion or water intrusion);
+    a failure holds the module."""
     from ledger.cli.describe import integrity_line
     from ledger.entries.integrity import integrity_test
-    from ledger.logbook.integrity import record_bubble_point, record_decay_test
+    from ledger.logbook.integrity import record_bubble_point, record_decay_test, record_flow_test
     from ledger.logbook.site import display_units
 
     e = integrity_test(locals())
 
     def work(s: Any, a: Any) -> Any:
-        if e.decay is None:
+        if e.flow_test is not None:
+            test, status = record_flow_test(
+                s, a, e.serial, e.flow_test, activity_at=e.activity_at, note=e.note,
+                entered=e.entered,
+            )  # fmt: skip
+        elif e.decay is None:
             test, status = record_bubble_point(
                 s, a, e.serial, e.bubble_point(), temperature_k=e.temperature_k,
                 activity_at=e.activity_at, note=e.note, entered=e.entered,
@@ -294,6 +324,58 @@ procedure_app = typer.Typer(
 care_app.add_typer(procedure_app, name="procedure")
 
 
+def _cycle_procedures() -> typer.Typer:
+    from ledger.cli.templates import controlled_app
+
+    return controlled_app("cleaning procedure", "care cycle-procedure", "procedure",
+                          "QC-CYCLE-05", "ledger.logbook.cycles", "cycles recorded")  # fmt: skip
+
+
+care_app.add_typer(_cycle_procedures(), name="cycle-procedure")
+
+
+@care_app.command("cycle")
+@guarded
+def cycle(
+    serial: str = typer.Argument(..., help="Module serial."),
+    procedure: str = typer.Option(
+        ..., "--procedure", help="ID of the cleaning-cycle procedure (the version in force)."
+    ),
+    values: list[str] | None = typer.Option(
+        None,
+        "--value",
+        help="A step's value as STEP.NAME=TEXT, e.g. 2.temperature='45 degC', "
+        "2.solution=SOL-NAOH-01, 3.endpoint='1.2 uS/cm'. NAME is solution, concentration, "
+        "temperature, contact_time, flow, tmp or endpoint, as the step asks.",
+    ),
+    activity_time: str | None = ACTIVITY_TIME,
+    note: str | None = NOTE,
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Record a cleaning cycle, every step against the procedure version in force; a step
+    outside its ranges or an endpoint not reached holds the module. Each step's agent prints
+    its caution (follow the site's safety procedure)."""
+    from ledger.cli.describe import cycle_report
+    from ledger.entries.care import cycle as entry
+    from ledger.logbook.cycles import procedure_of, record_cycle
+
+    e = entry(locals())
+    cleaning, steps, status, version = write(
+        db,
+        user,
+        password_stdin,
+        lambda s, a: (
+            *(done := record_cycle(s, a, e.serial, e.procedure, e.values,
+                                   activity_at=e.activity_at, note=e.note)),
+            procedure_of(s, done[0]),
+        ),
+    )  # fmt: skip
+    cycle_report(serial, cleaning, steps, status, version, as_json)
+
+
 @procedure_app.command("add")
 @guarded
 def procedure_add(
@@ -348,3 +430,103 @@ def procedure_list(db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> N
     report.tables.append(table)
     report.notes += [*cautions_for([p.agent for p in procedures], site), SITE_NOTE]
     report.print(as_json)
+
+
+solution_app = typer.Typer(
+    help="Prepared cleaning and storage solutions: registered when made, verified before use "
+    "(conductivity for sodium hydroxide, or titration); a cycle step names the one it used.",
+    no_args_is_help=True,
+)
+care_app.add_typer(solution_app, name="solution")
+SOLUTION_CODE = typer.Argument(..., help="The solution's code, e.g. SOL-NAOH-0412.")
+
+
+def _solution_line(row: Any, what: str) -> str:
+    from ledger.cli.describe import solution_text
+
+    return f"solution {row.code} {what}: {solution_text(row)}"
+
+
+@solution_app.command("prepare")
+@guarded
+def solution_prepare(
+    code: str = SOLUTION_CODE,
+    agent: str = typer.Option(..., "--agent", help="The agent, e.g. 'sodium hydroxide'."),
+    target: str = quantity_option(..., "--target", help="Strength made up to, '0.5 mol/L'."),
+    reagent_lot: str = typer.Option(..., "--reagent-lot", help="Lot of the reagent used."),
+    reagent_expiry: str = typer.Option(
+        ..., "--reagent-expiry", help="The reagent lot's expiry date, e.g. 2027-06-30."
+    ),
+    use_by: str = typer.Option(
+        ..., "--use-by", help="Use the solution until, e.g. 2026-12-11T16:00+01:00."
+    ),
+    activity_time: str | None = ACTIVITY_TIME,
+    note: str | None = NOTE,
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Register a solution you prepared; it must be verified before a cleaning uses it. The
+    caution of its agent's hazard class is printed with it."""
+    from ledger.entries.care import solution_prepare as entry
+    from ledger.logbook.site import caution_of
+    from ledger.logbook.solutions import prepare
+
+    e = entry(locals())
+    row, caution = write(
+        db, user, password_stdin, lambda s, a: (prepare(s, a, e), caution_of(s, e.agent))
+    )
+    finish("care solution prepare", row, _solution_line(row, "prepared"), None, as_json,
+           caution=caution)  # fmt: skip
+
+
+@solution_app.command("verify")
+@guarded
+def solution_verify(
+    code: str = SOLUTION_CODE,
+    conductivity: str | None = quantity_option(
+        None, "--conductivity", help="Conductivity read, '98.4 mS/cm' (sodium hydroxide only)."
+    ),
+    reading_temperature: str | None = quantity_option(
+        None, "--reading-temperature", help="The solution's temperature at that reading."
+    ),
+    titration: str | None = quantity_option(
+        None, "--titration", help="Strength found by titration, '0.49 mol/L'."
+    ),
+    calibration: str = typer.Option(
+        ...,
+        "--calibration",
+        help="The meter's calibration (cell constant, standard, date) or the titrant and lot.",
+    ),
+    activity_time: str | None = ACTIVITY_TIME,
+    user: str = USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Record a solution's verified strength: from a conductivity reading (NaOH, CRC table at
+    20 °C, referred to 20 °C) or a titration."""
+    from ledger.entries.care import solution_verify as entry
+    from ledger.logbook.solutions import verify
+
+    e = entry(locals())
+    row = write(db, user, password_stdin, lambda s, a: verify(s, a, e.code, e.verification))
+    finish("care solution verify", row, _solution_line(row, "verified"), None, as_json)
+
+
+@solution_app.command("list")
+@guarded
+def solution_list(
+    user: str | None = READ_USER_OPTION,
+    password_stdin: bool = PASSWORD_STDIN,
+    db: str | None = DB_OPTION,
+    as_json: bool = JSON_OPTION,
+) -> None:
+    """Every prepared solution, newest first, with its state now (usable, unverified,
+    expired, void)."""
+    from ledger.cli.describe import solutions_report
+    from ledger.logbook.solutions import list_solutions
+
+    rows = read(db, list_solutions, user, password_stdin)
+    solutions_report(rows).print(as_json)

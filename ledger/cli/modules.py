@@ -80,6 +80,22 @@ def type_add(
         "--preuse-band",
         help="Pre-use NWP band around the last post-clean (default ±10 %).",
     ),
+    diffusion_max_flow: str | None = quantity_option(
+        None, "--diffusion-max-flow", help="Highest passing diffusion flow, e.g. '12 mL/min'."
+    ),
+    diffusion_test_pressure: str | None = quantity_option(
+        None,
+        "--diffusion-test-pressure",
+        help="The gauge pressure the diffusion limit holds at, e.g. '2.5 bar'.",
+    ),
+    intrusion_max_flow: str | None = quantity_option(
+        None, "--intrusion-max-flow", help="Highest passing water-intrusion flow, '0.3 mL/min'."
+    ),
+    intrusion_test_pressure: str | None = quantity_option(
+        None,
+        "--intrusion-test-pressure",
+        help="The gauge pressure the water-intrusion limit holds at, e.g. '2.5 bar'.",
+    ),
     user: str = USER_OPTION,
     password_stdin: bool = PASSWORD_STDIN,
     db: str | None = DB_OPTION,
@@ -129,6 +145,20 @@ def _type_report(t: Any, site: dict[str, str] | None = None) -> Any:
     if t.bubble_point_min_pa is not None:
         lim.add(
             "bubble_point_min", q("bubble_point_min_pa", "pressure", "psi"), "bubble point minimum"
+        )
+    if t.diffusion_max_flow_m3_s is not None:
+        lim.add("diffusion_max_flow", q("diffusion_max_flow_m3_s", "gas_flow"), "diffusion limit")
+        lim.add(
+            "diffusion_test_pressure",
+            q("diffusion_test_pressure_pa", "pressure", "psi"),
+            "at diffusion test pressure",
+        )
+    if t.intrusion_max_flow_m3_s is not None:
+        lim.add("intrusion_max_flow", q("intrusion_max_flow_m3_s", "flow"), "water-intrusion limit")
+        lim.add(
+            "intrusion_test_pressure",
+            q("intrusion_test_pressure_pa", "pressure", "psi"),
+            "at water-intrusion test pressure",
         )
     lim.add("reuse_limit", t.reuse_limit_cycles, "validated reuse limit (cycles)")
     lim.add("storage_limit", q("storage_limit_s", "time", "d"), "storage limit")

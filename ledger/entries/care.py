@@ -1,5 +1,6 @@
-"""Care entries: a cleaning (``care clean``), a storage period (``care store``) and a
-validated cleaning procedure (``care procedure add``)."""
+"""Care entries: a cleaning (``care clean``), a cleaning cycle (``care cycle``), a storage
+period (``care store``), a validated cleaning procedure (``care procedure add``) and a
+prepared solution (``care solution prepare`` / ``verify``)."""
 
 from __future__ import annotations
 
@@ -14,6 +15,7 @@ from ledger.errors import InputError
 if TYPE_CHECKING:
     from ledger.logbook.care import CleaningInput
     from ledger.logbook.procedures import ProcedureSpec
+    from ledger.logbook.solutions import Preparation, Verification
 
 # A cleaning agent's strength: a molarity, a mass concentration or a percentage.
 STRENGTH = ("molarity", "concentration", "fraction")
@@ -138,3 +140,149 @@ def procedure(raw: Mapping[str, object]) -> ProcedureSpec:
         rinse_conductivity_max_s_m=v["rinse_conductivity_max"],
         entered=v.entered(),
     )
+
+
+CYCLE = Spec(
+    "care cycle",
+    (
+        Field("serial", required=True),
+        Field("procedure", required=True),
+        Field("activity_time", "datetime"),
+        Field("note"),
+    ),
+)
+# What a cycle step may be given (the procedure step says which it takes).
+CYCLE_VALUES = ("solution", "concentration", "temperature", "contact_time", "flow", "tmp",
+                "endpoint")  # fmt: skip
+MAX_CYCLE_STEPS = 20
+
+
+@dataclass(frozen=True)
+class CycleEntry:
+    serial: str
+    procedure: str
+    values: dict[int, dict[str, str]]  # step number -> value name -> text as typed
+    activity_at: datetime | None
+    note: str | None
+
+
+def cycle(raw: Mapping[str, object]) -> CycleEntry:
+    """Check ``care cycle``'s fields; each ``--value N.NAME=TEXT`` names its step and value,
+    parsed by the service against the procedure step (its kinds and units)."""
+    from ledger.entries.runs import pairs
+
+    v = CYCLE.parse(raw)
+    given = pairs(list(raw.get("values") or ()), "value")  # type: ignore[call-overload]
+    out: dict[int, dict[str, str]] = {}
+    for key, text in given.items():
+        number, dot, name = key.partition(".")
+        number = number.strip()
+        name = name.strip()
+        if not dot or not number.isdigit() or name not in CYCLE_VALUES:
+            raise InputError(
+                f"--value {key!r} is not STEP.NAME",
+                field="value",
+                value=key,
+                expected="STEP.NAME=TEXT with NAME one of "
+                + ", ".join(CYCLE_VALUES)
+                + ", e.g. 2.temperature='45 degC'",
+            )
+        step = int(number)
+        if not 1 <= step <= MAX_CYCLE_STEPS:
+            raise InputError(
+                f"--value {key!r}: step {step} is out of range",
+                field="value",
+                value=key,
+                expected=f"a step number from 1 to {MAX_CYCLE_STEPS}",
+            )
+        out.setdefault(step, {})[name] = text
+    return CycleEntry(v["serial"], v["procedure"], out, when(v), v["note"])
+
+
+SOLUTION_PREPARE = Spec(
+    "care solution prepare",
+    (
+        Field("code", required=True),
+        Field("agent", required=True),
+        Field("target", "either", required=True, kinds=STRENGTH),
+        Field("reagent_lot", required=True),
+        Field("reagent_expiry", "date", required=True),
+        Field("use_by", "datetime", required=True),
+        Field("activity_time", "datetime"),
+        Field("note"),
+    ),
+)
+
+
+def solution_prepare(raw: Mapping[str, object]) -> Preparation:
+    """Check a prepared solution's entry (the target keeps its kind's SI unit)."""
+    from ledger.logbook.solutions import Preparation
+
+    v = SOLUTION_PREPARE.parse(raw)
+    value, kind = v["target"]
+    return Preparation(
+        code=v["code"],
+        agent=v["agent"],
+        target=value,
+        unit=EITHER_UNITS[kind],
+        reagent_lot=v["reagent_lot"],
+        reagent_expiry=v["reagent_expiry"],
+        use_by=v["use_by"],
+        prepared_at=when(v),
+        note=v["note"],
+        entered=v.entered(),
+    )
+
+
+SOLUTION_VERIFY = Spec(
+    "care solution verify",
+    (
+        Field("code", required=True),
+        Field("conductivity", "conductivity", positive=True),
+        Field("reading_temperature", "temperature"),
+        Field("titration", "either", kinds=STRENGTH, positive=True),
+        Field("calibration", required=True),
+        Field("activity_time", "datetime"),
+    ),
+)
+
+
+@dataclass(frozen=True)
+class VerifyEntry:
+    code: str
+    verification: Verification
+
+
+def solution_verify(raw: Mapping[str, object]) -> VerifyEntry:
+    """Check a solution's verification: a conductivity reading with its temperature, or a
+    titrated strength — one of the two."""
+    from ledger.logbook.solutions import Verification
+
+    v = SOLUTION_VERIFY.parse(raw)
+    by_conductivity = v["conductivity"] is not None
+    if by_conductivity == (v["titration"] is not None):
+        raise InputError(
+            "give --conductivity (with --reading-temperature) or --titration, one of the two",
+            field="conductivity",
+            value=v.raw.get("conductivity") or v.raw.get("titration"),
+            expected="--conductivity '98 mS/cm' --reading-temperature '20 degC', or "
+            "--titration '0.49 mol/L'",
+        )
+    if by_conductivity:
+        if v["reading_temperature"] is None:
+            raise InputError(
+                "--conductivity needs --reading-temperature (the solution's temperature at "
+                "the reading)",
+                field="reading_temperature",
+                value=None,
+                expected="a temperature, e.g. '21.5 degC'",
+            )
+        ver = Verification("conductivity", v["calibration"], conductivity_s_m=v["conductivity"],
+                           temperature_k=v["reading_temperature"], verified_at=when(v),
+                           entered=v.entered())  # fmt: skip
+    else:
+        value, kind = v["titration"]
+        ver = Verification("titration", v["calibration"], titrated=value,
+                           unit=EITHER_UNITS[kind], verified_at=when(v),
+                           entered=v.entered())  # fmt: skip
+    return VerifyEntry(v["code"], ver)

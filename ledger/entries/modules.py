@@ -9,7 +9,7 @@ from datetime import date
 from typing import TYPE_CHECKING
 
 from ledger.entries.defaults import TYPE_DEFAULTS
-from ledger.entries.fields import Field, Spec
+from ledger.entries.fields import Field, Spec, together
 
 if TYPE_CHECKING:
     from ledger.logbook.modules import TypeSpec
@@ -43,6 +43,10 @@ MODULE_TYPE = Spec(
         _limit("recovery_alert", "fraction"),
         _limit("damage_ratio", "fraction"),
         _limit("preuse_band", "fraction"),
+        _limit("diffusion_max_flow", "gas_flow"),
+        _limit("diffusion_test_pressure", "pressure"),
+        _limit("intrusion_max_flow", "flow"),
+        _limit("intrusion_test_pressure", "pressure"),
     ),
 )
 
@@ -53,6 +57,9 @@ def module_type(raw: Mapping[str, object]) -> TypeSpec:
     from ledger.logbook.modules import TypeSpec
 
     v = MODULE_TYPE.parse(raw, TYPE_DEFAULTS)
+    # A flow limit means nothing without the pressure it holds at, and the reverse.
+    together(v, "a diffusion limit", "diffusion_max_flow", "diffusion_test_pressure")
+    together(v, "a water-intrusion limit", "intrusion_max_flow", "intrusion_test_pressure")
     return TypeSpec(
         code=v["code"].strip(),
         membrane=v["membrane"],
@@ -75,6 +82,10 @@ def module_type(raw: Mapping[str, object]) -> TypeSpec:
         max_volume_loading_m=v["max_loading"],
         max_mass_loading_kg_m2=v["max_mass_loading"],
         clean_hold_s=v["clean_hold"],
+        diffusion_max_flow_m3_s=v["diffusion_max_flow"],
+        diffusion_test_pressure_pa=v["diffusion_test_pressure"],
+        intrusion_max_flow_m3_s=v["intrusion_max_flow"],
+        intrusion_test_pressure_pa=v["intrusion_test_pressure"],
         entered=v.entered(),
     )
 

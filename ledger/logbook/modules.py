@@ -45,6 +45,10 @@ class TypeSpec:
     max_volume_loading_m: float | None = None  # m³ of feed per m² of membrane
     max_mass_loading_kg_m2: float | None = None
     clean_hold_s: float | None = None  # pre-use tests older than this must be repeated
+    diffusion_max_flow_m3_s: float | None = None  # diffusion limit (m³/s) ...
+    diffusion_test_pressure_pa: float | None = None  # ... at this gauge pressure (Pa)
+    intrusion_max_flow_m3_s: float | None = None  # water-intrusion limit (m³/s) ...
+    intrusion_test_pressure_pa: float | None = None  # ... at this gauge pressure (Pa)
     entered: dict[str, str] | None = None  # field -> text as typed ("30 psi"), shown as is
 
 
@@ -88,6 +92,24 @@ def check_type(spec: TypeSpec) -> TypeSpec:
             "a pressure above zero",
             label="bubble-point minimum",
         )
+    for flow, pressure, label in (
+        ("diffusion_max_flow_m3_s", "diffusion_test_pressure_pa", "diffusion"),
+        ("intrusion_max_flow_m3_s", "intrusion_test_pressure_pa", "water-intrusion"),
+    ):
+        given = [n for n in (flow, pressure) if getattr(spec, n) is not None]
+        if len(given) == 1:
+            missing = pressure if given[0] == flow else flow
+            raise InputError(
+                f"a {label} limit needs its maximum flow and its test pressure together",
+                field=missing,
+                value=None,
+                expected=f"both of {flow} and {pressure}, or neither",
+            )
+        if given:
+            positive(flow, getattr(spec, flow), "a flow greater than zero",
+                     label=f"{label} maximum flow")  # fmt: skip
+            positive(pressure, getattr(spec, pressure), "a gauge pressure greater than zero",
+                     label=f"{label} test pressure")  # fmt: skip
     if not 0 < spec.recovery_min <= spec.recovery_alert <= 1.5:
         raise InputError(
             f"recovery minimum {spec.recovery_min:.0%} and alert {spec.recovery_alert:.0%} "

@@ -32,6 +32,7 @@ from ledger.runs.template import Template
 from ledger.store.tables import (
     AuditEvent,
     Cleaning,
+    CleaningStep,
     Deviation,
     IntegrityTest,
     Module,
@@ -41,6 +42,7 @@ from ledger.store.tables import (
     Run,
     Signature,
     SkidLogFile,
+    TemplateVersion,
     WaterFluxTest,
 )
 
@@ -108,7 +110,15 @@ def assemble(
         ctx = _assemble(session, run_id, revision, reason, as_of, audit_seq)
     finally:
         _ZONE.reset(token)
+    if version < 4:
+        ctx = _before_cycle_steps(ctx)
     return ctx if version >= 3 else _before_hazard_classes(ctx)
+
+
+def _before_cycle_steps(ctx: c.Context) -> c.Context:
+    """``ctx`` as a version-3 context: cleanings without their cycle steps."""
+    cleanings = tuple(replace(r, steps=None, procedure="") for r in ctx.history.cleanings)
+    return replace(ctx, history=replace(ctx.history, cleanings=cleanings), version=3)
 
 
 def _before_hazard_classes(ctx: c.Context) -> c.Context:
@@ -199,7 +209,9 @@ def _assemble(
     )
     cutoff = run.finished_at or run.started_at or as_of or datetime.now(UTC)
     history = _history(session, module, mtype, uses, run.use_id, cutoff, as_of)
-    cleaning_cautions = tuple(cautions_for([r.agent for r in history.cleanings], agent_list))
+    agents = [a for r in history.cleanings for a in ([st.agent for st in r.steps] if r.steps
+                                                     else [r.agent])]  # fmt: skip
+    cleaning_cautions = tuple(cautions_for(agents, agent_list))
     history = replace(history, cleaning_cautions=cleaning_cautions)
     summary = _summary(log)
     cautions = [c.SITE_CAUTION]
@@ -501,7 +513,7 @@ def _history(
         recent_cycles=cycles,
         recovery=tuple(recovery[-RECOVERY_POINTS:]),
         last_integrity=_integrity(last) if last else None,
-        cleanings=tuple(_cleaning(r) for r in rows(Cleaning)[-RECENT_CLEANINGS:]),
+        cleanings=tuple(_cleaning(r, session) for r in rows(Cleaning)[-RECENT_CLEANINGS:]),
     )
 
 
@@ -514,6 +526,16 @@ def _integrity(t: IntegrityTest) -> c.IntegrityRow:
             "≥ " + show(t.limit_value, "bar", "pressure"),
             t.passed,
         )
+    if t.kind in ("diffusion", "water_intrusion"):
+        flow = t.gas_flow_m3_s if t.kind == "diffusion" else t.intrusion_flow_m3_s
+        words = "diffusion" if t.kind == "diffusion" else "water intrusion"
+        return c.IntegrityRow(
+            _at(t.activity_at),
+            f"{words} at {show(t.test_pressure_pa, 'bar', 'pressure')}",
+            show(flow, "mL/min", "flow"),
+            "≤ " + show(t.limit_value, "mL/min", "flow"),
+            t.passed,
+        )
     at = show(t.test_pressure_pa, "bar", "pressure")
     return c.IntegrityRow(
         _at(t.activity_at),
@@ -524,7 +546,52 @@ def _integrity(t: IntegrityTest) -> c.IntegrityRow:
     )
 
 
-def _cleaning(r: Cleaning) -> c.CleaningRow:
+# A cycle step's values: column, the name it is typed under, display unit, unit kind.
+_STEP_VALUES = (
+    ("temperature_k", "temperature", "degC", "temperature"),
+    ("contact_time_s", "contact_time", "min", "time"),
+    ("flow_m3_s", "flow", "mL/min", "flow"),
+    ("tmp_pa", "tmp", "bar", "pressure"),
+)
+_ENDPOINTS: dict[str, tuple[str, str, str | None]] = {
+    "ph": ("pH", "", None),
+    "conductivity": ("conductivity", "uS/cm", "conductivity"),
+    "toc": ("TOC", "ug/L", "concentration"),
+    "volume": ("volume", "L", "volume"),
+}
+
+
+def _strength(value: float | None, unit: str) -> str:
+    if unit == "mol/m**3":
+        return show(value, "mol/L", "molarity")
+    if unit == "kg/m**3":
+        return show(value, "g/L", "concentration")
+    return show(value, "percent", "fraction")
+
+
+def _cycle_step(st: CleaningStep) -> c.CycleStepRow:
+    """A cycle step for the record: each value as typed (else in a common unit)."""
+    typed = st.entered or {}
+    parts = []
+    if st.concentration is not None:
+        parts.append(typed.get("concentration") or _strength(st.concentration,
+                                                              st.concentration_unit))  # fmt: skip
+    for column, name, unit, kind in _STEP_VALUES:
+        value = getattr(st, column)
+        if value is not None:
+            parts.append(typed.get(name) or show(value, unit, kind))
+    if st.endpoint_kind is not None and st.endpoint_value is not None:
+        word, unit, qkind = _ENDPOINTS[st.endpoint_kind]
+        value_text = typed.get("endpoint") or (
+            f"{st.endpoint_value:g}" if qkind is None else show(st.endpoint_value, unit, qkind)
+        )
+        parts.append(f"endpoint {word} {value_text}")
+    conforms = "no: " + "; ".join(st.departures) if st.departures else "yes"
+    return c.CycleStepRow(st.number, st.name, st.agent, st.solution_code or "",
+                          ", ".join(parts) or "—", conforms)  # fmt: skip
+
+
+def _cleaning(r: Cleaning, session: Session | None = None) -> c.CleaningRow:
     if r.concentration_unit == "mol/m**3":
         conc = show(r.concentration, "mol/L", "molarity")
     elif r.concentration_unit == "kg/m**3":
@@ -538,6 +605,14 @@ def _cleaning(r: Cleaning) -> c.CleaningRow:
         if not r.deviations
         else "no: " + "; ".join(r.deviations)
     )
+    steps: tuple[c.CycleStepRow, ...] = ()
+    procedure = ""
+    if session is not None and r.procedure_version_id is not None:
+        version = session.get(TemplateVersion, r.procedure_version_id)
+        procedure = f"{version.template_id} v{version.version}" if version else "?"
+        found = session.exec(select(CleaningStep).where(CleaningStep.cleaning_id == r.id)
+                             .order_by(col(CleaningStep.number)))  # fmt: skip
+        steps = tuple(_cycle_step(st) for st in found)
     return c.CleaningRow(
         _at(r.activity_at),
         r.agent,
@@ -545,6 +620,8 @@ def _cleaning(r: Cleaning) -> c.CleaningRow:
         show(r.temperature_k, "degC", "temperature"),
         show(r.contact_time_s, "min", "time"),
         conforms,
+        steps=steps,
+        procedure=procedure,
     )
 
 

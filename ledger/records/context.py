@@ -19,7 +19,8 @@ from ledger.canonical import canonical
 # 2: the review by exception (``review``); revisions issued at 1 are compared without it.
 # 3: cautions by the hazard class of each agent named (steps, cleanings) instead of one
 #    caustic caution; a revision issued at 2 is assembled again the old way.
-CONTEXT_VERSION = 3
+# 4: a cleaning recorded as a cycle lists its steps (CleaningRow.steps); None before.
+CONTEXT_VERSION = 4
 
 SITE_CAUTION = (
     "Acceptance limits, specifications and signature roles in this record come from the site's "
@@ -197,10 +198,22 @@ class RecoveryPoint:
 @dataclass(frozen=True)
 class IntegrityRow:
     at: str
-    kind: str  # pressure decay, bubble point
-    result: str  # "0.8 mbar/min"
+    kind: str  # pressure decay, bubble point, diffusion or water intrusion at its test pressure
+    result: str  # "0.8 mbar/min", a bubble point, or a flow "8 mL/min"
     limit: str
     passed: bool
+
+
+@dataclass(frozen=True)
+class CycleStepRow:
+    """One step of a cleaning cycle as done: its values as people read them and its verdict."""
+
+    number: int
+    name: str
+    agent: str
+    solution: str  # the prepared solution's code, "" for none
+    values: str  # "0.5 M (500 mol/m³), 45 degC (318.15 K), 60 min (3600 s)"
+    conforms: str  # "yes" or "no: ..."
 
 
 @dataclass(frozen=True)
@@ -211,6 +224,10 @@ class CleaningRow:
     temperature: str
     contact_time: str
     conforms: str  # "yes", "no: ...", "not checked"
+    # version 4 on: a cycle's steps under its procedure "QC-CYCLE-05 v1"; () for a one-agent
+    # cleaning; None before version 4
+    steps: tuple[CycleStepRow, ...] | None = None
+    procedure: str = ""
 
 
 @dataclass(frozen=True)

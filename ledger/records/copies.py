@@ -1,6 +1,6 @@
 """Controlled copies of a batch record: every print or sealed file is numbered and audited.
 
-A copy carries its number within the run, its kind (print, sealed), the revision it shows,
+A copy carries its number within the run, its kind (print, sealed, archive), the revision it shows,
 that revision's signature state and the meanings it carries. ``register`` writes the
 ``record_copy`` row through the audit journal, so each copy is an event of ``audit show``.
 ``check`` compares what a file's stamp claims with the database: a claim the database does not
@@ -27,7 +27,7 @@ from ledger.store.tables import AuditHead, RecordCopy, RecordRevision, UserAccou
 
 DRAFT, IN_REVIEW, APPROVED, SUPERSEDED = "draft", "in review", "approved", "superseded"
 STATES = (DRAFT, IN_REVIEW, APPROVED, SUPERSEDED)
-PAST = {"print": "printed", "sealed": "sealed"}  # kind -> the audit reason's verb
+PAST = {"print": "printed", "sealed": "sealed", "archive": "archived"}  # kind -> the audit verb
 
 
 @dataclass(frozen=True)

@@ -357,6 +357,15 @@ def history(ctx: Context, draw: bool) -> list[Any]:
         heading = ("At", "Agent", "Concentration", "Temperature", "Contact time",
                    "Conforms to procedure")  # fmt: skip
         out.append(layout.table(heading, rows, widths(24, 12, 15, 13, 13, 23)))
+        for cl in h.cleanings:
+            if cl.steps:
+                out += [Spacer(1, 3), note(f"Cleaning cycle of {when(cl.at)} under procedure "
+                                           f"{cl.procedure}, step by step:")]  # fmt: skip
+                step_rows = [[f"{st.number}. {st.name}",
+                              st.agent + (f" (solution {st.solution})" if st.solution else ""),
+                              st.values, st.conforms] for st in cl.steps]  # fmt: skip
+                out.append(layout.table(("Step", "Agent", "Values as entered", "Conforms"),
+                                        step_rows, widths(14, 24, 38, 24)))  # fmt: skip
     else:
         out.append(note("No cleanings recorded before this run."))
     return out

@@ -4,7 +4,8 @@
 
 1. the file's digital seal, if it has one (intact, nothing added after sealing, signer);
 2. the file itself: the document as printed (before any seal) must be byte for byte the PDF
-   that the stored revision renders to, with the signatures the file names;
+   that the stored revision renders to, with the signatures the file names (an archive copy:
+   that PDF made PDF/A-3b with its record.json, ``ledger.records.archive``);
 3. the revision in the database: its stored content still has its stored hash, and — for the
    run's current revision — the database still gives that content when assembled again as it
    stood when the revision was issued (a value edited after signing shows here);
@@ -161,6 +162,7 @@ def _merge(report: Report, found: copies.Findings) -> None:
 
 def verify_file(session: Session, data: bytes, *, trust: Sequence[Path] = ()) -> Report:
     """Check a batch-record PDF (sealed or not) against the database; see the module doc."""
+    from ledger.records import archive
     from ledger.records.pdf import render, stamp_of
     from ledger.store.audit import verify as verify_audit
 
@@ -254,6 +256,9 @@ def verify_file(session: Session, data: bytes, *, trust: Sequence[Path] = ()) ->
     software = stamp.get("software", "")
     expected = [render(shown, software_version=software, charts=charts, issued=rev.as_of,
                        copy=copy) for charts in (True, False)]  # fmt: skip
+    if base not in expected and archive.is_archive(base):
+        expected.append(archive.archive_pdf(shown, software_version=software, issued=rev.as_of,
+                                            copy=copy))  # fmt: skip
     if base in expected:
         report.passed.append("the file is byte for byte the record rendered from the database")
     else:

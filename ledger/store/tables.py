@@ -120,10 +120,20 @@ class ModuleType(Recorded, table=True):
     max_volume_loading_m: float | None = None  # feed volume per membrane area (m³/m²)
     max_mass_loading_kg_m2: float | None = None
     clean_hold_s: float | None = None  # pre-use tests must be this recent at a run's start
+    diffusion_max_flow_m3_s: float | None = None  # diffusion (forward-flow) limit ...
+    diffusion_test_pressure_pa: float | None = None  # ... at this test pressure (gauge)
+    intrusion_max_flow_m3_s: float | None = None  # water-intrusion limit ...
+    intrusion_test_pressure_pa: float | None = None  # ... at this test pressure (gauge)
     # As typed, field -> text with its unit (e.g. {"concentration": "0.5 M"}), so a value is
     # shown in the unit it was entered in; the SI columns hold the values computed with.
     entered: dict[str, str] | None = Field(default=None, sa_type=JSON)
-    hash_defaults: ClassVar[dict[str, Any]] = {"entered": None}
+    hash_defaults: ClassVar[dict[str, Any]] = {
+        "entered": None,
+        "diffusion_max_flow_m3_s": None,
+        "diffusion_test_pressure_pa": None,
+        "intrusion_max_flow_m3_s": None,
+        "intrusion_test_pressure_pa": None,
+    }
 
 
 class Module(Recorded, table=True):
@@ -176,7 +186,8 @@ class WaterFluxTest(Activity, table=True):
 
 
 class IntegrityTest(Activity, table=True):
-    """Pressure-decay or bubble-point test and its verdict against the module type's limit."""
+    """Pressure-decay, bubble-point, diffusion or water-intrusion test and its verdict against
+    the module type's limit."""
 
     __tablename__ = "integrity_test"
     __table_args__ = (
@@ -185,7 +196,7 @@ class IntegrityTest(Activity, table=True):
     )
 
     id: int | None = Field(default=None, primary_key=True)
-    kind: str = Field(max_length=16)  # pressure_decay, bubble_point
+    kind: str = Field(max_length=16)  # pressure_decay, bubble_point, diffusion, water_intrusion
     test_pressure_pa: float | None = None
     hold_time_s: float | None = None
     upstream_volume_m3: float | None = None
@@ -193,16 +204,17 @@ class IntegrityTest(Activity, table=True):
     readings: list[list[float]] | None = Field(default=None, sa_type=JSON)  # [[t_s, p_pa], ...]
     decay_rate_pa_s: float | None = None
     r_squared: float | None = None
-    gas_flow_m3_s: float | None = None
+    gas_flow_m3_s: float | None = None  # a decay's gas flow, or the diffusion flow
+    intrusion_flow_m3_s: float | None = None  # water-intrusion flow
     bubble_point_pa: float | None = None
-    limit_value: float  # Pa/s for a decay, Pa for a bubble point
+    limit_value: float  # Pa/s for a decay, Pa for a bubble point, m³/s for a flow test
     passed: bool
     method: str
     method_version: str
     # As typed, field -> text with its unit (e.g. {"concentration": "0.5 M"}), so a value is
     # shown in the unit it was entered in; the SI columns hold the values computed with.
     entered: dict[str, str] | None = Field(default=None, sa_type=JSON)
-    hash_defaults: ClassVar[dict[str, Any]] = {"entered": None}
+    hash_defaults: ClassVar[dict[str, Any]] = {"entered": None, "intrusion_flow_m3_s": None}
 
 
 class CleaningProcedure(Recorded, table=True):
@@ -246,12 +258,75 @@ class Cleaning(Activity, table=True):
     rinse_ph: float | None = None
     rinse_conductivity_s_m: float | None = None
     procedure_id: int | None = Field(default=None, foreign_key="cleaning_procedure.id")
+    # A cleaning cycle: the cleaning-procedure version it was recorded under (its steps are
+    # cleaning_step rows); None for a one-agent cleaning.
+    procedure_version_id: int | None = Field(default=None, foreign_key="template_version.id")
     # None: not checked against a procedure; []: conforms; else each departure in words.
     deviations: list[str] | None = Field(default=None, sa_type=JSON)
     # As typed, field -> text with its unit (e.g. {"concentration": "0.5 M"}), so a value is
     # shown in the unit it was entered in; the SI columns hold the values computed with.
     entered: dict[str, str] | None = Field(default=None, sa_type=JSON)
-    hash_defaults: ClassVar[dict[str, Any]] = {"entered": None}
+    hash_defaults: ClassVar[dict[str, Any]] = {"entered": None, "procedure_version_id": None}
+
+
+class CleaningStep(Recorded, table=True):
+    """One step of a cleaning cycle as done, against its procedure step (SI values; None where
+    the step asks for nothing)."""
+
+    __tablename__ = "cleaning_step"
+    __table_args__ = (
+        Index("ix_cleaning_step_cleaning_number", "cleaning_id", "number", unique=True),
+        {"sqlite_autoincrement": True},
+    )
+
+    id: int | None = Field(default=None, primary_key=True)
+    cleaning_id: int = Field(foreign_key="cleaning.id")
+    number: int
+    name: str
+    agent: str
+    solution_code: str | None = Field(default=None, max_length=64)
+    concentration: float | None = None  # SI value in concentration_unit
+    concentration_unit: str = Field(default="", max_length=16)
+    temperature_k: float | None = None
+    contact_time_s: float | None = None
+    flow_m3_s: float | None = None
+    tmp_pa: float | None = None
+    endpoint_kind: str | None = Field(default=None, max_length=16)  # ph, conductivity, toc...
+    endpoint_value: float | None = None  # pH; S/m; kg/m³ (TOC); m³ (volume)
+    departures: list[str] = Field(default_factory=list, sa_type=JSON)  # [] when it conforms
+    entered: dict[str, str] | None = Field(default=None, sa_type=JSON)
+
+
+class PreparedSolution(Voidable, table=True):
+    """A prepared cleaning or storage solution: what it is meant to be, what it was verified
+    to be, the reagent it was made from and until when it may be used.
+
+    ``target_concentration`` and ``verified_concentration`` are SI values in
+    ``concentration_unit`` (mol/m³, kg/m³, or "" for a fraction); ``verification`` holds the
+    reading it was verified with (conductivity in S/m and its temperature in K, or the
+    titration result) and the stated calibration or titrant, as typed.
+    """
+
+    __tablename__ = "prepared_solution"
+    __table_args__ = {"sqlite_autoincrement": True}
+
+    id: int | None = Field(default=None, primary_key=True)
+    code: str = Field(max_length=64, unique=True)
+    agent: str
+    target_concentration: float
+    concentration_unit: str = Field(default="", max_length=16)
+    reagent_lot: str
+    reagent_expiry: date
+    prepared_by: str = Field(max_length=64)
+    prepared_at: datetime = Field(sa_type=UTCDateTime)
+    use_by: datetime = Field(sa_type=UTCDateTime)
+    verified_concentration: float | None = None
+    verification_method: str | None = Field(default=None, max_length=16)  # conductivity...
+    verification: dict[str, Any] | None = Field(default=None, sa_type=JSON)
+    verified_by: str | None = Field(default=None, max_length=64)
+    verified_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
+    note: str | None = None
+    entered: dict[str, str] | None = Field(default=None, sa_type=JSON)
 
 
 class Storage(Activity, table=True):
@@ -527,6 +602,8 @@ RECORDS: dict[str, type[Recorded]] = {
     "water_flux_test": WaterFluxTest,
     "integrity_test": IntegrityTest,
     "cleaning": Cleaning,
+    "cleaning_step": CleaningStep,
+    "prepared_solution": PreparedSolution,
     "storage": Storage,
     "module_use": ModuleUse,
     "hold": Hold,
@@ -600,6 +677,8 @@ class TemplateVersion(Recorded, table=True):
     )
 
     id: int | None = Field(default=None, primary_key=True)
+    # template (a master record) or cleaning_procedure (a cleaning cycle); one ID per kind
+    kind: str = Field(default="template", max_length=32)
     template_id: str = Field(max_length=64)
     version: str = Field(max_length=32)
     sha256: str = Field(max_length=64)  # of the file's bytes (text is those bytes, UTF-8)
@@ -615,6 +694,7 @@ class TemplateVersion(Recorded, table=True):
     retired_by: str | None = Field(default=None, max_length=64)
     retired_at: datetime | None = Field(default=None, sa_type=UTCDateTime)
     retire_reason: str | None = None
+    hash_defaults: ClassVar[dict[str, Any]] = {"kind": "template"}
 
 
 RECORDS["template_version"] = TemplateVersion

@@ -50,7 +50,7 @@ def test_an_issued_record_carries_the_cautions_of_its_agents(issued: World) -> N
     with transaction(issued.engine()) as s:
         rev = s.exec(select(RecordRevision)).one()
         ctx = stored_context(s, rev)
-    assert ctx.version == c.CONTEXT_VERSION == 3
+    assert ctx.version == c.CONTEXT_VERSION == 4
     agents = {r.agent.casefold() for r in ctx.history.cleanings}
     assert agents == {"sodium hydroxide"}  # the world cleans with it before the run
     caustic = CAUTIONS["caustic"].format(agent=ctx.history.cleanings[0].agent)
