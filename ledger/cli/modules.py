@@ -111,7 +111,7 @@ def type_add(
     finish("module-type add", created, f"added module type {created.code}", None, as_json)
 
 
-def _type_report(t: Any, site: dict[str, str] | None = None) -> Any:
+def _type_report(t: Any, site: dict[str, str] | None = None, version: Any = None) -> Any:
     """A module type's report: each value as typed, else in the site's display unit (``site``,
     kind -> unit) or the unit this screen has always used."""
     from ledger.cli.describe import shown_q
@@ -131,6 +131,11 @@ def _type_report(t: Any, site: dict[str, str] | None = None) -> Any:
     g.add("length", q("effective_length_m", "fiber_length"), "effective length")
     g.add("area", q("area_m2", "area"))
     lim = report.section("Site limits")
+    in_force = "as registered"
+    if version is not None:
+        since = version.effective_from.isoformat(timespec="seconds")
+        in_force = f"version {version.version}, effective from {since}, by {version.approved_by}"
+    lim.add("limits_version", in_force, "limits version in force")
     lim.add(
         "reference_temperature",
         q("reference_temperature_k", "temperature"),
@@ -177,11 +182,25 @@ def _type_report(t: Any, site: dict[str, str] | None = None) -> Any:
 def type_show(
     code: str = typer.Argument(...), db: str | None = DB_OPTION, as_json: bool = JSON_OPTION
 ) -> None:
-    """Show a module type and its limits."""
-    from ledger.logbook.modules import get_type
+    """Show a module type and the limits in force now (and which version they are)."""
     from ledger.logbook.site import display_units
+    from ledger.logbook.typelimits import type_in_force
 
-    read(db, lambda s: _type_report(get_type(s, code), display_units(s))).print(as_json)
+    def work(s: Any) -> Any:
+        mtype, version = type_in_force(s, code)
+        return _type_report(mtype, display_units(s), version)
+
+    read(db, work).print(as_json)
+
+
+def _limits_app() -> typer.Typer:
+    from ledger.cli.templates import controlled_app
+
+    return controlled_app("module-type limits", "module-type limits", "type", "QM-HF750-S",
+                          "ledger.logbook.typelimits", "tests judged")  # fmt: skip
+
+
+types_app.add_typer(_limits_app(), name="limits")
 
 
 @types_app.command("list")

@@ -9,7 +9,7 @@ from sqlalchemy import func
 from sqlmodel import Session, select
 
 from ledger.errors import InputError, RefusedError
-from ledger.logbook import latest
+from ledger.logbook import latest, typelimits
 from ledger.logbook.auth import RECORDERS, require_role
 from ledger.logbook.modules import get_module, last_decision, put_on_hold
 from ledger.logbook.times import activity_time
@@ -33,9 +33,10 @@ class Work:
 
     journal: Journal
     module: Module
-    mtype: ModuleType
+    mtype: ModuleType  # with the limits in force at ``at``
     at: datetime
     late: bool
+    limits_version_id: int | None = None  # that limits version (None: as registered)
 
     @property
     def session(self) -> Session:
@@ -95,9 +96,10 @@ def begin(
             value=at.isoformat(),
             expected=f"a time after {previous.isoformat()}",
         )
-    mtype = session.get(ModuleType, module.type_id)
-    assert mtype is not None
-    return Work(journal, module, mtype, at, late)
+    registered = session.get(ModuleType, module.type_id)
+    assert registered is not None
+    mtype, limits = typelimits.in_force(session, registered, at)
+    return Work(journal, module, mtype, at, late, limits.id if limits else None)
 
 
 def set_status(work: Work, status: str, reason: str) -> None:

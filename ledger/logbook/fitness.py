@@ -38,8 +38,11 @@ def _cleaning(session: Session, c: Cleaning | None) -> CleaningResult | None:
 def facts(
     session: Session, module: Module, product: str | None = None, now: datetime | None = None
 ) -> Facts:
-    mtype = session.get(ModuleType, module.type_id)
-    assert mtype is not None and module.id is not None
+    from ledger.logbook import typelimits
+
+    registered = session.get(ModuleType, module.type_id)
+    assert registered is not None and module.id is not None
+    mtype, _ = typelimits.in_force(session, registered, now or utc_now())
     mid = module.id
     use = latest.use(session, mid)
     store = latest.storage(session, mid)

@@ -160,6 +160,7 @@ def record_water_test(
         module_id=work.module_id,
         activity_at=work.at,
         late=work.late,
+        limits_version_id=work.limits_version_id,
         note=optional("note", note, "a remark"),
         stage=stage,
         water_grade=optional("water_grade", water_grade, "e.g. WFI or PW", kind="name"),

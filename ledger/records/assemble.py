@@ -22,6 +22,7 @@ from typing import Any
 from sqlmodel import Session, col, select
 
 from ledger.errors import TamperedError
+from ledger.logbook import typelimits
 from ledger.logbook.site import agent_hazards, site_name, site_zone
 from ledger.records import context as c
 from ledger.rules.hazards import agents_in, cautions_for
@@ -116,9 +117,10 @@ def assemble(
 
 
 def _before_cycle_steps(ctx: c.Context) -> c.Context:
-    """``ctx`` as a version-3 context: cleanings without their cycle steps."""
+    """``ctx`` as a version-3 context: cleanings without their cycle steps, no limits name."""
     cleanings = tuple(replace(r, steps=None, procedure="") for r in ctx.history.cleanings)
-    return replace(ctx, history=replace(ctx.history, cleanings=cleanings), version=3)
+    history = replace(ctx.history, cleanings=cleanings, limits="")
+    return replace(ctx, history=history, version=3)
 
 
 def _before_hazard_classes(ctx: c.Context) -> c.Context:
@@ -145,8 +147,12 @@ def _assemble(
                   "not a released batch record")  # fmt: skip
     module = session.get(Module, run.module_id)
     assert module is not None
-    mtype = session.get(ModuleType, module.type_id)
-    assert mtype is not None
+    registered = session.get(ModuleType, module.type_id)
+    assert registered is not None
+    # The limits in force when the revision was issued (a draft: now), of the versions
+    # approved by then: a version approved later changes nothing in an issued revision.
+    issued_at = as_of or datetime.now(UTC)
+    mtype, limits = typelimits.in_force(session, registered, issued_at, known_at=issued_at)
     template = runs.run_template(run)
     plan = runs.run_plan(run)
     log = _skid_log(session, run_id, as_of)
@@ -209,6 +215,10 @@ def _assemble(
     )
     cutoff = run.finished_at or run.started_at or as_of or datetime.now(UTC)
     history = _history(session, module, mtype, uses, run.use_id, cutoff, as_of)
+    in_force = "as registered"
+    if limits is not None and limits.effective_from is not None:
+        in_force = f"version {limits.version}, effective from {iso(limits.effective_from)}"
+    history = replace(history, limits=f"{mtype.code} limits {in_force}")
     agents = [a for r in history.cleanings for a in ([st.agent for st in r.steps] if r.steps
                                                      else [r.agent])]  # fmt: skip
     cleaning_cautions = tuple(cautions_for(agents, agent_list))

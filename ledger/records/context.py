@@ -19,7 +19,8 @@ from ledger.canonical import canonical
 # 2: the review by exception (``review``); revisions issued at 1 are compared without it.
 # 3: cautions by the hazard class of each agent named (steps, cleanings) instead of one
 #    caustic caution; a revision issued at 2 is assembled again the old way.
-# 4: a cleaning recorded as a cycle lists its steps (CleaningRow.steps); None before.
+# 4: a cleaning recorded as a cycle lists its steps (CleaningRow.steps; None before) and the
+#    history names the module type's limits version in force (History.limits; "" before).
 CONTEXT_VERSION = 4
 
 SITE_CAUTION = (
@@ -244,6 +245,9 @@ class History:
     cleanings: tuple[CleaningRow, ...]  # the last cleanings before this run
     # version 3 on: the cautions of those cleanings' agents; None before (one caustic caution)
     cleaning_cautions: tuple[str, ...] | None = None
+    # version 4 on: the module type's limits version in force ("QM-HF750-S limits version 2,
+    # effective from ..." or "... as registered"); "" before
+    limits: str = ""
 
 
 @dataclass(frozen=True)

@@ -313,6 +313,8 @@ def history(ctx: Context, draw: bool) -> list[Any]:
     summary = (f"Cycles completed: {h.cycles_done} of a reuse limit of {h.reuse_limit}. NWP "
                f"recovery limits: minimum {h.recovery_min * 100:.4g} %, alert below "
                f"{h.recovery_alert * 100:.4g} %.")  # fmt: skip
+    if h.limits:
+        summary += f" Limits: {h.limits}."
     out: list[Any] = [para(summary, s.body)]
     out.append(sub("Recent cycles"))
     if h.recent_cycles:

@@ -11,7 +11,7 @@ from typing import Any
 from sqlmodel import Session, select
 
 from ledger.errors import InputError, RefusedError
-from ledger.logbook import latest
+from ledger.logbook import latest, typelimits
 from ledger.logbook.auth import DECIDERS, RECORDERS, require_role
 from ledger.logbook.fitness import facts
 from ledger.logbook.modules import get_module
@@ -147,8 +147,9 @@ def plan_run(
             expected="no product override for a template of the run's product",
         )
     module = get_module(session, serial)
-    mtype = session.get(ModuleType, module.type_id)
-    assert mtype is not None
+    registered = session.get(ModuleType, module.type_id)
+    assert registered is not None
+    mtype, _ = typelimits.in_force(session, registered, journal.at)
     judged = verdict(facts(session, module, product, now=journal.at))
     failing = [r for r in judged.reasons if r.outcome == "fail"]
     if failing and not (override_reason and override_reason.strip()):

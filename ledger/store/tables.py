@@ -182,7 +182,9 @@ class WaterFluxTest(Activity, table=True):
     # As typed, field -> text with its unit (e.g. {"concentration": "0.5 M"}), so a value is
     # shown in the unit it was entered in; the SI columns hold the values computed with.
     entered: dict[str, str] | None = Field(default=None, sa_type=JSON)
-    hash_defaults: ClassVar[dict[str, Any]] = {"entered": None}
+    # The module-type limits version the test was judged under (None: as registered).
+    limits_version_id: int | None = Field(default=None, foreign_key="template_version.id")
+    hash_defaults: ClassVar[dict[str, Any]] = {"entered": None, "limits_version_id": None}
 
 
 class IntegrityTest(Activity, table=True):
@@ -214,7 +216,13 @@ class IntegrityTest(Activity, table=True):
     # As typed, field -> text with its unit (e.g. {"concentration": "0.5 M"}), so a value is
     # shown in the unit it was entered in; the SI columns hold the values computed with.
     entered: dict[str, str] | None = Field(default=None, sa_type=JSON)
-    hash_defaults: ClassVar[dict[str, Any]] = {"entered": None, "intrusion_flow_m3_s": None}
+    # The module-type limits version the test was judged under (None: as registered).
+    limits_version_id: int | None = Field(default=None, foreign_key="template_version.id")
+    hash_defaults: ClassVar[dict[str, Any]] = {
+        "entered": None,
+        "intrusion_flow_m3_s": None,
+        "limits_version_id": None,
+    }
 
 
 class CleaningProcedure(Recorded, table=True):

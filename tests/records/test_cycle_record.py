@@ -73,6 +73,8 @@ def test_the_record_lists_each_step_of_the_cycle(issued: World) -> None:
     assert caustic.solution == "SOL-NAOH-01"
     assert "45 degC" in caustic.values and "7 psi" in caustic.values  # as typed
     assert cycle.steps[4].values == "endpoint conductivity 1.1 uS/cm"
+    # the record names the module type's limits it was judged against
+    assert ctx.history.limits == "HF-750 limits as registered"
 
 
 def test_the_pdf_prints_the_steps_and_one_caution_per_class_as_the_terminal_does(
@@ -102,3 +104,4 @@ def test_a_revision_assembled_at_version_3_has_no_steps(issued: World) -> None:
                        audit_seq=rev.audit_seq, version=3)  # fmt: skip
     assert old.version == 3
     assert all(r.steps is None and r.procedure == "" for r in old.history.cleanings)
+    assert old.history.limits == ""
