@@ -44,6 +44,8 @@ COMMANDS: dict[str, tuple[str, str, str]] = {
     "skid": ("skids", "app", "group"),
     "template": ("templates", "app", "group"),
     "site": ("site", "app", "group"),
+    "fleet": ("fleet", "fleet", "command"),
+    "history": ("history", "history", "command"),
     "demo": ("demo", "demo", "command"),
 }
 
