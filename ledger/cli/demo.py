@@ -34,6 +34,7 @@ COPIES = ("BR-000001-rev1-in-review-copy1.pdf", "BR-000001-rev1-approved-copy2.p
 FIXED_OUTPUTS = ("bench_calculations.json", "bench_session.txt", "fluxledger.db",
                  "logbook_session.txt", "qb117-26-014_skid_export.csv", "demo-seal",
                  *COPIES)  # fmt: skip
+TRANSCRIPT_COLUMNS = 132
 # Files SQLite and our atomic writes keep beside a file for a while.
 COMPANIONS = ("-wal", "-shm", "-journal", ".tmp")
 
@@ -48,12 +49,17 @@ def _run(args: list[str], stdin: str = "") -> tuple[int, str]:
     out, err = io.StringIO(), io.StringIO()
     code = 0
     saved_stdin, sys.stdin = sys.stdin, io.StringIO(stdin)
+    # The transcript is a file: wide enough that the fleet's table keeps one line per module.
+    saved_columns = os.environ.get("COLUMNS")
+    given = int(saved_columns) if saved_columns and saved_columns.isdigit() else 0
+    os.environ["COLUMNS"] = str(max(TRANSCRIPT_COLUMNS, given))
     with (
         contextlib.redirect_stdout(out),
         contextlib.redirect_stderr(err),
         contextlib.ExitStack() as restore,
     ):
         restore.callback(setattr, sys, "stdin", saved_stdin)
+        restore.callback(_restore_columns, saved_columns)
         try:
             result = get_command(app).main(args=args, prog_name="fluxledger", standalone_mode=False)
             code = result if isinstance(result, int) else 0
@@ -61,6 +67,13 @@ def _run(args: list[str], stdin: str = "") -> tuple[int, str]:
             code = exc.exit_code
     # A refusal's message goes to stderr; the transcript shows it.
     return code, out.getvalue() + (err.getvalue() if code else "")
+
+
+def _restore_columns(saved: str | None) -> None:
+    if saved is None:
+        os.environ.pop("COLUMNS", None)
+    else:
+        os.environ["COLUMNS"] = saved
 
 
 def _shown(path: Path) -> str:
@@ -181,15 +194,42 @@ def demo(
     typer.echo("Wrote:")
     for path in written:
         typer.echo(f"  {path}")
+    typer.echo("\n".join(_tour(out)))
+
+
+def _tour(out: Path) -> list[str]:
+    """The end of the demo: each module's verdict, where the records are, what to try next."""
+    db = shlex.quote(_shown(out / "fluxledger.db"))
+    fleet = json.loads((out / "fleet.json").read_text(encoding="utf-8"))["fleet"]
+    lines = ["", "The fleet now (most urgent first; `fleet` shows why):"]
+    for m in fleet:
+        holds = f"; on hold: {m['holds'][0]}" if m["holds"] else ""
+        lines.append(f"  {m['serial']:<9} {m['type']:<11} {m['status']:<18} {m['verdict']}{holds}")
+    lines += [
+        "",
+        f"Batch records (PDF): {_shown(out)}/BR-000001-rev1-*.pdf; the transcript of every "
+        f"command: {_shown(out / 'logbook_session.txt')}",
+        "",
+        "Try next:",
+        f"  fluxledger fleet --db {db}",
+        f"  fluxledger history QMB-0121 --db {db}",
+        f"  fluxledger fitness QMB-0127 --product QB-117 --db {db}",
+        f"  fluxledger record review 2 --db {db}",
+        f"  fluxledger audit verify --db {db}",
+    ]
+    return lines
 
 
 def _saved_names(samples: Path) -> set[str]:
     """The report files the scenario's steps save into OUT."""
     names: set[str] = set()
-    for name in ("logbook_history.toml", "run_history.toml"):
-        steps = tomllib.loads((samples / name).read_text(encoding="utf-8")).get("steps", [])
+    for name in ("logbook_history.toml", "run_history.toml", "fleet_history.toml"):
+        scenario = tomllib.loads((samples / name).read_text(encoding="utf-8"))
+        steps = scenario.get("steps", []) + scenario.get("final_steps", [])
         names |= {step["save"] for step in steps if "save" in step}
-    return names
+    from ledger.cli.demo_fleet import fleet_names
+
+    return names | fleet_names(tomllib.loads((samples / "fleet_history.toml").read_text("utf-8")))
 
 
 def _fresh_database(out: Path) -> Path:
@@ -212,8 +252,12 @@ def _expand(
     def date_in(m: re.Match[str]) -> str:
         return (now + timedelta(days=float(m.group(1)))).date().isoformat()
 
+    def date_ago(m: re.Match[str]) -> str:
+        return (now - timedelta(days=float(m.group(1)))).date().isoformat()
+
     text = re.sub(r"\{days_ago:([0-9.]+)\}", days_ago, command)
     text = re.sub(r"\{date_in:([0-9.]+)\}", date_in, text)
+    text = re.sub(r"\{date_ago:([0-9.]+)\}", date_ago, text)
     for key, value in {"samples": _shown(samples), **(more or {})}.items():
         text = text.replace("{" + key + "}", shlex.quote(value))
     return shlex.split(text)
@@ -250,6 +294,8 @@ def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
         for i, (args, stdin) in enumerate(setup)
     ]
     steps += _scenario_steps(scenario["steps"], users, samples, now)
+    fleet = tomllib.loads((samples / "fleet_history.toml").read_text(encoding="utf-8"))
+    steps += _fleet_modules(fleet, users, samples, now)
     # Part two: a run on QMB-0142, with the skid export written to match its times.
     run_start, run_end = now - timedelta(days=0.1), now - timedelta(days=0.02)
     skid_log = out / "qb117-26-014_skid_export.csv"
@@ -270,8 +316,18 @@ def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
         more[f"step{n}_at"] = done.isoformat(timespec="seconds")
         more[f"step{n}_checked"] = (done + timedelta(minutes=3)).isoformat(timespec="seconds")
     steps += _scenario_steps(runs["steps"], users, samples, now, more)
-    transcript = ["", f"Demo scenario: {scenario['site']['title']}"]
     written: list[Path] = [skid_log]
+    for run in fleet["runs"]:
+        from ledger.cli.demo_fleet import run_log, run_steps
+
+        log = run_log(run, out, now)
+        written.append(log.path)
+        raw = [{**s, "title": s["title"].format(**log.values)} if "title" in s else s
+               for s in run_steps(fleet["run_steps"], run["signed"])]  # fmt: skip
+        steps += _scenario_steps(raw, users, samples, now,
+                                 {**log.values, "skid_log": _shown(log.path)})  # fmt: skip
+    steps += _scenario_steps(fleet["final_steps"], users, samples, now, {"out": _shown(out)})
+    transcript = ["", f"Demo scenario: {scenario['site']['title']}"]
     for title, args, stdin, save, refused in steps:
         code, text = _run([*args, *db], stdin)
         if code not in (0, 1, refused):
@@ -288,6 +344,19 @@ def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
     written += [p for p in (out / name for name in COPIES) if p.exists()]
     written.append(_write_atomically(out / "logbook_session.txt", "\n".join(transcript) + "\n"))
     return written
+
+
+def _fleet_modules(
+    fleet: dict[str, Any], users: dict[str, dict[str, str]], samples: Path, now: datetime
+) -> list[tuple[str | None, list[str], str, str | None, int]]:
+    """The fleet's second module type and every module's history, as typed commands."""
+    from ledger.cli.demo_fleet import module_steps
+
+    raw = list(fleet["types"])
+    lots: dict[str, int] = {}
+    for m in fleet["modules"]:
+        raw += module_steps(m, lots)
+    return _scenario_steps(raw, users, samples, now)
 
 
 def _template_steps(

@@ -47,13 +47,6 @@ def test_demo_writes_every_step(demo: tuple[Path, dict]) -> None:  # type: ignor
     assert "invented" in text and "validated procedures" in text
 
 
-@pytest.mark.slow
-def test_demo_human_output_lists_files(cli: Run, tmp_path: Path) -> None:
-    out = cli("demo", "--out", str(tmp_path))
-    assert out.code == 0
-    assert "Wrote:" in out.stdout and "bench_session.txt" in out.stdout
-
-
 def test_demo_refuses_a_folder_without_the_scenario(cli: Run, tmp_path: Path) -> None:
     out = cli("demo", "--out", str(tmp_path / "o"), "--samples", str(tmp_path))
     assert out.code == 2 and "--samples" in out.stderr
@@ -79,13 +72,16 @@ def test_demo_builds_the_logbook_and_its_verdicts(
     }
     session = (tmp_path / "logbook_session.txt").read_text()
     assert "Verdict: intact" in session and "(late entry)" in session
-    # The demo's database is a real logbook: it verifies, and lists the three modules.
+    # The demo's database is a real logbook: it verifies, and lists the first three modules
+    # as their story left them (the fleet's other nine: test_demo_builds_a_fleet_with_each_story).
     listed = cli("module", "list", "--db", str(tmp_path / "fluxledger.db"), "--json").json()
-    assert [(m["serial"], m["status"]) for m in listed["modules"]] == [
-        ("QMB-0142", "awaiting_cleaning"),  # lot QB117-26-014 has just run on it
-        ("QMB-0143", "on_hold"),
-        ("QMB-0151", "commissioning"),
-    ]
+    status = {m["serial"]: m["status"] for m in listed["modules"]}
+    assert len(status) == 12
+    assert (status["QMB-0142"], status["QMB-0143"], status["QMB-0151"]) == (
+        "awaiting_cleaning",  # lot QB117-26-014 has just run on it
+        "on_hold",
+        "commissioning",
+    )
     assert cli("audit", "verify", "--db", str(tmp_path / "fluxledger.db")).code == 0
 
 
@@ -96,11 +92,45 @@ def test_demo_runs_twice_into_the_same_folder(
     tmp_path: Path,
 ) -> None:
     """The first run is the shared one (its exit code is checked in the fixture); the second
-    goes into a copy of the folder it wrote."""
+    goes into a copy of the folder it wrote, for people: the files, the tour at its end."""
     gc.collect()  # the first run's engines, so its database files are whole on disk
     shutil.copytree(demo[0], tmp_path / "out")
-    again = cli("demo", "--out", str(tmp_path / "out"), "--json")
+    again = cli("demo", "--out", str(tmp_path / "out"))
     assert again.code == 0, again.stderr
+    assert "Wrote:" in again.stdout and "bench_session.txt" in again.stdout
+    tour = again.stdout[again.stdout.index("The fleet now") :]
+    assert tour.count(" FIT") + tour.count("NOT FIT") >= 12
+    assert "Try next:" in tour and "fluxledger history QMB-0121" in tour
+
+
+def test_demo_builds_a_fleet_with_each_story(demo: tuple[Path, dict]) -> None:  # type: ignore[type-arg]
+    """Issue 16's fleet: a dozen modules of two types, one healthy, one wearing toward its
+    recovery limit, one on hold after a failed pressure hold, one at its reuse limit; the two
+    fleet runs are approved and in review, each with a 1 Hz log of over three hours."""
+    tmp_path, _ = demo
+    fleet = {m["serial"]: m for m in json.loads((tmp_path / "fleet.json").read_text())["fleet"]}
+    assert len(fleet) == 12 and {m["type"] for m in fleet.values()} == {"QM-HF750-S", "QM-HF500-M"}
+    healthy, wearing = fleet["QMB-0118"], fleet["QMB-0121"]
+    assert healthy["verdict"] == "FIT" and healthy["storage_expires"] is not None
+    assert wearing["verdict"] == "FIT" and wearing["trend"] == "falling"
+    assert wearing["last_recovery"]["value"] < 90  # under the alert limit (90 %), over 80 %
+    assert 0 < wearing["cycles_left"] < healthy["cycles_left"]
+    held = fleet["QMB-0127"]
+    assert (held["status"], held["verdict"]) == ("on_hold", "NOT FIT")
+    assert "integrity" in held["holds"][0]
+    spent = fleet["QMC-0204"]
+    assert (spent["cycles"], spent["reuse_limit"], spent["verdict"]) == (8, 8, "NOT FIT")
+    order = list(fleet)
+    assert order.index("QMB-0127") < order.index("QMC-0204") < order.index("QMB-0121")
+    history = json.loads((tmp_path / "history_qmb0121.json").read_text())
+    assert history["life_projection"]["status"] == "projected"
+    assert history["module"]["cycles_used"] == 9
+    for lot in ("qb117-26-021", "qb117-26-022"):
+        lines = (tmp_path / f"{lot}_skid_export.csv").read_text().splitlines()
+        assert len(lines) > 3 * 3600  # one row a second for over three hours
+    session = (tmp_path / "logbook_session.txt").read_text()
+    assert "record sign 2 --meaning approved" in session
+    assert "record sign 3 --meaning reviewed" not in session  # run 3 waits for review
 
 
 def test_demo_plans_and_imports_its_run(demo: tuple[Path, dict]) -> None:  # type: ignore[type-arg]

@@ -26,7 +26,7 @@ from tests.reliability import procs
 from tests.reliability.conftest import WRITER_MODULES
 from tests.world import World
 
-WRITES = 250
+WRITES = 150
 SIGNING = {0: 1, 1: 2}  # writer index -> the run whose four signatures it adds among its writes
 TABLES = {"water": WaterFluxTest, "integrity": IntegrityTest, "cleaning": Cleaning}
 
