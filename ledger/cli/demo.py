@@ -223,13 +223,13 @@ def _tour(out: Path) -> list[str]:
 def _saved_names(samples: Path) -> set[str]:
     """The report files the scenario's steps save into OUT."""
     names: set[str] = set()
+    from ledger.cli.demo_fleet import fleet_names
+
     for name in ("logbook_history.toml", "run_history.toml", "fleet_history.toml"):
         scenario = tomllib.loads((samples / name).read_text(encoding="utf-8"))
         steps = scenario.get("steps", []) + scenario.get("final_steps", [])
-        names |= {step["save"] for step in steps if "save" in step}
-    from ledger.cli.demo_fleet import fleet_names
-
-    return names | fleet_names(tomllib.loads((samples / "fleet_history.toml").read_text("utf-8")))
+        names |= {step["save"] for step in steps if "save" in step} | fleet_names(scenario)
+    return names
 
 
 def _fresh_database(out: Path) -> Path:
@@ -321,7 +321,7 @@ def _logbook(out: Path, samples: Path, as_json: bool) -> list[Path]:
         from ledger.cli.demo_fleet import run_log, run_steps
 
         log = run_log(run, out, now)
-        written.append(log.path)
+        written.append(_write_atomically(log.path, log.text))
         raw = [{**s, "title": s["title"].format(**log.values)} if "title" in s else s
                for s in run_steps(fleet["run_steps"], run["signed"])]  # fmt: skip
         steps += _scenario_steps(raw, users, samples, now,

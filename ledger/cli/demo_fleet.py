@@ -30,9 +30,11 @@ SIGNED_ORDER = ("performed", "verified", "reviewed", "approved")
 
 @dataclass(frozen=True)
 class RunLog:
-    """A fleet run's skid export and the placeholders its commands use."""
+    """A fleet run's skid export (where it goes, its text) and the placeholders its commands
+    use."""
 
     path: Path
+    text: str
     values: dict[str, str]
 
 
@@ -94,15 +96,12 @@ def module_steps(m: dict[str, Any], lots: dict[str, int]) -> list[dict[str, str]
 
 
 def run_log(run: dict[str, Any], out: Path, now: datetime) -> RunLog:
-    """Write the run's 1 Hz skid export into OUT and return the times its commands use: the
+    """The run's 1 Hz skid export (to be written into OUT) and the times its commands use: the
     plan an hour before the start, each step signed at the end of its phase, verified three
     minutes later."""
     start = now - timedelta(days=float(run["start"]))
     log = simulate(start, step_s=1.0, seed=int(run["seed"]), pinch_s=None, shape=RUN_SHAPE)
     path = out / f"{run['lot'].lower()}_skid_export.csv"
-    tmp = path.with_name(path.name + ".tmp")
-    tmp.write_text("\n".join(log.lines) + "\n", encoding="utf-8")
-    tmp.replace(path)
     ends = log.phase_ends
     end = start + timedelta(seconds=max(ends.values()) + 60)
     values = {"run": str(run["run"]), "module": run["module"], "lot": run["lot"],
@@ -114,7 +113,7 @@ def run_log(run: dict[str, Any], out: Path, now: datetime) -> RunLog:
         done = start + timedelta(seconds=ends[phase])
         values[f"step{n}_at"] = done.isoformat(timespec="seconds")
         values[f"step{n}_checked"] = (done + timedelta(minutes=3)).isoformat(timespec="seconds")
-    return RunLog(path, values)
+    return RunLog(path, "\n".join(log.lines) + "\n", values)
 
 
 def run_steps(steps: list[dict[str, str]], signed: str) -> list[dict[str, str]]:

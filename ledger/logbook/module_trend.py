@@ -17,11 +17,11 @@ from sqlmodel import Session, select
 
 from ledger.errors import DomainError, InputError
 from ledger.logbook import latest
-from ledger.logbook.modules import get_module, list_types, row_id
+from ledger.logbook.modules import get_module, row_id
 from ledger.logbook.typelimits import type_in_force
 from ledger.logbook.wear import Point, decay_series, recovery_series
 from ledger.science import trending
-from ledger.store.tables import Hold, ModuleUse
+from ledger.store.tables import Hold, ModuleType, ModuleUse
 
 MIN_POINTS = 3  # fewest points for control limits and for a projection
 NOT_ENOUGH = f"not enough points (at least {MIN_POINTS} are needed)"
@@ -191,7 +191,7 @@ def module_trend(session: Session, serial: str, baseline_cycles: int | None = No
         )
     module = get_module(session, serial)
     module_id = row_id(module.id)
-    code = next(t.code for t in list_types(session) if t.id == module.type_id)
+    code = session.get_one(ModuleType, module.type_id).code
     mtype, _ = type_in_force(session, code)
     done = latest.cycles(session, module_id)
     rec = recovery_series(session, module_id)

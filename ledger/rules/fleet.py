@@ -11,6 +11,8 @@ import math
 from collections.abc import Sequence
 from typing import Literal
 
+from ledger.science.fit import fit_line
+
 TrendWord = Literal["falling", "steady", "rising"]
 
 TREND_POINTS = 5
@@ -29,17 +31,10 @@ def trend_slope(cycles: Sequence[float], recovery: Sequence[float]) -> float | N
     """
     if len(cycles) != len(recovery):
         raise ValueError("cycles and recovery differ in length")
-    xs = [float(c) for c in cycles[-TREND_POINTS:]]
-    ys = [float(r) for r in recovery[-TREND_POINTS:]]
-    if len(xs) < 2:
+    xs, ys = cycles[-TREND_POINTS:], recovery[-TREND_POINTS:]
+    if len(xs) < 2 or len(set(xs)) < 2:
         return None
-    x_mean = math.fsum(xs) / len(xs)
-    y_mean = math.fsum(ys) / len(ys)
-    sxx = math.fsum((x - x_mean) ** 2 for x in xs)
-    if sxx == 0.0:
-        return None
-    sxy = math.fsum((x - x_mean) * (y - y_mean) for x, y in zip(xs, ys, strict=True))
-    return sxy / sxx
+    return fit_line(xs, ys, x_name="cycle", y_name="recovery").slope
 
 
 def trend_word(slope: float) -> TrendWord:

@@ -1,8 +1,8 @@
 """The fleet overview's rules: the recovery trend slope and word, and the urgency order.
 
 Reference for the slope: numpy.polyfit (degree 1, ordinary least squares), a PyPI library
-independent of the plain sums in ledger.rules.fleet. The ±0.5 %/cycle steady band is this
-tool's own choice (no standard sets it).
+independent of the project's own line fit (ledger.science.fit) that ledger.rules.fleet uses.
+The ±0.5 %/cycle steady band is this tool's own choice (no standard sets it).
 """
 
 from __future__ import annotations
