@@ -141,7 +141,7 @@ def main(argv: list[str] | None = None) -> int:
                         help="rows of the skid-log memory file (1,000,000; 0 skips)")  # fmt: skip
     parser.add_argument("--heldout-seeds", type=int, default=None,
                         help="noise seeds per held-out case (2)")  # fmt: skip
-    for part in ("commands", "skidlog", "records", "heldout", "fitness"):
+    for part in ("commands", "skidlog", "records", "heldout", "fitness", "import"):
         parser.add_argument(f"--skip-{part}", action="store_true", help=f"leave out {part}")
     parser.add_argument("--out", type=Path, default=BENCH,
                         help="folder for latest.md and latest.json (default: bench/)")  # fmt: skip
@@ -193,6 +193,11 @@ def main(argv: list[str] | None = None) -> int:
             return fitness.run(modules, tests, args.verdicts)
 
         _section(rows, "Fitness verdict", fitness_rows)
+    if not args.skip_import:
+        import import_logbook  # bench/import_logbook.py
+
+        n_import = 20_000 if quick else 100_000
+        _section(rows, "import-logbook", lambda: import_logbook.run(n_import, 3))
     rows += _not_benchmarked()
     info["load_average_end"] = [round(x, 2) for x in os.getloadavg()]
     info["seconds"] = round(time.perf_counter() - started)

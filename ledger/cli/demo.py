@@ -31,9 +31,12 @@ MARKER = ".fluxledger-demo"
 # The controlled copies the run's steps print and seal (sample_records/run_history.toml).
 COPIES = ("BR-000001-rev1-in-review-copy1.pdf", "BR-000001-rev1-approved-copy2.pdf",
           "BR-000001-rev1-approved-copy3-sealed.pdf")  # fmt: skip
+# The wear reports the fleet scenario's last steps write (sample_records/fleet_history.toml).
+WEAR_REPORTS = tuple(f"{stem}.{ext}" for stem in ("fleet", "history_qmb0121", "history_qmb0127")
+                     for ext in ("pdf", "png"))  # fmt: skip
 FIXED_OUTPUTS = ("bench_calculations.json", "bench_session.txt", "fluxledger.db",
                  "logbook_session.txt", "qb117-26-014_skid_export.csv", "demo-seal",
-                 *COPIES)  # fmt: skip
+                 *COPIES, *WEAR_REPORTS)  # fmt: skip
 TRANSCRIPT_COLUMNS = 132
 # Files SQLite and our atomic writes keep beside a file for a while.
 COMPANIONS = ("-wal", "-shm", "-journal", ".tmp")
@@ -209,6 +212,8 @@ def _tour(out: Path) -> list[str]:
         "",
         f"Batch records (PDF): {_shown(out)}/BR-000001-rev1-*.pdf; the transcript of every "
         f"command: {_shown(out / 'logbook_session.txt')}",
+        f"Wear reports (PDF and PNG): {_shown(out)}/fleet.pdf, fleet.png, "
+        "history_qmb0121.pdf/.png (wearing), history_qmb0127.pdf/.png (on hold)",
         "",
         "Try next:",
         f"  fluxledger fleet --db {db}",

@@ -5,6 +5,13 @@ from __future__ import annotations
 import typer
 
 from ledger.cli.common import JSON_OPTION, guarded
+from ledger.cli.history import (
+    OVERWRITE_OPTION,
+    PDF_OPTION,
+    PNG_OPTION,
+    tell_written,
+    write_pictures,
+)
 from ledger.cli.session import DB_OPTION, read
 
 
@@ -14,15 +21,28 @@ def fleet(
     product: str | None = typer.Option(
         None, "--product", help="Only modules dedicated to or used for this product."
     ),
+    pdf: str | None = PDF_OPTION,
+    png: str | None = PNG_OPTION,
+    overwrite: bool = OVERWRITE_OPTION,
     db: str | None = DB_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
     """Fleet overview: status, verdict, cycles, recovery trend, projected cycles left, storage
-    expiry and open holds of every module, on hold and NOT FIT first."""
+    expiry and open holds of every module, on hold and NOT FIT first; with --pdf and --png the
+    same as one PDF page and as a picture."""
+    from ledger.cli.describe import SITE_NOTE
     from ledger.cli.output import Q, Report, Table
     from ledger.logbook.fleet import fleet as gather
+    from ledger.records import wear_report
 
     rows = read(db, lambda s: gather(s, type_code, product))
+    wrote = write_pictures(
+        pdf,
+        png,
+        overwrite,
+        lambda p: wear_report.fleet_pdf(rows, p, note=SITE_NOTE, overwrite=overwrite),
+        lambda p: wear_report.fleet_png(rows, p, overwrite=overwrite),
+    )
     report = Report("fleet")
     table = Table(
         "Fleet",
@@ -67,3 +87,4 @@ def fleet(
     if not rows:
         report.notes.append("no modules match")
     report.print(as_json)
+    tell_written(wrote, as_json)

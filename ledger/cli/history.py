@@ -11,6 +11,35 @@ from ledger.cli.common import JSON_OPTION, guarded
 from ledger.cli.session import DB_OPTION, read
 
 RATE_UNIT = "mbar/min"
+PDF_OPTION = typer.Option(None, "--pdf", help="Also write the report as a PDF to this file.")
+PNG_OPTION = typer.Option(None, "--png", help="Also write the charts as a PNG to this file.")
+OVERWRITE_OPTION = typer.Option(
+    False, "--overwrite", help="Replace the --pdf / --png file if it exists (otherwise refused)."
+)
+
+
+def write_pictures(
+    pdf: str | None, png: str | None, overwrite: bool, write_pdf: Any, write_png: Any
+) -> list[str]:
+    """Check both targets before writing either (so a refusal leaves nothing written), then
+    write them; the paths written, for the user."""
+    from ledger.records.wear_report import check_target
+
+    for path, field in ((pdf, "pdf"), (png, "png")):
+        if path is not None:
+            check_target(path, field, overwrite)
+    wrote = []
+    if pdf is not None:
+        wrote.append(str(write_pdf(pdf)))
+    if png is not None:
+        wrote.append(str(write_png(png)))
+    return wrote
+
+
+def tell_written(paths: list[str], as_json: bool) -> None:
+    """Name the files written: on stderr under --json, so stdout stays one JSON document."""
+    for path in paths:
+        typer.echo(f"wrote {path}", err=as_json)
 
 
 @guarded
@@ -21,13 +50,28 @@ def history(
         "--baseline-cycles",
         help="Fix the I-MR limits from the first N points of each series (default: all).",
     ),
+    pdf: str | None = PDF_OPTION,
+    png: str | None = PNG_OPTION,
+    overwrite: bool = OVERWRITE_OPTION,
     db: str | None = DB_OPTION,
     as_json: bool = JSON_OPTION,
 ) -> None:
-    """Recovery and decay rate per cycle against the limits, I-MR signals and reuse life."""
+    """Recovery and decay rate per cycle against the limits, I-MR signals and reuse life;
+    with --pdf and --png the same as a PDF report and as a picture of the charts."""
+    from ledger.cli.describe import SITE_NOTE
     from ledger.logbook.module_trend import module_trend
+    from ledger.records import wear_report
 
-    trend_report(read(db, lambda s: module_trend(s, serial, baseline_cycles))).print(as_json)
+    trend = read(db, lambda s: module_trend(s, serial, baseline_cycles))
+    wrote = write_pictures(
+        pdf,
+        png,
+        overwrite,
+        lambda p: wear_report.history_pdf(trend, p, note=SITE_NOTE, overwrite=overwrite),
+        lambda p: wear_report.history_png(trend, p, overwrite=overwrite),
+    )
+    trend_report(trend).print(as_json)
+    tell_written(wrote, as_json)
 
 
 def _chart(report: Any, title: str, chart: Any, kind: str, unit: str | None) -> None:

@@ -36,6 +36,8 @@ COMMANDS: dict[str, tuple[str, str, str]] = {
     "fitness": ("fitness", "fitness", "command"),
     "audit": ("audit", "app", "group"),
     "backup": ("backup", "backup", "command"),
+    "export": ("exports", "export", "command"),
+    "load-export": ("exports", "load_export", "command"),
     "user": ("users", "app", "group"),
     "calc": ("calc", "app", "group"),
     "run": ("runs", "app", "group"),
@@ -47,6 +49,8 @@ COMMANDS: dict[str, tuple[str, str, str]] = {
     "fleet": ("fleet", "fleet", "command"),
     "history": ("history", "history", "command"),
     "demo": ("demo", "demo", "command"),
+    "serve": ("serve", "serve", "command"),
+    "import-logbook": ("import_logbook", "import_logbook", "command"),
 }
 
 

@@ -137,3 +137,61 @@ def stored_revision(engine: Engine) -> str | None:
     from ledger.store.schema import stored_revision as revision
 
     return revision(engine)
+
+
+# A front end that keeps a signed-in user between requests (the web workspace) ----------------
+
+SESSION_LABEL = b"fluxledger web session cookie v1"
+IDLE_KEY = "web.idle_minutes"
+DEFAULT_IDLE_MINUTES = 15
+
+
+def session_secret(engine: Engine) -> bytes:
+    """The key that signs web session cookies: derived from the site key, so every worker of
+    one site derives the same key and a new site key ends every session."""
+    from ledger.store.sitekey import require
+
+    url = engine.url.render_as_string(hide_password=False)
+    return bytes.fromhex(require(url).mac(SESSION_LABEL))
+
+
+def idle_minutes(engine: Engine) -> int:
+    """The site's idle time (minutes) after which a web session signs its user out."""
+    from ledger.store.engine import transaction
+    from ledger.store.tables import Setting
+
+    with transaction(engine) as session:
+        row = session.get(Setting, IDLE_KEY)
+        return int(row.value) if row is not None else DEFAULT_IDLE_MINUTES
+
+
+def as_signed_in(
+    engine: Engine, login: str, work: Callable[[Session, UserAccount], T], *, writes: bool
+) -> T:
+    """Run ``work`` as one transaction for ``login``, who signed in with their password
+    earlier in this session: the account is read again, so a user disabled or locked since
+    is refused at once (exit 3); a write also needs the user's own password (not a temporary
+    one), as ``write`` does."""
+    from ledger.errors import RefusedError
+    from ledger.logbook.auth import find_user, require_own_password
+    from ledger.store.engine import transaction
+
+    with transaction(engine) as session:
+        user = find_user(session, login)
+        if user is None or not user.active or user.locked:
+            raise RefusedError(
+                f"user {login!r} may no longer sign in (disabled or locked)",
+                field="user",
+                value=login,
+            )
+        if writes:
+            require_own_password(user)
+        return work(session, user)
+
+
+def read_ledger(engine: Engine, work: Callable[[Session], T]) -> T:
+    """Run ``work`` on a session of an open database (read-only by convention)."""
+    from ledger.store.engine import transaction
+
+    with transaction(engine) as session:
+        return work(session)

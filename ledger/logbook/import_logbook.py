@@ -1,0 +1,601 @@
+"""Bulk import of an old logbook's history: water-flux tests or pressure-decay integrity tests,
+one per sheet row, validated, computed and written with their audit events in one transaction.
+
+Input is SI (ledger.entries.logbook_mapping has parsed the sheet): pressures in Pa (gauge),
+flows m³/s, temperatures K, times s, volumes m³, activity times aware UTC. Each row goes
+through the checks and the science of its typed command (``test water``, ``test
+integrity --start --end --hold-time``): the WaterPoint flow and TMP checks,
+``science.permeability`` for TMP, flux, NWP and resistance, ``rules.water_test`` for the
+verdict, ``science.integrity`` for the decay verdict, the module type's limits in force at
+the row's time. Records are written through SQLAlchemy Core in chunks; each row's record hash
+and audit event are made exactly as ``store.audit.Journal.create`` makes them (canonical
+JSON of the record's columns, SHA-256; the event's HMAC under the site key, chained), so
+``audit verify`` checks them like any other record.
+
+Back-entered history follows ``logbook.context.begin`` with two rules relaxed (DEVELOPERS.md,
+"Importing an old logbook"): the status a module has now does not have to allow each row's
+action, and an imported row changes no status (nor puts a module on hold). The sheet holds
+one kind of record, without the uses and cleanings between them, so the status machine
+cannot be replayed from it; a failed historical test keeps its verdict and counts in the
+module's history and fitness. Kept: the role, the module must exist and not be retired, a
+row must not be in the future nor before the module's latest recorded activity, and every
+row is a late entry.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from collections.abc import Callable, Iterable
+from dataclasses import dataclass, field
+from datetime import datetime
+from typing import Any
+
+from sqlalchemy import func, insert, text, update
+from sqlmodel import Session, select
+
+from ledger import __version__
+from ledger.canonical import canonical
+from ledger.errors import InputError
+from ledger.logbook import typelimits
+from ledger.logbook.auth import RECORDERS, require_role
+from ledger.logbook.documents import versions_of
+from ledger.logbook.required import optional, positive
+from ledger.logbook.times import activity_time
+from ledger.logbook.waterflux import METHOD_ONE, WaterPoint
+from ledger.rules import versions as version_rules
+from ledger.rules import water_test
+from ledger.rules.names import shown
+from ledger.science import integrity as integrity_sci
+from ledger.science import permeability as perm
+from ledger.science import water
+from ledger.store.audit import chain_key, event_hash, head_mac
+from ledger.store.sitekey import SiteKey
+from ledger.store.tables import (
+    STAGES,
+    AuditEvent,
+    AuditHead,
+    Cleaning,
+    IntegrityTest,
+    Module,
+    ModuleType,
+    ModuleUse,
+    Storage,
+    TemplateVersion,
+    UserAccount,
+    WaterFluxTest,
+)
+
+KINDS = ("water_flux", "pressure_decay")
+CHUNK = 5_000  # rows per executemany
+_IN_CHUNK = 500  # values per SQL IN list
+DECAY_METHOD = "pressure decay: (start − end) / hold time"
+
+
+@dataclass(frozen=True)
+class Rejection:
+    """Why one sheet row was refused: its row number as the spreadsheet shows it (header = 1)."""
+
+    row: int
+    field: str
+    value: object
+    expected: str
+    message: str
+
+
+@dataclass
+class SheetRows:
+    """The parsed rows of one sheet (SI). ``quantities[name][i]`` is None where row i's cell
+    was empty; ``entered[i]`` holds row i's quantities as the sheet gave them ("12.5 psi")."""
+
+    kind: str
+    source: str
+    rows: list[int] = field(default_factory=list)
+    at: list[datetime] = field(default_factory=list)
+    texts: dict[str, list[str | None]] = field(default_factory=dict)
+    quantities: dict[str, list[float | None]] = field(default_factory=dict)
+    entered: list[dict[str, str]] = field(default_factory=list)
+    rejected: list[Rejection] = field(default_factory=list)  # refused while parsing
+    blank: list[int] = field(default_factory=list)  # empty rows, skipped
+
+    def text(self, name: str, i: int) -> str | None:
+        column = self.texts.get(name)
+        return column[i] if column is not None else None
+
+    def quantity(self, name: str, i: int) -> float | None:
+        column = self.quantities.get(name)
+        return column[i] if column is not None else None
+
+
+@dataclass
+class ImportResult:
+    """What an import did: rows read, written, refused (with reasons), blank rows skipped."""
+
+    kind: str
+    source: str
+    read: int
+    accepted: int
+    written: int
+    rejected: list[Rejection]
+    blank: list[int]
+    first_id: int | None = None
+    last_id: int | None = None
+    modules: int = 0
+
+    @property
+    def complete(self) -> bool:
+        return not self.rejected
+
+
+@dataclass
+class _Module:
+    module: Module
+    mtype: ModuleType
+    versions: list[TemplateVersion]
+    previous: datetime | None
+    baseline: tuple[int, float] | None = None  # (id, NWP) of its latest valid baseline
+    post_clean: float | None = None  # NWP of its latest valid post-clean test
+
+
+def _reject(row: int, err: InputError, fallback: str) -> Rejection:
+    expected = err.expected or ""
+    return Rejection(row, err.field or fallback, err.value, expected, err.message)
+
+
+def _chunks(values: list[Any], size: int) -> Iterable[list[Any]]:
+    for start in range(0, len(values), size):
+        yield values[start : start + size]
+
+
+def _modules(session: Session, serials: set[str]) -> dict[str, _Module]:
+    """The registered modules among ``serials`` (locked), with their type, limits versions,
+    latest activity, latest baseline and post-clean NWP: a few queries for all of them."""
+    found: dict[str, Module] = {}
+    for part in _chunks(sorted(serials), _IN_CHUNK):
+        stmt = select(Module).where(Module.serial.in_(part)).with_for_update()  # type: ignore[attr-defined]
+        for m in session.exec(stmt):
+            found[m.serial] = m
+    by_id = {m.id: m for m in found.values()}
+    ids = sorted(by_id)  # type: ignore[type-var]
+    types = {t.id: t for t in session.exec(select(ModuleType))}
+    versions = {t.code: versions_of(session, typelimits.LIMITS, t.code) for t in types.values()}
+    previous: dict[int, datetime] = {}
+    baseline: dict[int, tuple[int, float]] = {}
+    post_clean: dict[int, float] = {}
+    conn = session.connection()
+    for part in _chunks(ids, _IN_CHUNK):
+        columns: list[tuple[Any, Any]] = [
+            (cls, cls.activity_at)
+            for cls in (WaterFluxTest, IntegrityTest, Cleaning, Storage, ModuleUse)
+        ]
+        columns.append((ModuleUse, ModuleUse.ended_at))
+        for cls, column in columns:
+            latest: Any = (
+                select(cls.module_id, func.max(column))
+                .where(cls.module_id.in_(part), cls.voided_at.is_(None))
+                .group_by(cls.module_id)
+            )
+            for mid, when in session.exec(latest):
+                if when is not None and (mid not in previous or when > previous[mid]):
+                    previous[mid] = when
+        tests: Any = WaterFluxTest.__table__  # type: ignore[attr-defined]
+        ordered = (
+            tests.select()
+            .with_only_columns(tests.c.module_id, tests.c.stage, tests.c.id, tests.c.nwp_m_s_pa)
+            .where(
+                tests.c.module_id.in_(part),
+                tests.c.voided_at.is_(None),
+                tests.c.stage.in_(("baseline", "post_clean")),
+            )
+            .order_by(tests.c.activity_at, tests.c.id)
+        )
+        for mid, stage, tid, nwp in conn.execute(ordered):
+            if stage == "baseline":
+                baseline[mid] = (tid, nwp)  # ascending: the last one seen is the latest
+            else:
+                post_clean[mid] = nwp
+    out = {}
+    for serial, m in found.items():
+        mtype = types[m.type_id]
+        key: Any = m.id
+        out[serial] = _Module(
+            m, mtype, versions[mtype.code], previous.get(key), baseline.get(key),
+            post_clean.get(key),
+        )  # fmt: skip
+    return out
+
+
+class _Limits:
+    """The module type's limits in force at a time (typelimits.in_force), one lookup per
+    version rather than per row."""
+
+    def __init__(self, session: Session) -> None:
+        self.session = session
+        self.cache: dict[tuple[int | None, int | None], tuple[ModuleType, int | None]] = {}
+
+    def at(self, m: _Module, at: datetime) -> tuple[ModuleType, int | None]:
+        version = version_rules.in_force(m.versions, at)
+        key = (m.mtype.id, version.id if version is not None else None)
+        if key not in self.cache:
+            mtype, row = typelimits.in_force(self.session, m.mtype, at)
+            self.cache[key] = (mtype, row.id if row is not None else None)
+        return self.cache[key]
+
+
+def _stage(text_: str | None) -> str:
+    key = (text_ or "").strip().lower().replace("-", "_")
+    if key not in STAGES:
+        raise InputError(
+            f"stage {text_!r} is unknown",
+            field="stage",
+            value=text_,
+            expected="baseline, pre-use, post-use or post-clean",
+        )
+    return key
+
+
+def _module_time(m: _Module | None, serial: str, at: datetime, now: datetime) -> _Module:
+    """The checks of ``context.begin`` that history keeps (see the module's docstring)."""
+    if m is None:
+        raise InputError(
+            f"no module with serial {shown(serial)}",
+            field="serial",
+            value=shown(serial),
+            expected="the serial of a registered module (fluxledger module list)",
+        )
+    if m.module.status == "retired":
+        raise InputError(
+            f"module {serial} is retired; a retired module takes no further records",
+            field="serial",
+            value=serial,
+            expected="a module that is not retired",
+        )
+    activity_time(at, now)
+    if m.previous is not None and at < m.previous:
+        raise InputError(
+            f"activity time {at.isoformat()} is before module {serial}'s latest recorded "
+            f"activity ({m.previous.isoformat()}); enter records in the order they happened",
+            field="activity_time",
+            value=at.isoformat(),
+            expected=f"a time after {m.previous.isoformat()}",
+        )
+    return m
+
+
+@dataclass
+class _Factors:
+    """µ(T)/µ(T_ref) and µ(T) by temperature: IAPWS once per distinct value, not per row."""
+
+    factor: dict[tuple[float, float], float] = field(default_factory=dict)
+    mu: dict[float, float] = field(default_factory=dict)
+
+    def correction(self, t: float, t_ref: float) -> float:
+        key = (t, t_ref)
+        if key not in self.factor:
+            self.factor[key] = perm.correction_factor(t, t_ref)
+        return self.factor[key]
+
+    def viscosity(self, t: float) -> float:
+        if t not in self.mu:
+            self.mu[t] = water.viscosity(t)
+        return self.mu[t]
+
+
+def _water_row(
+    sheet: SheetRows, i: int, m: _Module, mtype: ModuleType, f: _Factors
+) -> dict[str, Any]:
+    """The columns of one water-flux test, as ``record_water_test`` computes them for one
+    point (its method, METHOD_ONE)."""
+    stage = _stage(sheet.text("stage", i))
+    temperature = sheet.quantity("temperature", i)
+    if temperature is None:
+        raise InputError("the water temperature is missing", field="temperature", value=None,
+                         expected="a temperature, e.g. 22 degC")  # fmt: skip
+    water.check_temperature(temperature)
+    feed, retentate = sheet.quantity("feed", i), sheet.quantity("retentate", i)
+    for name, value in (("feed", feed), ("retentate", retentate), ("flow", None)):
+        if name != "flow" and value is None:
+            raise InputError(f"the {name} pressure is missing", field=name, value=None,
+                             expected="a gauge pressure, e.g. 10 psi")  # fmt: skip
+    point = WaterPoint(
+        feed_pa=feed,  # type: ignore[arg-type]
+        retentate_pa=retentate,  # type: ignore[arg-type]
+        permeate_pa=sheet.quantity("permeate", i) or 0.0,
+        flow_m3_s=sheet.quantity("flow", i),
+        volume_m3=sheet.quantity("volume", i),
+        time_s=sheet.quantity("time", i),
+    )
+    q = point.flow(0)
+    point.check_tmp(0)
+    t_ref = mtype.reference_temperature_k
+    # The body of perm.normalized_permeability, its correction factor looked up once per
+    # temperature: the same functions in the same order, so the same floats.
+    tmp = perm.transmembrane_pressure(point.feed_pa, point.retentate_pa, point.permeate_pa)
+    flux = perm.flux(q, mtype.area_m2)
+    factor = f.correction(temperature, t_ref)
+    nwp = perm.permeability(flux, tmp) * factor
+    if not nwp > 0:
+        raise InputError("the points give a non-positive NWP (flux falls as TMP rises)",
+                         field="points", value=nwp, expected="flux rising with TMP")  # fmt: skip
+    resistance = perm.resistance_from_permeability(nwp / factor, f.viscosity(temperature))
+    recovery = verdict = None
+    baseline_id = None
+    if stage != "baseline":
+        if m.baseline is None:
+            raise InputError(
+                f"module {m.module.serial} has no valid baseline water-flux test (in the "
+                "logbook or on an earlier row of the sheet)",
+                field="stage", value=stage, expected="a baseline test before this one",
+            )  # fmt: skip
+        baseline_id = m.baseline[0]
+        recovery = perm.recovery(nwp, m.baseline[1])
+        ratio = nwp / m.post_clean if stage == "pre_use" and m.post_clean is not None else None
+        verdict = water_test.verdict(
+            stage, recovery=recovery, preuse_ratio=ratio, recovery_min=mtype.recovery_min,
+            recovery_alert=mtype.recovery_alert, preuse_band=mtype.preuse_band,
+        )  # fmt: skip
+    stored_point = {k: v for k, v in {**point.__dict__, "flow_m3_s": q}.items() if v is not None}
+    return {
+        "note": optional("note", sheet.text("note", i), "a remark"),
+        "stage": stage,
+        "water_grade": optional(
+            "water_grade", sheet.text("water_grade", i), "e.g. WFI or PW", kind="name"
+        ),
+        "temperature_k": temperature,
+        "reference_temperature_k": t_ref,
+        "points": [stored_point],
+        "tmp_pa": tmp,
+        "flux_m_s": flux,
+        "nwp_m_s_pa": nwp,
+        "intercept_m_s": None,
+        "r_squared": None,
+        "resistance_per_m": resistance,
+        "baseline_test_id": baseline_id,
+        "recovery": recovery,
+        "verdict": verdict,
+        "method": METHOD_ONE,
+    }
+
+
+def _decay_row(sheet: SheetRows, i: int, mtype: ModuleType) -> dict[str, Any]:
+    """The columns of one pressure-decay test from start, end and hold time, as
+    ``record_decay_test`` computes them."""
+    start, end = sheet.quantity("start", i), sheet.quantity("end", i)
+    hold = sheet.quantity("hold_time", i)
+    for name, value in (("start", start), ("end", end), ("hold_time", hold)):
+        if value is None:
+            raise InputError(
+                f"the {name.replace('_', ' ')} is missing", field=name, value=None,
+                expected="a pressure-decay test needs start, end and hold time",
+            )  # fmt: skip
+    assert start is not None and end is not None and hold is not None
+    positive("hold_time", hold, "a time above zero")
+    positive("start", start, "a gauge pressure above zero", label="start pressure")
+    rate = (start - end) / hold
+    given = sheet.quantity("test_pressure", i)
+    test_pressure = given if given is not None else start
+    from ledger.logbook.integrity import PRESSURE_TOLERANCE
+
+    stated = mtype.integrity_test_pressure_pa
+    if abs(test_pressure / stated - 1.0) > PRESSURE_TOLERANCE:
+        raise InputError(
+            f"test pressure {test_pressure / 1e5:.3g} bar differs from the module type's "
+            f"stated {stated / 1e5:.3g} bar by more than {PRESSURE_TOLERANCE:.0%}",
+            field="test_pressure", value=test_pressure,
+            expected=f"{stated / 1e5:.3g} bar ± {PRESSURE_TOLERANCE:.0%}, the pressure its "
+            "limit was validated at",
+        )  # fmt: skip
+    temperature = sheet.quantity("temperature", i)
+    if temperature is not None:
+        water.check_temperature(temperature)
+    volume = sheet.quantity("upstream_volume", i)
+    flow = integrity_sci.gas_flow_from_decay(max(rate, 0.0), volume) if volume is not None else None
+    judged = integrity_sci.judge_decay(max(rate, 0.0), mtype.decay_limit_pa_s)
+    return {
+        "note": optional("note", sheet.text("note", i), "a remark"),
+        "kind": "pressure_decay",
+        "test_pressure_pa": test_pressure,
+        "hold_time_s": hold,
+        "upstream_volume_m3": volume,
+        "temperature_k": temperature,
+        "readings": None,
+        "decay_rate_pa_s": rate,
+        "r_squared": None,
+        "gas_flow_m3_s": flow,
+        "intrusion_flow_m3_s": None,
+        "bubble_point_pa": None,
+        "limit_value": mtype.decay_limit_pa_s,
+        "passed": judged.passed,
+        "method": DECAY_METHOD,
+    }
+
+
+def _reserve_ids(session: Session, table: str, n: int) -> list[int]:
+    """``n`` new ids of ``table``: the next ones of SQLite's AUTOINCREMENT counter (the
+    transaction holds the write lock), or ``n`` values of the PostgreSQL sequence."""
+    conn = session.connection()
+    if conn.dialect.name == "postgresql":
+        rows = conn.execute(
+            text("SELECT nextval(pg_get_serial_sequence(:t, 'id')) FROM generate_series(1, :n)"),
+            {"t": table, "n": n},
+        )
+        return [int(r[0]) for r in rows]
+    seq = conn.execute(text("SELECT seq FROM sqlite_sequence WHERE name = :t"), {"t": table})
+    top = max(int(seq.scalar() or 0), int(conn.execute(
+        text(f"SELECT coalesce(max(id), 0) FROM {table}")).scalar() or 0))  # fmt: skip
+    return list(range(top + 1, top + 1 + n))
+
+
+_ENCODE_UTC = "microseconds"
+
+
+def _iso(t: datetime) -> str:
+    # As store.audit encodes a datetime in a hash: UTC, ISO 8601 with microseconds.
+    from datetime import UTC
+
+    return t.astimezone(UTC).isoformat(timespec=_ENCODE_UTC)
+
+
+def import_rows(
+    session: Session,
+    actor: UserAccount,
+    sheet: SheetRows,
+    *,
+    keep_valid: bool = False,
+    progress: Callable[[int], None] | None = None,
+) -> ImportResult:
+    """Validate every row of ``sheet``, then write the accepted ones with their audit events.
+
+    With ``keep_valid`` False (the default), one refused row (or one refused while parsing)
+    means nothing is written; with it True the accepted rows are written and the refused ones
+    reported. ``progress(n)`` is called as rows are validated and as they are written."""
+    if sheet.kind not in KINDS:
+        raise ValueError(f"unknown record kind {sheet.kind!r}")  # the entry checks it
+    what = "water-flux" if sheet.kind == "water_flux" else "integrity"
+    require_role(actor, RECORDERS, f"record {what} results")
+    head = session.exec(select(AuditHead).where(AuditHead.id == 1).with_for_update()).first()
+    if head is None:
+        raise RuntimeError("audit_head row is missing; the schema was not created by init")
+    now = _now()
+    serials = {s for s in (sheet.texts.get("serial") or []) if s}
+    modules = _modules(session, serials)
+    limits = _Limits(session)
+    factors = _Factors()
+    rejected = list(sheet.rejected)
+    order = sorted(range(len(sheet.rows)), key=lambda i: sheet.at[i])  # stable: sheet order
+    accepted: list[tuple[int, _Module, int | None, dict[str, Any]]] = []
+    for done, i in enumerate(order, 1):
+        row = sheet.rows[i]
+        serial = sheet.text("serial", i) or ""
+        try:
+            m = _module_time(modules.get(serial), serial, sheet.at[i], now)
+            mtype, version = limits.at(m, sheet.at[i])
+            if sheet.kind == "water_flux":
+                values = _water_row(sheet, i, m, mtype, factors)
+            else:
+                values = _decay_row(sheet, i, mtype)
+        except InputError as err:
+            rejected.append(_reject(row, err, "row"))
+            continue
+        m.previous = sheet.at[i]
+        if sheet.kind == "water_flux":
+            if values["stage"] == "baseline":
+                m.baseline = (-len(accepted) - 1, values["nwp_m_s_pa"])  # id given below
+            elif values["stage"] == "post_clean":
+                m.post_clean = values["nwp_m_s_pa"]
+        accepted.append((i, m, version, values))
+        if progress is not None and done % 1000 == 0:
+            progress(1000)
+    rejected.sort(key=lambda r: r.row)
+    read = len(sheet.rows) + len({r.row for r in sheet.rejected})
+    result = ImportResult(sheet.kind, sheet.source, read,
+                          len(accepted), 0, rejected, list(sheet.blank),
+                          modules=len({m.module.id for _, m, _, _ in accepted}))  # fmt: skip
+    if not accepted or (rejected and not keep_valid):
+        return result
+    _write(session, actor, head, sheet, accepted, now, result, progress)
+    return result
+
+
+def _now() -> datetime:
+    from ledger.store.types import utc_now
+
+    return utc_now()
+
+
+def _write(
+    session: Session,
+    actor: UserAccount,
+    head: AuditHead,
+    sheet: SheetRows,
+    accepted: list[tuple[int, _Module, int | None, dict[str, Any]]],
+    at: datetime,
+    result: ImportResult,
+    progress: Callable[[int], None] | None,
+) -> None:
+    """Insert the records and their events (Journal.create's hashes, one chain), move the
+    chain head."""
+    cls: Any = WaterFluxTest if sheet.kind == "water_flux" else IntegrityTest
+    table: Any = cls.__table__
+    entity = table.name
+    ids = _reserve_ids(session, entity, len(accepted))
+    key = chain_key(session, head)
+    hash_columns = [c.name for c in table.columns if c.name not in cls.hash_excluded]
+    defaults = cls.hash_defaults
+    from sqlalchemy import Float
+
+    floats = {c.name for c in table.columns if isinstance(c.type, Float)}
+    stamp, actor_login, version_text = _iso(at), actor.login, f"fluxledger {__version__}"
+    records: list[dict[str, Any]] = []
+    events: list[dict[str, Any]] = []
+    seq, prev = head.seq, head.hash
+    mac: Callable[[bytes], str] = (
+        key.mac if isinstance(key, SiteKey) else lambda b: hashlib.sha256(b).hexdigest()
+    )
+    for (i, m, version, values), new_id in zip(accepted, ids, strict=True):
+        if values.get("baseline_test_id") is not None and values["baseline_test_id"] < 0:
+            values["baseline_test_id"] = ids[-values["baseline_test_id"] - 1]
+        row = {
+            **values,
+            "id": new_id,
+            "module_id": m.module.id,
+            "activity_at": sheet.at[i],
+            "late": True,
+            "limits_version_id": version,
+            "method_version": version_text,
+            "entered": sheet.entered[i] or None,
+            "record_hash": "",
+            "created_at": at,
+            "created_by": actor_login,
+            "voided_at": None,
+            "voided_by": None,
+            "void_reason": None,
+        }
+        content: dict[str, Any] = {}
+        for name in hash_columns:
+            value = row[name]
+            if name in defaults and value == defaults[name]:
+                continue
+            if value is not None and name in floats:
+                value = float(value)
+            elif isinstance(value, datetime):
+                value = _iso(value)
+            content[name] = value
+        body = canonical(content)
+        # canonical({"entity": e, "content": c}) with its keys sorted, without a second dump.
+        row["record_hash"] = record = hashlib.sha256(
+            f'{{"content":{body},"entity":"{entity}"}}'.encode()
+        ).hexdigest()
+        seq += 1
+        event = {
+            "seq": seq, "at": at, "actor": actor_login, "action": "create", "entity": entity,
+            "entity_id": str(new_id), "module_id": m.module.id, "field": None,
+            "old_value": None, "new_value": body, "reason": None, "record_hash": record,
+            "prev_hash": prev,
+        }  # fmt: skip
+        payload = canonical({**event, "at": stamp}).encode()
+        event["hash"] = prev = mac(payload)
+        records.append(row)
+        events.append(event)
+    conn = session.connection()
+    event_table: Any = AuditEvent.__table__  # type: ignore[attr-defined]
+    for part, evs in zip(_chunks(records, CHUNK), _chunks(events, CHUNK), strict=True):
+        conn.execute(insert(table), part)
+        conn.execute(insert(event_table), evs)
+        if progress is not None:
+            progress(len(part))
+    head_table: Any = AuditHead.__table__  # type: ignore[attr-defined]
+    conn.execute(
+        update(head_table)
+        .where(head_table.c.id == 1)
+        .values(seq=seq, hash=prev, mac=head_mac(key, seq, prev) if key is not None else None)
+    )
+    session.expire(head)
+    result.written = len(records)
+    result.first_id, result.last_id = ids[0], ids[-1]
+
+
+def check_event(event: dict[str, Any], key: SiteKey | None) -> bool:
+    """Whether a bulk-made event's digest equals ``store.audit.event_hash`` of the same event
+    (a self-check the tests and the benchmark use)."""
+    ev = AuditEvent(**{k: v for k, v in event.items() if k != "hash"}, hash="")
+    return event_hash(ev, key) == event["hash"]

@@ -1,0 +1,1 @@
+"""The web workspace (``fluxledger serve``): pages on the same entries and services as the CLI."""

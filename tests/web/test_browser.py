@@ -1,0 +1,98 @@
+"""The workspace in a real browser: Debian's Chromium driven by Playwright (launched by
+``executable_path``; Playwright's own browser download is not used). Skipped, with the reason,
+when no Chromium is installed; CI installs it first (.ci/run)."""
+
+from __future__ import annotations
+
+import shutil
+import socket
+import threading
+import time
+from collections.abc import Iterator
+
+import pytest
+
+from tests.world import PASSWORDS, World
+
+pytestmark = pytest.mark.sqlite_only
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+
+
+@pytest.fixture
+def served(sqlite_world: World) -> Iterator[tuple[str, World]]:
+    if CHROMIUM is None:
+        pytest.skip("no Chromium found (apt-get install -y chromium): browser tests skipped")
+    import uvicorn
+
+    from ledger.web.app import create_app
+
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        port = s.getsockname()[1]
+    server = uvicorn.Server(
+        uvicorn.Config(create_app(sqlite_world.url), host="127.0.0.1", port=port,
+                       log_level="warning")
+    )  # fmt: skip
+    thread = threading.Thread(target=server.run, daemon=True)
+    thread.start()
+    deadline = time.monotonic() + 10
+    while not server.started and time.monotonic() < deadline:
+        time.sleep(0.05)
+    try:
+        yield f"http://127.0.0.1:{port}", sqlite_world
+    finally:
+        server.should_exit = True
+        thread.join(5)
+
+
+def test_an_engineer_signs_in_and_sees_the_fleet_and_a_history(served: tuple[str, World]) -> None:
+    from playwright.sync_api import sync_playwright
+
+    base, w = served
+    w.ready("QMB-0101")
+    w.ok(w.cycle("QMB-0101", recovery_flow="160 mL/min"))
+    with sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=CHROMIUM, args=["--no-sandbox"])
+        try:
+            for width, height in ((1024, 768), (390, 844)):
+                page = browser.new_page(viewport={"width": width, "height": height})
+                page.goto(base + "/fleet")
+                assert page.url.startswith(base + "/sign-in")
+                # Keyboard only: the user ID has the focus, Tab to the password, Enter sends.
+                page.wait_for_function("document.activeElement?.id === 'login'")
+                page.keyboard.type("eng.ray")
+                page.keyboard.press("Tab")
+                page.keyboard.type(PASSWORDS["eng.ray"])
+                page.keyboard.press("Enter")
+                page.wait_for_url(base + "/fleet")
+                assert page.get_by_role("link", name="QMB-0101").is_visible()
+                page.get_by_role("link", name="QMB-0101").click()
+                page.wait_for_load_state("networkidle")
+                chart = page.locator("figure img")
+                assert chart.evaluate("img => img.complete && img.naturalWidth > 800")
+                assert page.get_by_text("Recovery per cycle").is_visible()
+                # Large touch targets: the sign-out button is at least 44 px high.
+                box = page.get_by_role("button", name="Sign out").bounding_box()
+                assert box is not None and box["height"] >= 44
+                page.close()
+        finally:
+            browser.close()
+
+
+def test_wrong_password_shows_the_reason_beside_the_field(served: tuple[str, World]) -> None:
+    from playwright.sync_api import sync_playwright
+
+    base, _ = served
+    with sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=CHROMIUM, args=["--no-sandbox"])
+        try:
+            page = browser.new_page(viewport={"width": 1024, "height": 768})
+            page.goto(base + "/sign-in")
+            page.fill("#login", "op.kim")
+            page.fill("#password", "not-it")
+            page.click("button.primary")
+            alert = page.get_by_role("alert")
+            alert.wait_for(timeout=10_000)
+            assert alert.is_visible() and "password" in alert.inner_text().lower()
+        finally:
+            browser.close()
