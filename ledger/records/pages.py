@@ -8,6 +8,7 @@ the canvas keeps each finished page and draws the footers when the document is s
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
@@ -106,11 +107,12 @@ def watermark(canv: Any, doc: Any) -> None:
     canv.restoreState()
 
 
-def canvas_maker(marks: Marks) -> type[Canvas]:
-    """A canvas class that holds its pages back until ``save`` so each footer knows the
-    page count."""
+def held_pages(draw: Callable[[Canvas, int, int], None]) -> type[Canvas]:
+    """A canvas class that holds its pages back until ``save``, then calls
+    ``draw(canvas, page_number, page_count)`` on each before it is written, so every page's
+    furniture knows the page count."""
 
-    class RecordCanvas(Canvas):
+    class HeldCanvas(Canvas):
         def __init__(self, *args: Any, **kwargs: Any) -> None:
             super().__init__(*args, **kwargs)
             self._held: list[dict[str, Any]] = []
@@ -123,8 +125,13 @@ def canvas_maker(marks: Marks) -> type[Canvas]:
             total = len(self._held)
             for state in self._held:
                 self.__dict__.update(state)
-                furniture(self, marks, self._pageNumber, total)
+                draw(self, self._pageNumber, total)
                 Canvas.showPage(self)
             Canvas.save(self)
 
-    return RecordCanvas
+    return HeldCanvas
+
+
+def canvas_maker(marks: Marks) -> type[Canvas]:
+    """The batch record's canvas: its furniture on every page, once the page count is known."""
+    return held_pages(lambda canv, number, total: furniture(canv, marks, number, total))

@@ -52,6 +52,7 @@ from ledger.errors import InputError
 from ledger.logbook.fleet import Standing
 from ledger.logbook.module_trend import ModuleTrend
 from ledger.records import fonts, layout, wear_charts
+from ledger.records.pages import held_pages
 from ledger.records.pdf import write_atomic
 from ledger.rules.localtime import local_text
 from ledger.store.types import utc_now
@@ -225,39 +226,24 @@ def _document(
 
 def _canvas(head: str, foot: str, size: tuple[float, float], margin_x: float) -> type:
     """A canvas that draws the running head and "page x of y" once the page count is known."""
-    from reportlab.pdfgen.canvas import Canvas  # type: ignore[import-untyped]
+    left, right = margin_x, size[0] - margin_x
 
-    class WearCanvas(Canvas):
-        def __init__(self, *args: Any, **kwargs: Any) -> None:
-            super().__init__(*args, **kwargs)
-            self._held: list[dict[str, Any]] = []
+    def draw(canv: Any, number: int, total: int) -> None:
+        canv.saveState()
+        canv.setFillColor(layout.INK)
+        canv.setFont(fonts.BOLD, 8)
+        canv.drawString(left, size[1] - 9 * mm, layout.plain(head))
+        canv.setStrokeColor(layout.RULE)
+        canv.setLineWidth(0.5)
+        canv.line(left, size[1] - 9 * mm - 3.5, right, size[1] - 9 * mm - 3.5)
+        canv.line(left, 9 * mm + 9, right, 9 * mm + 9)
+        canv.setFont(fonts.SANS, 7)
+        canv.drawString(left, 9 * mm, layout.plain(foot))
+        canv.setFont(fonts.BOLD, 7.5)
+        canv.drawRightString(right, 9 * mm, f"page {number} of {total}")
+        canv.restoreState()
 
-        def showPage(self) -> None:
-            self._held.append(dict(self.__dict__))
-            self._startPage()
-
-        def save(self) -> None:
-            total = len(self._held)
-            left, right = margin_x, size[0] - margin_x
-            for state in self._held:
-                self.__dict__.update(state)
-                self.saveState()
-                self.setFillColor(layout.INK)
-                self.setFont(fonts.BOLD, 8)
-                self.drawString(left, size[1] - 9 * mm, layout.plain(head))
-                self.setStrokeColor(layout.RULE)
-                self.setLineWidth(0.5)
-                self.line(left, size[1] - 9 * mm - 3.5, right, size[1] - 9 * mm - 3.5)
-                self.line(left, 9 * mm + 9, right, 9 * mm + 9)
-                self.setFont(fonts.SANS, 7)
-                self.drawString(left, 9 * mm, layout.plain(foot))
-                self.setFont(fonts.BOLD, 7.5)
-                self.drawRightString(right, 9 * mm, f"page {self._pageNumber} of {total}")
-                self.restoreState()
-                Canvas.showPage(self)
-            Canvas.save(self)
-
-    return WearCanvas
+    return held_pages(draw)
 
 
 def _dated(canvas: type, printed: datetime) -> type:
