@@ -1,8 +1,9 @@
 """`import-logbook` throughput: ``import_rows`` of N water-flux rows (default 100,000, spread
 over 50 invented modules) into a fresh SQLite file, against raw sqlite3 ``executemany`` of the
 very rows it wrote (its water_flux_test and audit_event rows, read back) into another fresh
-copy of the same database, in the same run.
-Target: at least 50,000 rows/s (bulk imports through Core).
+copy of the same database (same schema, indexes and triggers), in the same run.
+Target: at least 50,000 rows/s (bulk imports through SQLAlchemy). When the baseline itself is
+below the target on this machine and schema, the output says so: the ratio is then the measure.
 
 Run alone: ``.venv/bin/python bench/import_logbook.py [--rows N] [--repeats R]``.
 """
@@ -153,6 +154,24 @@ def _executemany(db: Path, rows: dict[str, tuple[list[str], list[tuple[object, .
     return seconds
 
 
+def _spread(n: int, seconds: list[float]) -> str:
+    return f"{n / max(seconds):,.0f}–{n / min(seconds):,.0f} rows/s over {len(seconds)} runs"
+
+
+def _verified(db: Path) -> None:
+    from ledger.store.audit import verify
+    from ledger.store.engine import connect, resolve_url, transaction
+
+    engine = connect(resolve_url(str(db)))
+    try:
+        with transaction(engine) as s:
+            check = verify(s)
+    finally:
+        engine.dispose()
+    if not check.ok:
+        raise RuntimeError(f"audit verify after the import: {check.problems[:3]}")
+
+
 def run(n: int = 100_000, repeats: int = 3) -> list[Row]:
     """Median seconds of ``repeats`` imports and baselines, alternated; the Row for the table."""
     print(f"import-logbook: {n:,} water-flux rows over {MODULES} modules, SQLite")
@@ -165,6 +184,8 @@ def run(n: int = 100_000, repeats: int = 3) -> list[Row]:
         for k in range(repeats):
             seconds, _ = _import(_copy(base, Path(tmp) / f"import{k}.db"), rows)
             ours.append(seconds)
+            if k == 0:
+                _verified(Path(tmp) / "import0.db")  # untimed: the chain it wrote verifies
             same = _written(Path(tmp) / f"import{k}.db")
             raw.append(_executemany(_copy(base, Path(tmp) / f"raw{k}.db"), same))
         events = len(same["audit_event"][1])
@@ -172,11 +193,16 @@ def run(n: int = 100_000, repeats: int = 3) -> list[Row]:
     rate, raw_rate = n / s, n / b
     ok = rate >= TARGET
     print(f"  baseline  raw sqlite3 executemany, same {n:,} records + {events:,} events"
-          f"  {b * 1e3:8.1f} ms  {raw_rate:>10,.0f} rows/s")  # fmt: skip
-    print(f"  measured  import_rows (validate, compute, hash, Core insert)"
-          f"  {s * 1e3:8.1f} ms  {rate:>10,.0f} rows/s")  # fmt: skip
+          f"  {b * 1e3:8.1f} ms  {raw_rate:>10,.0f} rows/s  ({_spread(n, raw)})")  # fmt: skip
+    print(f"  measured  import_rows (validate, compute, hash, driver executemany)"
+          f"  {s * 1e3:8.1f} ms  {rate:>10,.0f} rows/s  ({_spread(n, ours)})")  # fmt: skip
     print(f"  ratio     {s / b:.2f}x the executemany time (target >= {TARGET:,} rows/s: "
           f"{'meets' if ok else 'MISSES'}; median of {repeats})")  # fmt: skip
+    if raw_rate < TARGET:
+        print(f"  note      the baseline itself writes {raw_rate:,.0f} rows/s here, below the "
+              f"{TARGET:,} rows/s target: no import of these rows into this schema reaches "
+              f"it on this machine; the import runs at {b / s:.0%} of the baseline's "
+              "speed")  # fmt: skip
     note = (f"{n:,} rows; baseline raw sqlite3 executemany of the same rows and events "
             f"({raw_rate:,.0f} rows/s); import {s / b:.2f}x its time")  # fmt: skip
     return [Row("import-logbook, rows/s", rate, "rows/s", raw_rate, f">= {TARGET:,} rows/s", ok,

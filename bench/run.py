@@ -26,7 +26,7 @@ from pathlib import Path
 BENCH = Path(__file__).resolve().parent
 sys.path.insert(0, str(BENCH))
 
-from table import Row, as_json, error_row, machine, markdown, render, skipped_row  # noqa: E402
+from table import Row, as_json, error_row, machine, markdown, render  # noqa: E402
 
 HELP_TARGET = 2.5  # `fluxledger --help` against `python -c "import typer"`
 
@@ -112,15 +112,6 @@ def _section(rows: list[Row], what: str, run: Callable[[], list[Row]]) -> None:
     sys.stdout.flush()
 
 
-def _not_benchmarked() -> list[Row]:
-    """Speed targets of the design that no benchmark here measures yet."""
-    why = "no benchmark measures it yet"
-    return [
-        skipped_row("Web pages with the demo fleet, p95", why, "< 100 ms"),
-        skipped_row("Web fleet page with 1,000 modules", why, "< 1 s"),
-    ]
-
-
 def _options(argv: list[str], quick: bool) -> str:
     return " ".join(argv) + (" (scaled down)" if quick else "")
 
@@ -129,8 +120,8 @@ def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--quick", action="store_true",
                         help="scaled down (5 repeats, 1,000 modules / 100,000 water-flux tests, "
-                             "200,000-row memory log, one held-out seed): about a minute, "
-                             "fitness target not judged")  # fmt: skip
+                             "200,000-row memory log, one held-out seed, 40 requests a web "
+                             "page): a few minutes, fitness target not judged")  # fmt: skip
     parser.add_argument("--repeats", type=int, default=None, help="runs of each timing (15)")
     parser.add_argument("--modules", type=int, default=None,
                         help="modules in the fitness database (10,000)")  # fmt: skip
@@ -141,7 +132,10 @@ def main(argv: list[str] | None = None) -> int:
                         help="rows of the skid-log memory file (1,000,000; 0 skips)")  # fmt: skip
     parser.add_argument("--heldout-seeds", type=int, default=None,
                         help="noise seeds per held-out case (2)")  # fmt: skip
-    for part in ("commands", "skidlog", "records", "heldout", "fitness", "import"):
+    parser.add_argument("--demo-db", type=Path, default=None,
+                        help="demo logbook the web benchmark copies (demo-output/fluxledger.db; "
+                             "built in a temporary folder when missing)")  # fmt: skip
+    for part in ("commands", "skidlog", "records", "heldout", "fitness", "import", "web"):
         parser.add_argument(f"--skip-{part}", action="store_true", help=f"leave out {part}")
     parser.add_argument("--out", type=Path, default=BENCH,
                         help="folder for latest.md and latest.json (default: bench/)")  # fmt: skip
@@ -198,7 +192,10 @@ def main(argv: list[str] | None = None) -> int:
 
         n_import = 20_000 if quick else 100_000
         _section(rows, "import-logbook", lambda: import_logbook.run(n_import, 3))
-    rows += _not_benchmarked()
+    if not args.skip_web:
+        import web  # bench/web.py
+
+        _section(rows, "Web pages", lambda: web.run(script, quick, demo_db=args.demo_db))
     info["load_average_end"] = [round(x, 2) for x in os.getloadavg()]
     info["seconds"] = round(time.perf_counter() - started)
     options = _options(sys.argv[1:] if argv is None else argv, quick)

@@ -137,15 +137,24 @@ def show(
     zone is set), what, old and new value, why."""
     import textwrap
 
-    from ledger.audittext import describe
     from ledger.cli.output import Report, Table
     from ledger.entries.uses import audit_filter
-    from ledger.logbook.history import audit_events
+    from ledger.logbook.audit_trail import TrailEvent, TrailFilter, trail
     from ledger.logbook.site import site_zone
     from ledger.rules.localtime import local_text
 
-    filters = audit_filter(locals())
-    events, zone = read(db, lambda s: (audit_events(s, **filters), site_zone(s)))  # type: ignore[arg-type]
+    given: dict[str, Any] = audit_filter(locals())
+    wanted = TrailFilter(
+        user=given["user"], entity=given["entity"], serial=given["serial"],
+        since=given["since"], until=given["until"],
+    )  # fmt: skip
+
+    def work(session: Any) -> tuple[list[TrailEvent], Any]:
+        # The shared trail is newest first; this listing reads oldest first.
+        page = trail(session, wanted, limit=given["limit"] or None)
+        return list(reversed(page.events)), site_zone(session)
+
+    events, zone = read(db, work)
     if as_json:
         report = Report("audit show")
         table = Table("Events", [(k, k) for k in EVENT_FIELDS])
@@ -164,8 +173,7 @@ def show(
             f"{e.entity} {e.entity_id}{module}"
         )
         if e.field is not None or e.new_value is not None:
-            line = describe(e.seq, e.action, e.field, e.old_value, e.new_value, e.reason)
-            for part in textwrap.wrap(line, width=96, break_long_words=False):
+            for part in textwrap.wrap(e.change, width=96, break_long_words=False):
                 typer.echo(f"    {part}")
         if e.reason:
             typer.echo(f"    reason: {e.reason}")

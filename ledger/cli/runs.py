@@ -28,18 +28,6 @@ app = typer.Typer(
 RUN = typer.Argument(..., help="The run's number (see `fluxledger run list`).")
 
 
-def _value(v: Any) -> Any:
-    from ledger.cli.output import Q
-
-    if v.value is None:
-        return None
-    if v.kind:
-        return Q(v.value, v.kind, v.unit)
-    if v.unit.strip() == "percent":
-        return Q(v.value, "fraction", "percent")
-    return v.value
-
-
 @app.command("templates")
 @guarded
 def list_templates(as_json: bool = JSON_OPTION) -> None:
@@ -140,85 +128,81 @@ def plan(
     _show(db, run.id, as_json)  # type: ignore[arg-type]
 
 
+def _q(v: Any) -> Any:
+    """A report value for printing: an Amount as the CLI's quantity, anything else as is."""
+    from ledger.cli.output import Q
+    from ledger.runs.report import Amount
+
+    return Q(v.si, v.kind, v.unit) if isinstance(v, Amount) else v
+
+
 def _report(session: Any, run_id: int) -> Any:
-    from ledger.cli.output import Q, Report, Table
-    from ledger.logbook.site import site_zone
-    from ledger.rules.localtime import local_text
-    from ledger.runs.queries import run_view
+    from ledger.cli.output import Report, Table
+    from ledger.runs.report import run_report
 
-    view = run_view(session, run_id)
-    zone = site_zone(session)
-
-    def local(at: Any) -> str | None:
-        return local_text(at, zone) if at is not None else None
-
-    run, plan = view.run, view.plan
+    r = run_report(session, run_id)
+    h = r.head
     report = Report("run show")
-    head = report.section(f"Run {run.id}")
-    head.add("run", run.id)
-    head.add("status", run.status)
-    head.add("product", run.product)
-    head.add("lot", run.lot)
-    head.add("module", view.module_serial)
-    head.add("template", f"{run.template_id} v{run.template_version}")
-    head.add("template_sha256", run.template_sha256, "template SHA-256")
-    head.add("planned_by", run.created_by, "planned by")
-    head.add("planned_at", local(run.created_at), "planned at")
-    head.add("started_at", local(run.started_at), "started")
-    head.add("finished_at", local(run.finished_at), "finished")
-    if run.override_reason:
-        head.add("override_reason", run.override_reason, "planned despite NOT FIT")
+    head = report.section(f"Run {h.run}")
+    head.add("run", h.run)
+    head.add("status", h.status)
+    head.add("product", h.product)
+    head.add("lot", h.lot)
+    head.add("module", h.module)
+    head.add("template", h.template)
+    head.add("template_sha256", h.template_sha256, "template SHA-256")
+    head.add("planned_by", h.planned_by, "planned by")
+    head.add("planned_at", h.planned_at, "planned at")
+    head.add("started_at", h.started_at, "started")
+    head.add("finished_at", h.finished_at, "finished")
+    if h.override_reason:
+        head.add("override_reason", h.override_reason, "planned despite NOT FIT")
     inputs = Table("Inputs", [("name", "input"), ("text", "as given")])
-    for name, text in sorted(plan.given.items()):
+    for name, text in r.inputs:
         inputs.rows.append([name, text])
     report.tables.append(inputs)
     values = Table("Plan", [("name", "parameter"), ("title", "what"), ("phase", "phase"),
                             ("planned", "planned"), ("rule", "acceptance"),
                             ("note", "note")])  # fmt: skip
-    for v in plan.values:
-        values.rows.append([v.name, v.title, v.phase or "run", _value(v), v.rule or "—",
-                            v.missing or ""])  # fmt: skip
+    for v in r.plan:
+        values.rows.append([v.name, v.title, v.phase, _q(v.planned), v.rule, v.note])
     report.tables.append(values)
-    if plan.checks:
+    if r.plan_checks:
         pc = Table("Plan checks", [("name", "check"), ("verdict", "verdict"), ("text", "rule")])
-        for c in plan.checks:
+        for c in r.plan_checks:
             pc.rows.append([c.name, c.verdict, c.text])
         report.tables.append(pc)
-    if plan.advice is not None:
-        a = plan.advice
+    if r.advice is not None:
+        a = r.advice
         adv = report.section("Diafiltration optimum (gel model)")
-        adv.add("gel_concentration", Q(a.gel_concentration_kg_m3, "concentration"), "Cg")
-        adv.add("k", Q(a.k_m_s, "flux"), "mass-transfer coefficient k")
-        adv.add("optimum_concentration", Q(a.optimum_concentration_kg_m3, "concentration"),
-                "optimum Cg/e")  # fmt: skip
-        adv.add("planned_concentration", Q(a.planned_concentration_kg_m3, "concentration"),
-                "planned")  # fmt: skip
-        adv.add("planned_time", Q(a.planned_time_s, "time"), "DF time as planned")
-        adv.add("optimum_time", Q(a.optimum_time_s, "time"), "DF time at the optimum")
-        adv.add("time_saved", Q(a.time_saved_s, "time"), "time saved at the optimum")
-        adv.add("buffer_difference", Q(a.buffer_saved_m3, "volume"),
+        adv.add("gel_concentration", _q(a.gel_concentration), "Cg")
+        adv.add("k", _q(a.k), "mass-transfer coefficient k")
+        adv.add("optimum_concentration", _q(a.optimum_concentration), "optimum Cg/e")
+        adv.add("planned_concentration", _q(a.planned_concentration), "planned")
+        adv.add("planned_time", _q(a.planned_time), "DF time as planned")
+        adv.add("optimum_time", _q(a.optimum_time), "DF time at the optimum")
+        adv.add("time_saved", _q(a.time_saved), "time saved at the optimum")
+        adv.add("buffer_difference", _q(a.buffer_difference),
                 "buffer as planned minus at the optimum")  # fmt: skip
     steps = Table("Steps", [("operation", "operation"), ("phase", "phase"),
                             ("signatures", "signatures"), ("text", "instruction")])  # fmt: skip
-    for s in plan.steps:
+    for s in r.steps:
         steps.rows.append([s["operation"], s["phase"], s["signatures"], s["text"]])
     report.tables.append(steps)
-    if run.status != "planned":
-        _checks_into(report, session, run)
-    report.notes.extend(plan.notes)
+    if r.checks is not None:
+        _checks_into(report, r.checks)
+    report.notes.extend(r.notes)
     report.notes.append(SITE_NOTE)
     return report
 
 
-def _checks_into(report: Any, session: Any, run: Any) -> None:
-    from datetime import datetime
-
+def _checks_into(report: Any, part: Any) -> None:
+    """The skid log, checks, excursions and deviations (ledger.runs.report.ChecksPart)."""
     from ledger.cli.output import Table
-    from ledger.runs import service
 
-    log = service.skid_log(session, run.id)
+    log = part.log
     if log is not None:
-        files = service.log_files(log)
+        files = log.files
         several = len(files) > 1
         sec = report.section("Skid log")
         if several:
@@ -226,7 +210,7 @@ def _checks_into(report: Any, session: Any, run: Any) -> None:
         sec.add("file", log.file_name, "first file" if several else None)
         sec.add("sha256", log.sha256, "SHA-256 of the first" if several else "SHA-256")
         sec.add("rows", log.rows)
-        sec.add("imported_by", log.created_by, "imported by")
+        sec.add("imported_by", log.imported_by, "imported by")
         if several:
             columns = [("position", "no."), ("file", "file"), ("size_bytes", "bytes"),
                        ("sha256", "SHA-256")]  # fmt: skip
@@ -238,27 +222,24 @@ def _checks_into(report: Any, session: Any, run: Any) -> None:
                                          ("planned", "planned"), ("actual", "actual"),
                                          ("rule", "rule"), ("verdict", "verdict"),
                                          ("note", "note")])  # fmt: skip
-    for c in service.checks_of(session, run):
+    for c in part.checks:
         checks.rows.append([c.name, c.phase or "run", c.planned, c.actual, c.rule, c.verdict,
                             c.note])  # fmt: skip
     report.tables.append(checks)
-    if log is not None and log.actuals.get("excursions"):
+    if part.excursions:
         exc = Table("Excursions", [("name", "limit"), ("phase", "phase"), ("side", "side"),
                                    ("start", "start"), ("duration_s", "duration (s)"),
                                    ("samples", "samples")])  # fmt: skip
-        for e in log.actuals["excursions"]:
-            start = datetime.fromisoformat(e["start"])
-            exc.rows.append([e["name"], e.get("phase") or "run", e["side"], start,
-                             float(e["duration_s"]), e["samples"]])  # fmt: skip
+        for e in part.excursions:
+            exc.rows.append([e.name, e.phase, e.side, e.start, e.duration_s, e.samples])
         report.tables.append(exc)
-    devs = service.deviations(session, run.id)
-    if devs:
+    if part.deviations:
         dt = Table("Deviations", [("number", "no."), ("check", "check"),
                                   ("description", "description"), ("by", "recorded by"),
                                   ("closed", "closed"), ("closure", "closure")])  # fmt: skip
-        for d in devs:
-            dt.rows.append([d.number, d.check_name or "—", d.description, d.created_by,
-                            d.closed_at, d.closure or "open"])  # fmt: skip
+        for d in part.deviations:
+            dt.rows.append([d.number, d.check or "—", d.description, d.by, d.closed,
+                            d.closure or "open"])  # fmt: skip
         report.tables.append(dt)
 
 
@@ -278,11 +259,11 @@ def show(run: int = RUN, db: str | None = DB_OPTION, as_json: bool = JSON_OPTION
 def checks(run: int = RUN, db: str | None = DB_OPTION, as_json: bool = JSON_OPTION) -> None:
     """The run's acceptance checks only: PASS, FAIL or MISSING, each with its rule."""
     from ledger.cli.output import Report
-    from ledger.runs import service
+    from ledger.runs.report import run_checks
 
     def build(session: Any) -> Any:
         report = Report("run checks")
-        _checks_into(report, session, service.get_run(session, run))
+        _checks_into(report, run_checks(session, run))
         report.notes.append(SITE_NOTE)
         return report
 

@@ -249,3 +249,70 @@ def log_tolerance(raw: Mapping[str, Any]) -> tuple[float, str]:
     """The skid-log tolerance (s) and the reason it changes."""
     v = LOG_TOLERANCE.parse(raw)
     return v["tolerance"], v["reason"]
+
+
+# What `run import` reads (ledger.runs.skidlog): a text export, or an Excel workbook, which
+# the reader knows by its name or its zip signature; a mapping is a TOML file.
+LOG_TEXT_SUFFIXES = (".csv", ".tsv", ".txt")
+LOG_WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
+MAPPING_SUFFIXES = (".toml",)
+ZIP_SIGNATURE = b"PK\x03\x04"
+MAX_NAME_BYTES = 255  # a file name's bytes (NAME_MAX on common file systems)
+
+
+def uploaded_name(field: str, name: str | None) -> str:
+    """The base name of a file sent from a browser (a browser may send a path), refused when
+    empty, a dot name, over MAX_NAME_BYTES or holding a control character."""
+    base = (name or "").replace("\\", "/").rsplit("/", 1)[-1].strip()
+    if not base:
+        raise InputError(
+            f"{field}: no file chosen", field=field, value=name or "",
+            expected="a file to upload",
+        )  # fmt: skip
+    bad = base in (".", "..") or base.startswith(".") or not base.isprintable()
+    if bad or len(base.encode("utf-8", "surrogatepass")) > MAX_NAME_BYTES:
+        raise InputError(
+            f"{field}: {base[:80]!r} is not a usable file name", field=field,
+            value=base[:80], expected=f"a plain file name of at most {MAX_NAME_BYTES} bytes",
+        )  # fmt: skip
+    return base
+
+
+def skid_upload(field: str, name: str | None, head: bytes) -> str:
+    """The name of an uploaded skid log (``field`` "file") or mapping (``field`` "mapping")
+    once its name and its first bytes are of a type ``run import`` reads: a log is a text
+    export (.csv, .tsv, .txt: text in an encoding the reader detects, not a zip archive) or
+    an Excel workbook (.xlsx, .xlsm: a zip archive); a mapping is a TOML text file. The
+    InputError names the field, the file and what is expected."""
+    from ledger.runs.dialect import detect_encoding
+
+    base = uploaded_name(field, name)
+    suffix = os.path.splitext(base)[1].lower()
+    kinds: tuple[str, ...]
+    if field == "mapping":
+        kinds, expected = MAPPING_SUFFIXES, "a column mapping as a TOML file (.toml)"
+    else:
+        kinds = LOG_TEXT_SUFFIXES + LOG_WORKBOOK_SUFFIXES
+        expected = (
+            "a skid log as a text export (.csv, .tsv, .txt) or an Excel workbook (.xlsx, .xlsm)"
+        )
+
+    def refuse(why: str) -> InputError:
+        return InputError(f"{base}: {why}", field=field, value=base, expected=expected)
+
+    if suffix not in kinds:
+        raise refuse(f"a {suffix or 'file without an extension'} file is not read here")
+    if not head:
+        raise refuse("the file is empty")
+    zipped = head.startswith(ZIP_SIGNATURE)
+    if suffix in LOG_WORKBOOK_SUFFIXES:
+        if not zipped:
+            raise refuse(f"the file is named {suffix} but is not an Excel workbook")
+        return base
+    if zipped:
+        raise refuse(f"the file is named {suffix} but is a zip archive, not text")
+    try:
+        detect_encoding(head)
+    except InputError:
+        raise refuse(f"the file is named {suffix} but holds binary data, not text") from None
+    return base

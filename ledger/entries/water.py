@@ -197,9 +197,13 @@ class WaterTestEntry:
     note: str | None
     points_file: WaterPoints | None  # to name the file's lines in later errors
     entered: dict[str, str] | None = None  # quantity options as typed ("20 psi")
+    rows: tuple[int, ...] | None = None  # typed as a table: the row number of each point
 
     def blame(self) -> AbstractContextManager[None]:
-        """Attribute a later error on the points to the points file's line."""
+        """Attribute a later error on the points to the points file's line, or to the cell
+        of the table row it was typed in."""
+        if self.rows is not None:
+            return RowBlame(self.rows)
         return self.points_file.points.blame() if self.points_file else nullcontext()
 
 
@@ -393,4 +397,143 @@ def _positive_tmp(
         expected="a positive TMP",
         source=source,
         line=line,
+    )
+
+
+# A water-flux test typed as a table of TMP points (the web form) ------------------------------
+
+MAX_ROWS = 12
+ROW_FIELDS = ("feed", "retentate", "permeate", "flow", "volume", "time")
+WATER_ROW = Spec(
+    "water-flux point",
+    (
+        Field("feed", "pressure", help="Feed pressure (gauge), '12 psi'"),
+        Field("retentate", "pressure", help="Retentate pressure"),
+        Field("permeate", "pressure", help="Permeate pressure (default 0)"),
+        Field("flow", "flow", help="Permeate flow, '228 mL/min'"),
+        Field("volume", "volume", help="Or: permeate collected, '250 mL'"),
+        Field("time", "time", help="... over this time, '1 min'"),
+    ),
+)
+# The test's own fields when its points come from a table (no points file, no single point).
+WATER_TABLE = Spec(
+    "test water",
+    tuple(f for f in WATER_TEST.fields if f.name not in (*ROW_FIELDS, "points_file")),
+)
+
+
+def row_field(name: str, row: int) -> str:
+    """The name of a table cell: the point's field and its row number ("feed_2")."""
+    return f"{name}_{row}"
+
+
+@dataclass(frozen=True)
+class RowBlame:
+    """Turns an error on the ``index``-th point (as the service raises it) into one naming
+    the table cell: the field ``feed_3`` and "row 3" in the message."""
+
+    rows: tuple[int, ...]  # the row number of each point, blank rows skipped
+
+    def __enter__(self) -> None:
+        return None
+
+    def __exit__(self, kind: object, err: object, tb: object) -> None:
+        if (
+            isinstance(err, InputError)
+            and err.index is not None
+            and 0 <= err.index < len(self.rows)
+        ):
+            _name_row(err, self.rows[err.index])
+
+
+def _name_row(err: InputError, row: int) -> None:
+    if err.field in ROW_FIELDS:
+        err.field = row_field(err.field, row)
+    err.index = row - 1
+    if not err.message.startswith(f"row {row}"):
+        err.message = f"row {row}: {err.message}"
+        err.args = (err.message,)
+
+
+def water_test_rows(raw: Mapping[str, object], rows: int = MAX_ROWS) -> WaterTestEntry:
+    """Check a water-flux test typed as a table: the test's fields (``serial``, ``stage``,
+    ``temperature``, ``water_grade``, ``activity_time``, ``note``) and up to ``rows`` points,
+    row N in the fields ``feed_N``, ``retentate_N``, ``permeate_N`` (default 0) and
+    ``flow_N``, or ``volume_N`` and ``time_N`` instead of the flow. Quantities in any unit of
+    their kind ("12 psi", "228 mL/min"), SI in the entry. A row left blank is skipped.
+
+    An error names the cell (``field`` "feed_2", ``index`` 1 for row 2, "row 2" in the
+    message); :meth:`WaterTestEntry.blame` does the same for the service's errors on a point.
+    One point is recorded as ``test water`` records its single-point options (the same
+    ``entered`` text); several as from a points file (SI only, the temperature as typed)."""
+    from ledger.logbook.waterflux import WaterPoint
+
+    v = WATER_TABLE.parse(raw)
+    points: list[WaterPoint] = []
+    numbers: list[int] = []
+    typed: dict[str, str] | None = None
+    for row in range(1, rows + 1):
+        cells = {name: raw.get(row_field(name, row)) for name in ROW_FIELDS}
+        if all(c is None or (isinstance(c, str) and not c.strip()) for c in cells.values()):
+            continue
+        try:
+            p = WATER_ROW.parse(cells)
+            missing = [n for n in ("feed", "retentate") if p[n] is None]
+            if missing:
+                raise InputError(
+                    "a point needs its feed and retentate pressures",
+                    field=missing[0],
+                    value=None,
+                    expected="both, e.g. '12 psi' and '9 psi'",
+                )
+            if p["flow"] is None and not (p["volume"] is not None and p["time"] is not None):
+                name = "flow" if p["volume"] is None and p["time"] is None else (
+                    "time" if p["time"] is None else "volume")  # fmt: skip
+                raise InputError(
+                    "a point needs a permeate flow, or a volume and a time",
+                    field=name,
+                    value=None,
+                    expected="a flow such as '228 mL/min', or '250 mL' over '1 min'",
+                )
+        except InputError as err:
+            _name_row(err, row)
+            raise
+        points.append(
+            WaterPoint(
+                feed_pa=p["feed"],
+                retentate_pa=p["retentate"],
+                permeate_pa=p.get("permeate", 0.0),
+                flow_m3_s=p["flow"],
+                volume_m3=p["volume"],
+                time_s=p["time"],
+            )
+        )
+        numbers.append(row)
+        typed = p.entered()
+    if not points:
+        raise InputError(
+            "a water-flux test needs at least one point: fill in row 1",
+            field=row_field("feed", 1),
+            value=None,
+            expected="feed, retentate and permeate flow (or volume and time) of each point",
+        )
+    if v["temperature"] is None:
+        raise InputError(
+            "give the water temperature of the test",
+            field="temperature",
+            value=None,
+            expected="e.g. '22 degC'",
+        )
+    entered = {**(typed or {}), **(v.entered() or {})} if len(points) == 1 else v.entered()
+    return WaterTestEntry(
+        serial=v["serial"],
+        stage=v["stage"],
+        points=points,
+        temperature_k=float(v["temperature"]),
+        water_grade=v["water_grade"],
+        activity_at=when(v),
+        note=v["note"],
+        points_file=None,
+        entered=entered or None,
+        rows=tuple(numbers),
     )

@@ -7,10 +7,13 @@ through the checks and the science of its typed command (``test water``, ``test
 integrity --start --end --hold-time``): the WaterPoint flow and TMP checks,
 ``science.permeability`` for TMP, flux, NWP and resistance, ``rules.water_test`` for the
 verdict, ``science.integrity`` for the decay verdict, the module type's limits in force at
-the row's time. Records are written through SQLAlchemy Core in chunks; each row's record hash
-and audit event are made exactly as ``store.audit.Journal.create`` makes them (canonical
-JSON of the record's columns, SHA-256; the event's HMAC under the site key, chained), so
-``audit verify`` checks them like any other record.
+the row's time. Records and events are written in chunks by the driver's executemany on the
+session's SQLAlchemy connection, each value in the storage form its column type's own bind
+processor gives (``store.audit.StoredRows``); each row's record hash and audit event are
+exactly those ``store.audit.Journal.create`` makes (canonical JSON of the record's columns,
+SHA-256; the event's HMAC under the site key, chained: ``store.audit.CreateEvents``), so
+``audit verify`` checks them like any other record (tests/store/test_audit_bulk.py compares
+the bytes with Journal.create's).
 
 Back-entered history follows ``logbook.context.begin`` with two rules relaxed (DEVELOPERS.md,
 "Importing an old logbook"): the status a module has now does not have to allow each row's
@@ -27,10 +30,11 @@ from __future__ import annotations
 import hashlib
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
-from datetime import datetime
+from datetime import UTC, datetime
+from types import SimpleNamespace
 from typing import Any
 
-from sqlalchemy import func, insert, text, update
+from sqlalchemy import func, text
 from sqlmodel import Session, select
 
 from ledger import __version__
@@ -48,11 +52,9 @@ from ledger.rules.names import shown
 from ledger.science import integrity as integrity_sci
 from ledger.science import permeability as perm
 from ledger.science import water
-from ledger.store.audit import chain_key, event_hash, head_mac
-from ledger.store.sitekey import SiteKey
+from ledger.store.audit import CreateEvents, StoredRows
 from ledger.store.tables import (
     STAGES,
-    AuditEvent,
     AuditHead,
     Cleaning,
     IntegrityTest,
@@ -64,6 +66,7 @@ from ledger.store.tables import (
     UserAccount,
     WaterFluxTest,
 )
+from ledger.store.types import UTCDateTime
 
 KINDS = ("water_flux", "pressure_decay")
 CHUNK = 5_000  # rows per executemany
@@ -210,15 +213,22 @@ class _Limits:
 
     def __init__(self, session: Session) -> None:
         self.session = session
-        self.cache: dict[tuple[int | None, int | None], tuple[ModuleType, int | None]] = {}
+        self.cache: dict[tuple[int | None, int | None], tuple[Any, int | None]] = {}
 
-    def at(self, m: _Module, at: datetime) -> tuple[ModuleType, int | None]:
+    def at(self, m: _Module, at: datetime) -> tuple[Any, int | None]:
         version = version_rules.in_force(m.versions, at)
         key = (m.mtype.id, version.id if version is not None else None)
         if key not in self.cache:
             mtype, row = typelimits.in_force(self.session, m.mtype, at)
-            self.cache[key] = (mtype, row.id if row is not None else None)
+            self.cache[key] = (_plain(mtype), row.id if row is not None else None)
         return self.cache[key]
+
+
+def _plain(mtype: ModuleType) -> Any:
+    """The type's column values as plain attributes: read per row without the ORM's
+    instrumented access (the same values)."""
+    columns = ModuleType.__table__.columns  # type: ignore[attr-defined]
+    return SimpleNamespace(**{c.name: getattr(mtype, c.name) for c in columns})
 
 
 def _stage(text_: str | None) -> str:
@@ -280,9 +290,7 @@ class _Factors:
         return self.mu[t]
 
 
-def _water_row(
-    sheet: SheetRows, i: int, m: _Module, mtype: ModuleType, f: _Factors
-) -> dict[str, Any]:
+def _water_row(sheet: SheetRows, i: int, m: _Module, mtype: Any, f: _Factors) -> dict[str, Any]:
     """The columns of one water-flux test, as ``record_water_test`` computes them for one
     point (its method, METHOD_ONE)."""
     stage = _stage(sheet.text("stage", i))
@@ -305,11 +313,12 @@ def _water_row(
         time_s=sheet.quantity("time", i),
     )
     q = point.flow(0)
-    point.check_tmp(0)
+    # check_tmp returns perm.transmembrane_pressure of the point, which the body of
+    # perm.normalized_permeability computes again: the same call, so the same float.
+    tmp = point.check_tmp(0)
     t_ref = mtype.reference_temperature_k
     # The body of perm.normalized_permeability, its correction factor looked up once per
     # temperature: the same functions in the same order, so the same floats.
-    tmp = perm.transmembrane_pressure(point.feed_pa, point.retentate_pa, point.permeate_pa)
     flux = perm.flux(q, mtype.area_m2)
     factor = f.correction(temperature, t_ref)
     nwp = perm.permeability(flux, tmp) * factor
@@ -356,7 +365,7 @@ def _water_row(
     }
 
 
-def _decay_row(sheet: SheetRows, i: int, mtype: ModuleType) -> dict[str, Any]:
+def _decay_row(sheet: SheetRows, i: int, mtype: Any) -> dict[str, Any]:
     """The columns of one pressure-decay test from start, end and hold time, as
     ``record_decay_test`` computes them."""
     start, end = sheet.quantity("start", i), sheet.quantity("end", i)
@@ -429,10 +438,11 @@ _ENCODE_UTC = "microseconds"
 
 
 def _iso(t: datetime) -> str:
-    # As store.audit encodes a datetime in a hash: UTC, ISO 8601 with microseconds.
-    from datetime import UTC
-
-    return t.astimezone(UTC).isoformat(timespec=_ENCODE_UTC)
+    # As store.audit encodes a datetime in a hash: UTC, ISO 8601 with microseconds (a time
+    # already in UTC, as the entry gives them, needs no conversion: the same text).
+    if t.tzinfo is not UTC:
+        t = t.astimezone(UTC)
+    return t.isoformat(timespec=_ENCODE_UTC)
 
 
 def import_rows(
@@ -512,90 +522,91 @@ def _write(
     result: ImportResult,
     progress: Callable[[int], None] | None,
 ) -> None:
-    """Insert the records and their events (Journal.create's hashes, one chain), move the
-    chain head."""
+    """Insert the records and their events, move the chain head: the columns, record hashes
+    and events of ``Journal.create`` (canonical JSON of the record's columns, SHA-256; the
+    event's HMAC, chained), through the driver's executemany in chunks."""
     cls: Any = WaterFluxTest if sheet.kind == "water_flux" else IntegrityTest
     table: Any = cls.__table__
     entity = table.name
+    if cls.redacted:
+        raise RuntimeError(f"{entity} has redacted columns; their create events differ")
     ids = _reserve_ids(session, entity, len(accepted))
-    key = chain_key(session, head)
-    hash_columns = [c.name for c in table.columns if c.name not in cls.hash_excluded]
-    defaults = cls.hash_defaults
-    from sqlalchemy import Float
-
-    floats = {c.name for c in table.columns if isinstance(c.type, Float)}
-    stamp, actor_login, version_text = _iso(at), actor.login, f"fluxledger {__version__}"
-    records: list[dict[str, Any]] = []
-    events: list[dict[str, Any]] = []
-    seq, prev = head.seq, head.hash
-    mac: Callable[[bytes], str] = (
-        key.mac if isinstance(key, SiteKey) else lambda b: hashlib.sha256(b).hexdigest()
-    )
+    actor_login = actor.login
+    events = CreateEvents(session, head, entity=entity, actor=actor_login, at=at)
+    fixed = {"late": True, "method_version": f"fluxledger {__version__}", "created_at": at,
+             "created_by": actor_login, "voided_at": None, "voided_by": None,
+             "void_reason": None}  # fmt: skip
+    computed = list(accepted[0][3])  # every row of a kind has the same columns
+    names = ["id", "module_id", "activity_at", "limits_version_id", "entered", *computed]
+    rows = StoredRows(session.connection(), table, [*names, "record_hash"], fixed)
+    content = _Content(cls, names, fixed)
+    stored_rows: list[Any] = []
+    stored_events: list[Any] = []
     for (i, m, version, values), new_id in zip(accepted, ids, strict=True):
-        if values.get("baseline_test_id") is not None and values["baseline_test_id"] < 0:
-            values["baseline_test_id"] = ids[-values["baseline_test_id"] - 1]
-        row = {
-            **values,
-            "id": new_id,
-            "module_id": m.module.id,
-            "activity_at": sheet.at[i],
-            "late": True,
-            "limits_version_id": version,
-            "method_version": version_text,
-            "entered": sheet.entered[i] or None,
-            "record_hash": "",
-            "created_at": at,
-            "created_by": actor_login,
-            "voided_at": None,
-            "voided_by": None,
-            "void_reason": None,
-        }
-        content: dict[str, Any] = {}
-        for name in hash_columns:
-            value = row[name]
-            if name in defaults and value == defaults[name]:
-                continue
-            if value is not None and name in floats:
-                value = float(value)
-            elif isinstance(value, datetime):
-                value = _iso(value)
-            content[name] = value
-        body = canonical(content)
+        if len(values) != len(computed):
+            raise RuntimeError("rows of one kind must have the same columns")
+        baseline = values.get("baseline_test_id")
+        if baseline is not None and baseline < 0:
+            values["baseline_test_id"] = ids[-baseline - 1]
+        module_id = m.module.id
+        row: list[Any] = [new_id, module_id, sheet.at[i], version, sheet.entered[i] or None]
+        row += [values[k] for k in computed]
+        body = content.dumps(row)
         # canonical({"entity": e, "content": c}) with its keys sorted, without a second dump.
-        row["record_hash"] = record = hashlib.sha256(
-            f'{{"content":{body},"entity":"{entity}"}}'.encode()
-        ).hexdigest()
-        seq += 1
-        event = {
-            "seq": seq, "at": at, "actor": actor_login, "action": "create", "entity": entity,
-            "entity_id": str(new_id), "module_id": m.module.id, "field": None,
-            "old_value": None, "new_value": body, "reason": None, "record_hash": record,
-            "prev_hash": prev,
-        }  # fmt: skip
-        payload = canonical({**event, "at": stamp}).encode()
-        event["hash"] = prev = mac(payload)
-        records.append(row)
-        events.append(event)
-    conn = session.connection()
-    event_table: Any = AuditEvent.__table__  # type: ignore[attr-defined]
-    for part, evs in zip(_chunks(records, CHUNK), _chunks(events, CHUNK), strict=True):
-        conn.execute(insert(table), part)
-        conn.execute(insert(event_table), evs)
+        record = hashlib.sha256(f'{{"content":{body},"entity":"{entity}"}}'.encode()).hexdigest()
+        stored_events.append(events.add(str(new_id), module_id, body, record))
+        row.append(record)
+        stored_rows.append(rows.stored(row))
+    for part, evs in zip(_chunks(stored_rows, CHUNK), _chunks(stored_events, CHUNK), strict=True):
+        rows.insert(part)
+        events.rows.insert(evs)
         if progress is not None:
             progress(len(part))
-    head_table: Any = AuditHead.__table__  # type: ignore[attr-defined]
-    conn.execute(
-        update(head_table)
-        .where(head_table.c.id == 1)
-        .values(seq=seq, hash=prev, mac=head_mac(key, seq, prev) if key is not None else None)
-    )
-    session.expire(head)
-    result.written = len(records)
+    events.close()
+    result.written = len(stored_rows)
     result.first_id, result.last_id = ids[0], ids[-1]
 
 
-def check_event(event: dict[str, Any], key: SiteKey | None) -> bool:
-    """Whether a bulk-made event's digest equals ``store.audit.event_hash`` of the same event
-    (a self-check the tests and the benchmark use)."""
-    ev = AuditEvent(**{k: v for k, v in event.items() if k != "hash"}, hash="")
-    return event_hash(ev, key) == event["hash"]
+class _Content:
+    """The canonical JSON of a record's hashed columns (``store.audit.content``) from its row
+    values: a float column as float, a time as ISO 8601 UTC, a column holding its hash default
+    left out; the columns in ``fixed`` encoded once."""
+
+    def __init__(self, cls: Any, names: list[str], fixed: dict[str, Any]) -> None:
+        from sqlalchemy import Float
+
+        table = cls.__table__
+        hashed = {c.name for c in table.columns} - cls.hash_excluded
+        if hashed != {*names, *fixed} - cls.hash_excluded:
+            raise RuntimeError(f"{table.name}: the hashed columns are not those given")
+        defaults: dict[str, Any] = cls.hash_defaults
+        self.fixed = {
+            k: _content_value(v)
+            for k, v in fixed.items()
+            if k in hashed and not (k in defaults and v == defaults[k])
+        }
+        self.names = names
+        self.floats = [n for n in names if isinstance(table.c[n].type, Float)]
+        self.times = [n for n in names if isinstance(table.c[n].type, UTCDateTime)]
+        self.defaults = [(n, v) for n, v in defaults.items() if n in names]
+
+    def dumps(self, row: list[Any]) -> str:
+        """The content JSON of one row (values in ``names`` order)."""
+        values = self.fixed.copy()
+        values.update(zip(self.names, row, strict=True))
+        for name in self.floats:
+            v = values[name]
+            if v is not None and type(v) is not float:
+                values[name] = float(v)
+        for name in self.times:
+            if values[name] is not None:
+                values[name] = _iso(values[name])
+        for name, default in self.defaults:
+            if values[name] == default:
+                del values[name]
+        return canonical(values)
+
+
+def _content_value(value: Any) -> Any:
+    # As store.audit encodes a column for its hash (these tables hold no bytes).
+    return _iso(value) if isinstance(value, datetime) else value

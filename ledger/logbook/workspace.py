@@ -195,3 +195,42 @@ def read_ledger(engine: Engine, work: Callable[[Session], T]) -> T:
 
     with transaction(engine) as session:
         return work(session)
+
+
+def sign_with_password(
+    engine: Engine, login: str, password: str, work: Callable[[Session, UserAccount], T]
+) -> T:
+    """Run ``work`` as one transaction for ``login``, signed in earlier, who has just typed
+    their password again (a signature needs it every time, 21 CFR 11.200).
+
+    The password is checked as ``ledger.logbook.auth.authenticate`` checks a sign-in, in its
+    own small transaction: a wrong one counts toward lockout and stays counted although
+    ``work`` never runs. The user's own password is required (not a temporary one), as for
+    ``write``."""
+    from ledger.logbook.auth import authenticate, require_own_password
+    from ledger.store.engine import transaction
+
+    actor = authenticate(engine, login, password)
+    require_own_password(actor)
+    with transaction(engine) as session:
+        return work(session, actor)
+
+
+def change_password_signed_in(engine: Engine, login: str, current: str, new: str) -> UserAccount:
+    """``login``, signed in earlier, chooses their own password: the current one is typed
+    again and checked as a sign-in (a wrong one counts toward lockout), then the new one is
+    set through the same rule as ``fluxledger user passwd`` (clearing a temporary password)."""
+    from ledger.errors import InputError
+    from ledger.logbook.auth import authenticate
+    from ledger.logbook.passwords import check_password
+    from ledger.logbook.users import set_password
+    from ledger.store.engine import transaction
+
+    try:  # the new password's rules first, named as the new one (no attempt is counted)
+        check_password(new)
+    except InputError as err:
+        err.field = "new"
+        raise
+    actor = authenticate(engine, login, current)
+    with transaction(engine) as session:
+        return set_password(session, actor, actor.login, new)

@@ -10,6 +10,7 @@ the run back to ``finished`` and supersedes the current revision; its signatures
 from __future__ import annotations
 
 from dataclasses import dataclass
+from datetime import datetime
 
 from sqlmodel import Session, col, select
 
@@ -106,12 +107,8 @@ def approved_record(session: Session, run_id: int, number: int | None = None) ->
     return issued
 
 
-def _issue(session: Session, actor: UserAccount, run: Run) -> RecordRevision:
-    # Locked, and the session's first read of the head: an unlocked get() here would keep a
-    # stale seq in the identity map, which the Journal's FOR UPDATE does not refresh, so on
-    # PostgreSQL a concurrent writer's event made the issue event reuse its seq.
-    head = session.exec(select(AuditHead).where(AuditHead.id == 1).with_for_update()).first()
-    journal = Journal(session, actor.login)
+def next_revision(session: Session, run: Run) -> tuple[int, str]:
+    """The number and reason of the revision the run's next first signature issues."""
     assert run.id is not None
     number = len(revisions(session, run.id)) + 1
     if number == 1:
@@ -122,14 +119,27 @@ def _issue(session: Session, actor: UserAccount, run: Run) -> RecordRevision:
         )
     else:
         reason = run.correction_reason or "corrected"
-    ctx = assemble(
-        session,
-        run.id,
-        revision=number,
-        reason=reason,
-        as_of=journal.at,
-        audit_seq=head.seq if head else 0,
+    return number, reason
+
+
+def issue_context(session: Session, run: Run, as_of: datetime, audit_seq: int) -> c.Context:
+    """The record content that issuing the next revision at ``as_of`` freezes (and hashes)."""
+    assert run.id is not None
+    number, reason = next_revision(session, run)
+    return assemble(
+        session, run.id, revision=number, reason=reason, as_of=as_of, audit_seq=audit_seq
     )
+
+
+def _issue(session: Session, actor: UserAccount, run: Run) -> RecordRevision:
+    # Locked, and the session's first read of the head: an unlocked get() here would keep a
+    # stale seq in the identity map, which the Journal's FOR UPDATE does not refresh, so on
+    # PostgreSQL a concurrent writer's event made the issue event reuse its seq.
+    head = session.exec(select(AuditHead).where(AuditHead.id == 1).with_for_update()).first()
+    journal = Journal(session, actor.login)
+    assert run.id is not None
+    number, reason = next_revision(session, run)
+    ctx = issue_context(session, run, journal.at, head.seq if head else 0)
     return journal.create(
         RecordRevision(
             run_id=run.id,

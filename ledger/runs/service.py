@@ -280,12 +280,16 @@ def import_log(
     paths: str | Path | Sequence[str | Path],
     mapping_path: str | Path | None,
     windows: Sequence[object] = (),
+    *,
+    shown: str | None = None,
 ) -> tuple[SkidLogFile, bool]:
     """Attach the skid log and compute its actuals. A log split over several files is given
     as their paths in time order: they are read and joined (an overlap or a gap between them
     is refused), the first is kept in the log's own row and each later one in a
     ``SkidLogPart``, byte for byte. The same files again (equal SHA-256s in the same order)
-    change nothing (returns the log with False); different files need the log voided first."""
+    change nothing (returns the log with False); different files need the log voided first.
+    ``shown`` is how the record names the log's source instead of its path (an upload's own
+    file name)."""
     import hashlib
 
     from ledger.runs.actuals import ChannelLimit, Geometry, PhaseWindow, summarize
@@ -314,6 +318,8 @@ def import_log(
     mapping, skid_code, version = _mapping_of(session, run, mapping_path)
     log = read_logs(files, mapping, digest=False)  # hashed above, from the bytes kept
     log.stamp(digests)
+    if shown is not None:
+        log.source = shown
     from datetime import timedelta
 
     journal = Journal(session, actor.login)

@@ -17,16 +17,18 @@ every event up to the newest checkpoint.
 from __future__ import annotations
 
 import hashlib
-from collections.abc import Iterator
+import hmac
+from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
 from datetime import UTC, date, datetime
+from operator import itemgetter
 from typing import Any, TypeVar
 
 from sqlalchemy import Float, text
 from sqlmodel import Session, select
 
-from ledger.canonical import canonical
+from ledger.canonical import Template, canonical
 from ledger.errors import InputError, RefusedError
 from ledger.store.sitekey import SiteKey
 from ledger.store.tables import RECORDS, AuditEvent, AuditHead, Recorded, entity_of, primary_key
@@ -554,3 +556,117 @@ def key_new_chain(session: Session, key: SiteKey) -> None:
     head.key_id, head.mac = key.key_id, head_mac(key, 0, head.hash)
     session.add(head)
     session.flush()
+
+
+# Bulk writing (import-logbook): the rows and events Journal.create writes, without an ORM
+# object, a Core statement or a json.dumps of the whole content per row.
+
+
+class StoredRows:
+    """Rows of ``table`` inserted by the driver's executemany, each value in the storage form
+    a Core insert gives it: the column type's own bind processor for the connection's dialect
+    (once for the columns in ``fixed``, per row for the others), under the SQL that Core
+    compiles for the table, with its bind casts. Every column must be given: no defaults."""
+
+    def __init__(self, conn: Any, table: Any, names: Sequence[str], fixed: dict[str, Any]) -> None:
+        from sqlalchemy import insert
+
+        dialect = conn.dialect
+        self.conn = conn
+        given = [*names, *fixed]
+        columns = {c.name: c for c in table.columns}
+        if sorted(given) != sorted(columns):
+            raise ValueError(f"{table.name}: give every column once, got {sorted(given)}")
+
+        def processor(name: str) -> Any:
+            return columns[name].type.dialect_impl(dialect).bind_processor(dialect)
+
+        self._convert = [(i, p) for i, n in enumerate(names) if (p := processor(n)) is not None]
+        self._fixed = [p(v) if (p := processor(n)) is not None else v for n, v in fixed.items()]
+        compiled = insert(table).compile(dialect=dialect, column_keys=given)
+        self.sql = compiled.string
+        position = {n: i for i, n in enumerate(given)}
+        self._keys = (
+            list(compiled.positiontup or []) if compiled.positional else list(compiled.binds)
+        )
+        if sorted(self._keys) != sorted(given):
+            raise ValueError(f"{table.name}: the compiled insert binds {self._keys}")
+        self._pick = itemgetter(*(position[k] for k in self._keys))
+        self._named = not compiled.positional
+
+    def stored(self, values: list[Any]) -> Any:
+        """One row's parameters from its ``values`` (Python values, in ``names`` order; the
+        list is changed)."""
+        for i, convert in self._convert:
+            values[i] = convert(values[i])
+        values += self._fixed
+        row = self._pick(values)
+        return dict(zip(self._keys, row, strict=True)) if self._named else row
+
+    def insert(self, rows: list[Any]) -> None:
+        """Insert ``rows`` (from ``stored``) with one executemany."""
+        if rows:
+            self.conn.exec_driver_sql(self.sql, rows)
+
+
+def _digester(key: SiteKey | None) -> Callable[[bytes], str]:
+    """``key.mac`` (or SHA-256 for a chain not yet keyed), with the key's HMAC state set up
+    once: HMAC(k, m) is the keyed state for k updated with m, so a copy of it gives the same
+    digest as ``hmac.new(k, m, sha256)``."""
+    if key is None:
+        return lambda payload: hashlib.sha256(payload).hexdigest()
+    keyed = hmac.new(key.secret, digestmod=hashlib.sha256)
+
+    def mac(payload: bytes) -> str:
+        h = keyed.copy()
+        h.update(payload)
+        return h.hexdigest()
+
+    return mac
+
+
+class CreateEvents:
+    """``create`` events for many records of one entity, appended to the chain as
+    ``Journal.create`` appends them: the same columns, canonical JSON and digest as
+    ``event_hash`` (HMAC-SHA-256 under the site key), each linked to the one before, made from
+    a template rather than an AuditEvent per event. ``add`` makes one event's row; ``close``
+    moves the chain head. tests/store/test_audit_bulk.py compares them with Journal.create's.
+    """
+
+    def __init__(
+        self, session: Session, head: AuditHead, *, entity: str, actor: str, at: datetime
+    ) -> None:
+        self.session = session
+        self.head = head
+        self.key = chain_key(session, head)
+        self.seq, self.prev = head.seq, head.hash
+        fixed = {"at": at, "actor": actor, "action": "create", "entity": entity, "field": None,
+                 "old_value": None, "reason": None}  # fmt: skip
+        varying = ("seq", "entity_id", "module_id", "new_value", "record_hash", "prev_hash")
+        hashed = {c.name for c in _EVENT_TABLE.columns} - {"hash"}
+        if hashed != {*fixed, *varying}:
+            raise RuntimeError("audit_event has columns CreateEvents does not fill")
+        self._payload = Template({k: _encode(v) for k, v in fixed.items()}, varying)
+        self._sorted = itemgetter(*(varying.index(n) for n in self._payload.names))
+        self._mac = _digester(self.key)
+        self.rows = StoredRows(session.connection(), _EVENT_TABLE, [*varying, "hash"], fixed)
+
+    def add(self, entity_id: str, module_id: int | None, new_value: str, record_hash: str) -> Any:
+        """The next event's parameters (for ``self.rows.insert``): the creation of record
+        ``entity_id`` with content ``new_value`` (canonical JSON) and hash ``record_hash``."""
+        seq, prev = self.seq + 1, self.prev
+        varying = (seq, entity_id, module_id, new_value, record_hash, prev)
+        digest = self._mac(self._payload.dumps(self._sorted(varying)).encode())
+        self.seq, self.prev = seq, digest
+        return self.rows.stored([seq, entity_id, module_id, new_value, record_hash, prev, digest])
+
+    def close(self) -> None:
+        """Move the chain head to the last event added (and its MAC under the key)."""
+        from sqlalchemy import update
+
+        head: Any = AuditHead.__table__  # type: ignore[attr-defined]
+        mac = head_mac(self.key, self.seq, self.prev) if self.key is not None else None
+        self.session.connection().execute(
+            update(head).where(head.c.id == 1).values(seq=self.seq, hash=self.prev, mac=mac)
+        )
+        self.session.expire(self.head)

@@ -17,7 +17,7 @@ from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
 HERE = Path(__file__).resolve().parent
 # Modules of ledger.web that hold pages; each has ``routes``.
-PAGES = ("signin", "fleet", "modules")
+PAGES = ("signin", "fleet", "modules", "module_forms", "runs", "review", "audit", "users")
 MAX_BODY_BYTES = 20 * 1024 * 1024  # a 24 h, 1 Hz skid log of ten channels is ~8 MB
 CSP = (
     "default-src 'self'; script-src 'self'; style-src 'self'; img-src 'self' data:; "

@@ -53,7 +53,45 @@ async def sign_in(v: Visit) -> Response:
         return v.page("signin.html", 403, next=target, idle=False, errors=errors, login=login)
     v.sign_in(user.login)
     v.role, v.full_name = user.role, user.full_name
-    return v.json({"signed_in": user.login}) if v.wants_json() else v.redirect(target)
+    if v.wants_json():
+        return v.json({"signed_in": user.login, "password_temporary": user.password_temporary})
+    # Someone else set this password: nothing can be written until the user chooses their own.
+    return v.redirect("/password?temporary=1" if user.password_temporary else target)
+
+
+@endpoint
+async def password_page(v: Visit) -> Response:
+    """GET /password: the form to choose one's own password."""
+    v.require_user()
+    temporary = v.request.query_params.get("temporary") == "1"
+    return v.page("password.html", errors={}, temporary=temporary, done=False)
+
+
+@endpoint
+async def change_password(v: Visit) -> Response:
+    """POST /password: the current password again, the new one twice."""
+    from ledger.logbook.workspace import change_password_signed_in
+
+    login = v.require_user()
+    form = await v.form()
+    current, new, again = (form.get(k, "") for k in ("current", "new", "again"))
+    errors: dict[str, str] = {}
+    if new != again:
+        errors["again"] = "the two new passwords differ; type the same one twice"
+    else:
+        try:
+            await run_in_threadpool(change_password_signed_in, v.app.engine, login, current, new)
+        except LedgerError as err:
+            name = "new" if err.field == "new" else "current"
+            errors[name] = str(err)
+    if errors:
+        if v.wants_json():
+            field, message = next(iter(errors.items()))
+            return v.json({"error": message, "field": field}, 400)
+        return v.page("password.html", 400, errors=errors, temporary=False, done=False)
+    if v.wants_json():
+        return v.json({"changed": login})
+    return v.page("password.html", errors={}, temporary=False, done=True)
 
 
 @endpoint
@@ -82,4 +120,6 @@ routes = [
     Route("/sign-in", sign_in_page, methods=["GET"]),
     Route("/sign-in", sign_in, methods=["POST"]),
     Route("/sign-out", sign_out, methods=["POST"]),
+    Route("/password", password_page, methods=["GET"]),
+    Route("/password", change_password, methods=["POST"]),
 ]

@@ -7,7 +7,9 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
+from sqlmodel import Session, select
 
+from ledger.store.tables import WaterFluxTest
 from tests.logbook.test_import_logbook import ROWS, _files
 from tests.world import Result, World
 
@@ -82,3 +84,35 @@ def test_a_unit_of_the_wrong_kind_in_the_mapping_exits_2(world: World, tmp_path:
     mapping.write_text(text)
     r = _run(world, sheet, mapping)
     assert r.code == 2 and "columns.feed.unit" in r.stderr
+
+
+def test_an_imported_row_computes_what_the_typed_command_stores(
+    world: World, tmp_path: Path
+) -> None:
+    """The same readings typed (`test water`, module QMB-0142, through its status machine)
+    and imported (QMB-0143): the same SI inputs, TMP, flux, NWP, resistance, recovery and
+    verdict, float for float."""
+    world.ready("QMB-0142")  # typed baseline: 3.2 / 2.8 psi, 170 mL/min, 20 degC
+    world.ok(world.as_user("op.kim", "use", "start", "QMB-0142", "--product", "QB-117",
+                           "--lot", "QB117-26-014"))  # fmt: skip
+    world.ok(world.as_user("op.kim", "use", "end", "QMB-0142"))
+    world.ok(world.water("QMB-0142", "post-use", "95.5 mL/min"))
+    world.add_module("QMB-0143")
+    rows = [("QMB-0143", "2026-03-02T09:00+01:00", "baseline", 3.2, 2.8, 170.0, 20.0),
+            ("QMB-0143", "2026-03-09T09:00+01:00", "post-use", 3.2, 2.8, 95.5, 20.0)]  # fmt: skip
+    mapping, sheet = _files(tmp_path, rows)  # type: ignore[arg-type]
+    world.ok(_run(world, sheet, mapping))
+    assert world.cli("audit", "verify").code == 0
+    same = ("stage", "temperature_k", "reference_temperature_k", "points", "tmp_pa",
+            "flux_m_s", "nwp_m_s_pa", "resistance_per_m", "recovery", "verdict", "method",
+            "intercept_m_s", "r_squared")  # fmt: skip
+    with Session(world.engine()) as s:
+        tests = s.exec(select(WaterFluxTest).order_by(WaterFluxTest.id)).all()  # type: ignore[arg-type]
+        typed = [t for t in tests if t.module_id == tests[0].module_id]
+        imported = [t for t in tests if t.module_id != tests[0].module_id]
+        assert [t.stage for t in typed] == [t.stage for t in imported] == ["baseline", "post_use"]
+        for a, b in zip(typed, imported, strict=True):
+            assert {k: getattr(a, k) for k in same} == {k: getattr(b, k) for k in same}
+        # same pressures and temperature: recovery is the flow ratio, by hand
+        assert imported[1].recovery == pytest.approx(95.5 / 170.0, rel=1e-12)
+        assert imported[1].baseline_test_id == imported[0].id

@@ -60,6 +60,7 @@ def test_cli_json_lists_products_and_inputs() -> None:
     assert result.code == 0, result
     out = result.json()
     by_id = {t["id"]: t for t in out["templates"]}
+    stock = pint.UnitRegistry()  # built once: a registry takes most of a second to build
     for entry in template.catalogue():
         row = by_id[entry.id]
         assert row["product"] == entry.product and row["version"] == entry.version
@@ -75,7 +76,7 @@ def test_cli_json_lists_products_and_inputs() -> None:
             else:  # a quantity in its display unit, as DEVELOPERS.md asks of JSON
                 assert shown["default"]["unit"] == info.unit
                 # Read back by a stock pint registry, as any JSON consumer would.
-                q = pint.UnitRegistry().Quantity(shown["default"]["value"], info.unit)
+                q = stock.Quantity(shown["default"]["value"], info.unit)
                 assert q.to_base_units().magnitude == pytest.approx(info.default, rel=1e-9)
 
 

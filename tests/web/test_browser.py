@@ -4,45 +4,8 @@ when no Chromium is installed; CI installs it first (.ci/run)."""
 
 from __future__ import annotations
 
-import shutil
-import socket
-import threading
-import time
-from collections.abc import Iterator
-
-import pytest
-
+from tests.web.conftest import CHROMIUM
 from tests.world import PASSWORDS, World
-
-pytestmark = pytest.mark.sqlite_only
-CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
-
-
-@pytest.fixture
-def served(sqlite_world: World) -> Iterator[tuple[str, World]]:
-    if CHROMIUM is None:
-        pytest.skip("no Chromium found (apt-get install -y chromium): browser tests skipped")
-    import uvicorn
-
-    from ledger.web.app import create_app
-
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        port = s.getsockname()[1]
-    server = uvicorn.Server(
-        uvicorn.Config(create_app(sqlite_world.url), host="127.0.0.1", port=port,
-                       log_level="warning")
-    )  # fmt: skip
-    thread = threading.Thread(target=server.run, daemon=True)
-    thread.start()
-    deadline = time.monotonic() + 10
-    while not server.started and time.monotonic() < deadline:
-        time.sleep(0.05)
-    try:
-        yield f"http://127.0.0.1:{port}", sqlite_world
-    finally:
-        server.should_exit = True
-        thread.join(5)
 
 
 def test_an_engineer_signs_in_and_sees_the_fleet_and_a_history(served: tuple[str, World]) -> None:

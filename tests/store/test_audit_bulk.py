@@ -1,0 +1,208 @@
+"""Bulk writing of records and their audit events (import-logbook): byte for byte what the
+one-record path writes.
+
+``canonical``, ``member`` and ``Template`` against the stdlib call canonical JSON is defined
+by (``json.dumps(obj, sort_keys=True, separators=(",", ":"), ensure_ascii=False,
+allow_nan=False)``) over random values (hypothesis); the bulk path's rows, events and chain
+head against ``Journal.create``'s for the same rows, on SQLite and PostgreSQL, and ``audit
+verify`` after it. Serials and values are invented.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import hmac
+import json
+import math
+from datetime import UTC, datetime, timedelta
+from typing import Any
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from sqlmodel import Session, select
+
+import ledger.logbook.import_logbook as importer
+from ledger.canonical import NotCanonicalError, Template, canonical, member
+from ledger.logbook.auth import find_user
+from ledger.logbook.import_logbook import SheetRows, import_rows
+from ledger.store.audit import GENESIS, Journal, _digester, verify
+from ledger.store.sitekey import SiteKey
+from ledger.store.tables import AuditHead, IntegrityTest, WaterFluxTest
+from tests.world import World
+
+PSI = 6894.757293168361  # Pa, NIST SP 811 (1 lbf/in² = 6.894757293168 kPa)
+ML_MIN = 1e-6 / 60  # m³/s
+CLOCK = datetime(2026, 4, 1, 7, 45, 30, 250001, tzinfo=UTC)
+
+
+def stdlib(obj: Any) -> str:
+    """Canonical JSON as its definition spells it: the stdlib's json.dumps with these options."""
+    return json.dumps(obj, sort_keys=True, separators=(",", ":"), ensure_ascii=False,
+                      allow_nan=False)  # fmt: skip
+
+
+keys = st.text(max_size=12)  # any text: quotes, backslashes, %, control characters, non-ASCII
+scalars = (
+    st.none() | st.booleans() | st.integers(min_value=-(2**70), max_value=2**70)
+    | st.floats(allow_nan=False, allow_infinity=False) | st.text(max_size=30)
+)  # fmt: skip
+values = st.recursive(
+    scalars,
+    lambda inner: st.lists(inner, max_size=4) | st.dictionaries(keys, inner, max_size=4),
+    max_leaves=12,
+)
+
+
+@settings(max_examples=400, deadline=None)
+@given(value=values)
+def test_canonical_and_member_equal_the_stdlib_definition(value: Any) -> None:
+    assert canonical(value) == stdlib(value)
+    assert member(value) == stdlib(value)
+
+
+@settings(max_examples=150, deadline=None)
+@given(fixed=st.dictionaries(keys, values, max_size=6), varying=st.dictionaries(keys, values,
+       max_size=6))  # fmt: skip
+def test_a_template_gives_the_canonical_json_of_the_whole_dict(
+    fixed: dict[str, Any], varying: dict[str, Any]
+) -> None:
+    fixed = {k: v for k, v in fixed.items() if k not in varying}
+    template = Template(fixed, varying)
+    assert list(template.names) == sorted(varying)
+    shown = template.dumps([varying[k] for k in template.names])
+    assert shown == stdlib({**fixed, **varying})
+    assert json.loads(shown) == json.loads(stdlib({**fixed, **varying}))
+
+
+@pytest.mark.parametrize("bad", [math.nan, math.inf, -math.inf])
+def test_a_template_refuses_nan_and_infinity_naming_the_key(bad: float) -> None:
+    template = Template({"stage": "baseline"}, ["nwp_m_s_pa", "points"])
+    with pytest.raises(NotCanonicalError) as whole:
+        canonical({"stage": "baseline", "nwp_m_s_pa": bad, "points": []})
+    with pytest.raises(NotCanonicalError) as fast:
+        template.dumps([bad, []])
+    assert str(fast.value) == str(whole.value) and fast.value.path == "$.nwp_m_s_pa"
+    with pytest.raises(NotCanonicalError) as nested:
+        template.dumps([1.0, [{"feed_pa": bad}]])
+    assert nested.value.path == "$.points[0].feed_pa"
+
+
+def test_the_digester_is_hmac_sha256_under_the_key() -> None:
+    key = SiteKey(bytes(range(32)), "test")
+    mac = _digester(key)
+    for payload in (b"", b"{}", "µ".encode() * 500):
+        # RFC 2104 HMAC through the stdlib, and the key's own mac, for each payload in turn
+        assert mac(payload) == hmac.new(bytes(range(32)), payload, "sha256").hexdigest()
+        assert mac(payload) == key.mac(payload)
+    assert _digester(None)(b"x") == hashlib.sha256(b"x").hexdigest()
+
+
+def _sheet(kind: str) -> SheetRows:
+    """Rows as the mapping entry hands them over (SI): two modules' histories with notes that
+    need escaping, a water grade, rows with and without their entered text."""
+    sheet = SheetRows(kind, "bulk-test")
+    start = datetime(2026, 3, 2, 8, 0, tzinfo=UTC)
+    notes = [None, 'binder "B" p. 4 — 100% µ\\', "two\tcells", None, "{ok}", None]
+    if kind == "water_flux":
+        stages = ["baseline", "post-use", "post-clean", "pre-use", "baseline", "post-use"]
+        flows = [170.0, 95.0, 163.0, 160.5, 200.0, 110.25]
+        sheet.quantities = {"feed": [], "retentate": [], "flow": [], "temperature": []}
+        sheet.texts = {"serial": [], "stage": [], "note": [], "water_grade": []}
+        for j, (stage, q) in enumerate(zip(stages, flows, strict=True)):
+            sheet.texts["stage"].append(stage)
+            sheet.texts["water_grade"].append("WFI" if j % 2 else None)
+            sheet.quantities["feed"].append(3.2 * PSI)
+            sheet.quantities["retentate"].append(2.8 * PSI)
+            sheet.quantities["flow"].append(q * ML_MIN)
+            sheet.quantities["temperature"].append(291.65 + j)
+            sheet.entered.append({"flow": f"{q} mL/min"} if j % 3 else {})
+    else:
+        sheet.quantities = {"start": [], "end": [], "hold_time": []}
+        sheet.texts = {"serial": [], "note": []}
+        for j in range(6):
+            sheet.quantities["start"].append(15 * PSI)
+            sheet.quantities["end"].append((14.99 - 0.3 * j) * PSI)
+            sheet.quantities["hold_time"].append(300.0)
+            sheet.entered.append({"end": f"{14.99 - 0.3 * j:.2f} psi"} if j % 2 else {})
+    for j in range(6):
+        sheet.rows.append(j + 2)
+        sheet.at.append(start + timedelta(days=j))
+        sheet.texts["serial"].append("QMB-0142" if j < 4 else "QMB-0143")
+        sheet.texts["note"].append(notes[j])
+    return sheet
+
+
+def _one_by_one(ids: list[int]) -> Any:
+    """import_logbook._write as the one-record path: an ORM record per row through
+    Journal.create, under the ids the bulk path gave them."""
+
+    def write(session: Session, actor: Any, head: Any, sheet: SheetRows, accepted: Any,
+              at: datetime, result: Any, progress: Any) -> None:  # fmt: skip
+        cls: Any = WaterFluxTest if sheet.kind == "water_flux" else IntegrityTest
+        journal = Journal(session, actor.login, at)
+        for k, ((i, m, version, values), new_id) in enumerate(zip(accepted, ids, strict=True)):
+            assert k == ids.index(new_id)
+            if values.get("baseline_test_id") is not None and values["baseline_test_id"] < 0:
+                values["baseline_test_id"] = ids[-values["baseline_test_id"] - 1]
+            record = cls(**values, id=new_id, module_id=m.module.id, activity_at=sheet.at[i],
+                         late=True, limits_version_id=version,
+                         method_version=f"fluxledger {importer.__version__}",
+                         entered=sheet.entered[i] or None)  # fmt: skip
+            journal.create(record, module_id=m.module.id)
+        result.written = len(accepted)
+
+    return write
+
+
+def _stored(session: Session, table: str, first_id: int, seq: int) -> dict[str, list[Any]]:
+    """The rows as the database holds them: every column as the driver reads it (SQLite), or
+    each row's text form (PostgreSQL)."""
+    conn = session.connection()
+    pg = conn.dialect.name == "postgresql"
+
+    def rows(name: str, where: str, key: str, since: int) -> list[Any]:
+        what = "CAST(t AS text)" if pg else "*"
+        mark = "%(x)s" if pg else ":x"
+        sql = f"SELECT {what} FROM {name} t WHERE {where} >= {mark} ORDER BY {key}"
+        return [tuple(r) for r in conn.exec_driver_sql(sql.replace(":x", "?"), {"x": since}
+                                                       if pg else (since,))]  # fmt: skip
+
+    return {
+        table: rows(table, "id", "id", first_id),
+        "audit_event": rows("audit_event", "seq", "seq", seq + 1),
+        "audit_head": rows("audit_head", "id", "id", 1),
+    }
+
+
+@pytest.mark.parametrize("kind", ["water_flux", "pressure_decay"])
+def test_bulk_rows_and_events_equal_journal_create_and_verify(
+    world: World, kind: str, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    world.add_module("QMB-0142")
+    world.add_module("QMB-0143")
+    monkeypatch.setattr(importer, "_now", lambda: CLOCK)
+    table = "water_flux_test" if kind == "water_flux" else "integrity_test"
+    found: list[dict[str, list[Any]]] = []
+    ids: list[int] = []
+    for write in ("bulk", "one by one"):
+        if write == "one by one":
+            monkeypatch.setattr(importer, "_write", _one_by_one(ids))
+        with Session(world.engine()) as s:
+            head = s.exec(select(AuditHead)).one()
+            seq, chained = head.seq, head.hash
+            actor = find_user(s, "op.kim")
+            assert actor is not None
+            result = import_rows(s, actor, _sheet(kind))
+            assert result.written == 6 and not result.rejected
+            if write == "bulk":
+                assert result.first_id is not None and result.last_id is not None
+                ids = list(range(result.first_id, result.last_id + 1))
+            found.append(_stored(s, table, ids[0], seq))
+            check = verify(s)
+            assert check.ok, check.problems
+            s.rollback()
+    bulk, one = found
+    assert len(bulk[table]) == 6 and len(bulk["audit_event"]) == 6
+    assert bulk == one
+    assert chained != GENESIS  # the world's chain has events before the import's
