@@ -126,6 +126,27 @@ def pytest_xdist_make_scheduler(config: pytest.Config, log: object) -> object:
     return SharedBuilds(config, log)
 
 
+def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
+    """Files holding a test marked ``slow`` run first, a shared build's files ahead of the
+    others; every file keeps its tests together and in order (a module-scoped build is made
+    once). Under xdist, a long test that starts last keeps one worker busy after the other
+    has run out of work."""
+
+    def group(item: pytest.Item) -> str:
+        path = item.nodeid.split("::", 1)[0]
+        return SHARED_BUILDS.get(path, path)
+
+    slow = {group(item) for item in items if item.get_closest_marker("slow")}
+
+    def rank(item: pytest.Item) -> int:
+        name = group(item)
+        if name not in slow:
+            return 2
+        return 0 if name in SHARED_BUILDS.values() else 1
+
+    items.sort(key=rank)  # stable: the collection's order within each rank
+
+
 def pytest_generate_tests(metafunc: pytest.Metafunc) -> None:
     """``backend`` is both databases, or SQLite alone for a test marked ``sqlite_only``."""
     if "backend" in metafunc.fixturenames:

@@ -11,7 +11,8 @@ which are added later and each carry the hash of the revision they sign.
 from __future__ import annotations
 
 import hashlib
-from dataclasses import asdict, dataclass, field, fields, is_dataclass
+from dataclasses import dataclass, field, fields, is_dataclass
+from functools import cache
 from typing import Any, TypeVar, get_args, get_origin, get_type_hints
 
 from ledger.canonical import canonical
@@ -352,7 +353,8 @@ def content_sha256(content: dict[str, Any]) -> str:
 def to_record(obj: Any) -> Any:
     """Plain JSON values (tuples become lists)."""
     if is_dataclass(obj) and not isinstance(obj, type):
-        return {k: to_record(v) for k, v in asdict(obj).items()}
+        # Field by field rather than asdict(), which deep-copies the whole tree first.
+        return {f.name: to_record(getattr(obj, f.name)) for f in fields(obj)}
     if isinstance(obj, dict):
         return {k: to_record(v) for k, v in obj.items()}
     if isinstance(obj, list | tuple):
@@ -369,12 +371,18 @@ def from_record(cls: type[T], data: Any) -> T:
     return built
 
 
+@cache
+def _hints(tp: type) -> dict[str, Any]:
+    """The resolved field types of a dataclass (resolving them is slow; they never change)."""
+    return get_type_hints(tp)
+
+
 def _build(tp: Any, data: Any) -> Any:
     if data is None:
         return None
     origin = get_origin(tp)
     if is_dataclass(tp) and isinstance(tp, type):
-        hints = get_type_hints(tp)
+        hints = _hints(tp)
         return tp(**{f.name: _build(hints[f.name], data[f.name]) for f in fields(tp)
                      if f.name in data})  # fmt: skip
     if origin is tuple:

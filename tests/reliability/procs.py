@@ -14,7 +14,7 @@ import os
 import sys
 import traceback
 from collections import Counter
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from typing import Any
 
 PSI = 6894.757293168  # Pa per psi (NIST SP 811)
@@ -62,6 +62,12 @@ def context() -> Any:
         ctx = multiprocessing.get_context("forkserver")
         os.environ["_FL_PRELOAD"] = "1"  # read by this module as the server imports it
         ctx.set_forkserver_preload(["tests.reliability.procs"])
+        # The server started and its imports done now (one child that does nothing), not in the
+        # first real child's start: a crash test times an uninterrupted run to choose its kill
+        # delays from, and the first one would count the second or so of imports.
+        warm = ctx.Process(target=os.getpid)
+        warm.start()
+        warm.join(timeout=120)
         _context = ctx
     return _context
 
@@ -77,8 +83,46 @@ def _cheap_hashes() -> Iterator[None]:
 # --- A CLI command in a child ----------------------------------------------------------------
 
 
-def run_cli(argv: list[str], stdin_path: str | None, out_path: str) -> None:
-    """Run ``fluxledger ARGV`` here, as the console script would; stdout/stderr to a file."""
+# Statements that change the database file: the first one marks where a command's writing
+# begins (what comes before it, the start-up, sign-in and reads, leaves nothing to damage).
+WRITES = ("INSERT", "UPDATE", "DELETE", "CREATE", "ALTER", "DROP")
+
+
+def _trace_writes(trace_path: str) -> Callable[[], None]:
+    """Note in ``trace_path`` when this process first writes to a database (at once) and, by
+    the function returned, when it ended (JSON, s on the system-wide monotonic clock of
+    ``time.perf_counter``)."""
+    import json
+    import time
+
+    from sqlalchemy import event
+    from sqlalchemy.engine import Engine
+
+    seen: dict[str, float] = {}
+
+    def _save() -> None:
+        with open(trace_path, "w") as f:
+            json.dump(seen, f)
+
+    @event.listens_for(Engine, "before_cursor_execute")
+    def _first_write(*args: Any) -> None:
+        statement = str(args[2]).lstrip().upper()
+        if "first_write" not in seen and statement.startswith(WRITES):
+            seen["first_write"] = time.perf_counter()
+            _save()  # at once: a killed child has told whether it had begun writing
+
+    def _end() -> None:
+        seen["end"] = time.perf_counter()
+        _save()
+
+    return _end
+
+
+def run_cli(argv: list[str], stdin_path: str | None, out_path: str,
+            trace_path: str | None = None) -> None:  # fmt: skip
+    """Run ``fluxledger ARGV`` here, as the console script would; stdout/stderr to a file;
+    with ``trace_path``, note when it first wrote to the database (``_trace_writes``)."""
+    save_trace = _trace_writes(trace_path) if trace_path is not None else None
     fd = os.open(out_path, os.O_WRONLY | os.O_CREAT | os.O_TRUNC, 0o600)
     os.dup2(fd, 1)
     os.dup2(fd, 2)
@@ -100,6 +144,8 @@ def run_cli(argv: list[str], stdin_path: str | None, out_path: str) -> None:
             code = 1
     sys.stdout.flush()
     sys.stderr.flush()
+    if save_trace is not None:
+        save_trace()
     os._exit(code)
 
 

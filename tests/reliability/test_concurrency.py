@@ -10,6 +10,7 @@ from __future__ import annotations
 from collections import Counter
 from typing import Any
 
+import pytest
 from sqlalchemy import func, select
 from sqlmodel import Session
 
@@ -61,6 +62,7 @@ def _rows(w: World) -> dict[tuple[str, str], int]:
     return out
 
 
+@pytest.mark.slow
 def test_eight_writers_lose_nothing_and_see_no_error(fleet_world: World) -> None:
     w = fleet_world
     ctx = procs.context()

@@ -1,8 +1,9 @@
-"""SIGKILL in the middle of a command, 50 times: a skid-log import, a batch-record print, a
-signature and `init`, each killed after a seeded random delay (up to the time the same command
-took uninterrupted). After each kill the SQLite file passes `PRAGMA integrity_check`, the
-audit chain verifies, no record stands without its audit event, no half-written PDF carries
-the final name, and the same command run again completes.
+"""SIGKILL in the middle of a command: a skid-log import, a batch-record print, a signature and
+`init`, each killed eight times after a seeded random delay, two of them before the command's
+first database write and six from it to the end (the uninterrupted run, traced, says when it
+began writing and how long it took). After each kill the SQLite file passes
+`PRAGMA integrity_check`, the audit chain verifies, no record stands without its audit event, no
+half-written PDF carries the final name, and the same command run again completes.
 
 The commands run in child processes forked from a server that has imported the CLI
 (tests/reliability/procs.py), so a trial costs the command's own work and not a second of
@@ -18,6 +19,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import pytest
 from sqlalchemy import select, text
 from sqlmodel import Session
 
@@ -29,7 +31,10 @@ from tests.cli.test_runs import MAPPING
 from tests.reliability import procs
 from tests.world import PASSWORDS, World
 
+pytestmark = pytest.mark.slow
+
 SEED = 20261203
+KILLS = 8  # killed runs of each command: 2 before its first write, 6 from it to the end
 CREATED = text("SELECT entity_id FROM audit_event WHERE entity = :e AND action = 'create'")
 
 
@@ -38,6 +43,10 @@ class Child:
     code: int | None
     output: str
     seconds: float
+    # When traced, s after the start: its first database write (None: none) and its end (None:
+    # killed first).
+    first_write: float | None = None
+    ended: float | None = None
 
 
 @dataclass
@@ -45,21 +54,35 @@ class Tally:
     """What the trials of one command saw, for the assertion messages."""
 
     killed: int = 0  # killed before it ended
+    killed_writing: int = 0  # of those, killed after its first write (the message says)
     finished: int = 0  # ended before the kill came
     notes: list[str] = field(default_factory=list)
 
+    def add(self, killed: Child) -> None:
+        if killed.code is None:
+            self.killed += 1
+            self.killed_writing += killed.first_write is not None
+        else:
+            self.finished += 1
 
-def run(tmp: Path, argv: list[str], stdin: str | None = None, kill_after: float | None = None
-        ) -> Child:  # fmt: skip
-    """Run ``fluxledger ARGV`` in a child; SIGKILL it after ``kill_after`` seconds if given."""
+
+def run(tmp: Path, argv: list[str], stdin: str | None = None, kill_after: float | None = None,
+        trace: bool = False) -> Child:  # fmt: skip
+    """Run ``fluxledger ARGV`` in a child; SIGKILL it after ``kill_after`` seconds if given;
+    with ``trace``, note when it first wrote to the database."""
+    import json
+
     ctx = procs.context()
     out = tmp / "child.out"
     stdin_path = None
     if stdin is not None:
         stdin_path = tmp / "child.in"
         stdin_path.write_text(stdin)
-    p = ctx.Process(target=procs.run_cli, args=(argv, str(stdin_path) if stdin_path else None,
-                                                str(out)))  # fmt: skip
+    traced = tmp / "child.trace.json"
+    traced.unlink(missing_ok=True)
+    args = (argv, str(stdin_path) if stdin_path else None, str(out),
+            str(traced) if trace else None)  # fmt: skip
+    p = ctx.Process(target=procs.run_cli, args=args)
     t0 = time.perf_counter()
     p.start()
     if kill_after is not None:
@@ -70,7 +93,40 @@ def run(tmp: Path, argv: list[str], stdin: str | None = None, kill_after: float 
     seconds = time.perf_counter() - t0
     assert p.exitcode is not None, "the child did not end"
     code = None if p.exitcode == -9 else p.exitcode
-    return Child(code, out.read_text() if out.exists() else "", seconds)
+    first_write = ended = None
+    if trace:  # the child's clock is the parent's (CLOCK_MONOTONIC, system-wide)
+        try:
+            noted = json.loads(traced.read_text())
+        except (OSError, ValueError):  # none yet, or cut short by the kill
+            noted = {}
+        first_write = noted["first_write"] - t0 if "first_write" in noted else None
+        ended = noted["end"] - t0 if "end" in noted else None
+    return Child(code, out.read_text() if out.exists() else "", seconds, first_write, ended)
+
+
+def kill_delay(rng: random.Random, i: int, n: int, like: Child, before: int = 2) -> float:
+    """The delay to kill trial ``i`` of ``n`` after: the first ``before`` trials are spread
+    over the start-up, sign-in and reads that come before the command's first write, the rest
+    over the writing to its end, each seeded-random within its own equal slice of its phase.
+    ``like`` is the latest traced uninterrupted run of the command (the machine's load changes
+    how long a run takes).
+
+    Most of a command's time is spent before it writes (for an import, reading the log: 95 %
+    of it), so delays drawn over the whole run would mostly land where a kill can damage
+    nothing, and the writes themselves would go untried.
+    """
+    assert like.first_write is not None and like.ended is not None, like
+    if i < before:
+        return rng.uniform(like.first_write * i / before, like.first_write * (i + 1) / before)
+    slices = n - before
+    assert i - before < slices
+    span = (like.ended - like.first_write) / slices
+    return like.first_write + span * rng.uniform(i - before, i - before + 1)
+
+
+def _timing(latest: Child, again: Child) -> Child:
+    """``again`` as the timing reference if it is a traced run that wrote and ended."""
+    return again if again.first_write is not None and again.ended is not None else latest
 
 
 def check_database(db: Path) -> None:
@@ -104,22 +160,21 @@ def trials(
     fresh: Callable[[int], tuple[list[str], str | None]],
     after: Callable[[int, Child, Child], None],
 ) -> Tally:
-    """Calibrate on one uninterrupted run, then ``n`` killed runs each followed by the checks
-    and a run to completion; ``fresh(i)`` prepares trial i and returns the command."""
+    """Calibrate on one uninterrupted run, then ``n`` killed runs (``kill_delays``) each
+    followed by the checks and a run to completion; ``fresh(i)`` prepares trial i and returns
+    the command."""
     rng = random.Random(seed)
     argv, stdin = fresh(-1)
-    whole = run(tmp, argv, stdin)
+    latest = whole = run(tmp, argv, stdin, trace=True)
     assert whole.code == 0, whole.output
     tally = Tally()
     for i in range(n):
         argv, stdin = fresh(i)
-        killed = run(tmp, argv, stdin, kill_after=rng.uniform(0.0, whole.seconds))
-        if killed.code is None:
-            tally.killed += 1
-        else:
-            tally.finished += 1
-        again = run(tmp, argv, stdin)
+        killed = run(tmp, argv, stdin, kill_after=kill_delay(rng, i, n, latest), trace=True)
+        tally.add(killed)
+        again = run(tmp, argv, stdin, trace=True)
         after(i, killed, again)
+        latest = _timing(latest, again)
     return tally
 
 
@@ -159,8 +214,8 @@ def test_killed_skid_log_imports(started_world: World, tmp_path: Path) -> None:
         check_database(dbs[i])
         assert _count(dbs[i], "SELECT count(*) FROM skid_log_file WHERE voided_at IS NULL") == 1
 
-    tally = trials(14, tmp_path, SEED, fresh, after)
-    assert tally.killed >= 7, tally
+    tally = trials(KILLS, tmp_path, SEED, fresh, after)
+    assert tally.killed >= KILLS // 2, tally
 
 
 def test_killed_record_prints(review_world: World, tmp_path: Path) -> None:
@@ -196,22 +251,23 @@ def test_killed_record_prints(review_world: World, tmp_path: Path) -> None:
     # The kill's own leftovers are looked at before the repeat overwrites the final name.
     rng = random.Random(SEED + 1)
     argv, _ = fresh(-1)
-    whole = run(tmp_path, argv, stdin)
+    whole = run(tmp_path, argv, stdin, trace=True)
     assert whole.code == 0, whole.output
     after(-1, whole, whole)
-    killed_count = 0
-    for i in range(12):
+    tally, latest = Tally(), whole
+    for i in range(KILLS):
         argv, _ = fresh(i)
-        killed = run(tmp_path, argv, stdin, kill_after=rng.uniform(0.0, whole.seconds))
+        killed = run(tmp_path, argv, stdin, kill_after=kill_delay(rng, i, KILLS, latest),
+                     trace=True)  # fmt: skip
         final = out / "BR-1.pdf"
-        if killed.code is None:
-            killed_count += 1
+        tally.add(killed)
         if final.exists():  # only ever the whole file, and a registered copy, under its name
             assert hashlib.sha256(final.read_bytes()).hexdigest() in registered()
         check_database(db)
-        again = run(tmp_path, argv, stdin)
+        again = run(tmp_path, argv, stdin, trace=True)
         after(i, killed, again)
-    assert killed_count >= 6, killed_count
+        latest = _timing(latest, again)
+    assert tally.killed >= KILLS // 2, tally
     # A temporary ".BR-1.pdf.*.part" may stay behind after SIGKILL; it never has the final name.
     assert all(f.name.startswith(".BR-1.pdf.") for f in out.iterdir() if f.name != "BR-1.pdf")
 
@@ -235,8 +291,8 @@ def test_killed_signatures(review_world: World, tmp_path: Path) -> None:
         assert _count(dbs[i], signed) == 1
         assert _count(dbs[i], "SELECT count(*) FROM record_revision WHERE run_id = 1") == 1
 
-    tally = trials(12, tmp_path, SEED + 2, fresh, after)
-    assert tally.killed >= 6, tally
+    tally = trials(KILLS, tmp_path, SEED + 2, fresh, after)
+    assert tally.killed >= KILLS // 2, tally
 
 
 def test_killed_inits(tmp_path: Path) -> None:
@@ -253,5 +309,5 @@ def test_killed_inits(tmp_path: Path) -> None:
         check_database(dbs[i])
         assert _count(dbs[i], "SELECT count(*) FROM user_account WHERE login = 'sysadm'") == 1
 
-    tally = trials(12, tmp_path, SEED + 3, fresh, after)
-    assert tally.killed >= 6, tally
+    tally = trials(KILLS, tmp_path, SEED + 3, fresh, after)
+    assert tally.killed >= KILLS // 2, tally

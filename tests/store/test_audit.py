@@ -393,4 +393,3 @@ def test_a_change_to_any_column_of_any_record_is_found(tested: World, tmp_path: 
     total = sum(1 for cls in RECORDS.values()
                 for c in cls.__table__.columns if not c.primary_key)  # type: ignore[attr-defined]  # fmt: skip
     assert checked + len(refused) == total
-    print("COUNTS", checked, sorted(str(c) for c in refused))

@@ -124,6 +124,7 @@ def test_json_round_trip_reproduces_every_row_and_verifies(source: World, tmp_pa
     _round_trip(source, f"sqlite:///{tmp_path}/copy.db", tmp_path)
 
 
+@pytest.mark.slow
 @pytest.mark.postgres
 def test_json_round_trip_on_postgresql(worlds: Worlds, tmp_path: Path) -> None:
     """Exported from PostgreSQL and loaded into a new PostgreSQL database (ids, sequences,

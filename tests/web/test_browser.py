@@ -4,6 +4,8 @@ when no Chromium is installed; CI installs it first (.ci/run)."""
 
 from __future__ import annotations
 
+from typing import Any
+
 from tests.web.conftest import CHROMIUM
 from tests.world import PASSWORDS, World
 
@@ -40,6 +42,35 @@ def test_an_engineer_signs_in_and_sees_the_fleet_and_a_history(served: tuple[str
                 page.close()
         finally:
             browser.close()
+
+
+def test_five_wrong_passwords_lock_the_account_for_the_browser_and_the_cli(
+    served: tuple[str, World], chromium: Any
+) -> None:
+    """Each wrong password is told beside the password box; the fifth locks the account (the
+    test world's lockout setting is 5), after which even the right password is refused, here
+    and on the CLI, until an administrator sets a new one."""
+    base, w = served
+    page = chromium.new_page(viewport={"width": 1024, "height": 768})
+    for attempt in range(1, 6):
+        page.goto(base + "/sign-in")
+        page.fill("#login", "op.kim")
+        page.fill("#password", f"not-it-{attempt}")
+        page.click("button.primary")
+        alert = page.locator("#password-error, #login-error")
+        alert.wait_for(timeout=10_000)
+        assert "password" in alert.inner_text().lower() or "locked" in alert.inner_text()
+    page.goto(base + "/sign-in")
+    page.fill("#login", "op.kim")
+    page.fill("#password", PASSWORDS["op.kim"])
+    page.click("button.primary")
+    refused = page.get_by_role("alert")
+    refused.wait_for(timeout=10_000)
+    assert "locked" in refused.inner_text()
+    assert page.url.startswith(base + "/sign-in")
+    cli = w.as_user("op.kim", "module", "add", "QMB-0999", "--type", "HF-750")
+    assert cli.code == 3 and "locked" in cli.stderr + cli.stdout
+    page.close()
 
 
 def test_wrong_password_shows_the_reason_beside_the_field(served: tuple[str, World]) -> None:
