@@ -35,6 +35,18 @@ def _cleaning(session: Session, c: Cleaning | None) -> CleaningResult | None:
     return CleaningResult(c.id or 0, c.activity_at, proc.code if proc else None, found)
 
 
+def type_limits(mtype: ModuleType) -> Limits:
+    """The limits of a module type (with its limits in force) as the fitness rules read them."""
+    return Limits(
+        mtype.recovery_min,
+        mtype.recovery_alert,
+        mtype.damage_ratio,
+        mtype.preuse_band,
+        mtype.reuse_limit_cycles,
+        mtype.storage_limit_s,
+    )
+
+
 def facts(
     session: Session, module: Module, product: str | None = None, now: datetime | None = None
 ) -> Facts:
@@ -56,14 +68,7 @@ def facts(
         serial=module.serial,
         status=module.status,
         cycles=latest.cycles(session, mid),
-        limits=Limits(
-            mtype.recovery_min,
-            mtype.recovery_alert,
-            mtype.damage_ratio,
-            mtype.preuse_band,
-            mtype.reuse_limit_cycles,
-            mtype.storage_limit_s,
-        ),
+        limits=type_limits(mtype),
         now=now or utc_now(),
         baseline=_water(latest.water(session, mid, "baseline")),
         last_use_at=use.activity_at if use is not None else None,

@@ -26,7 +26,7 @@ from sqlalchemy import select as core_select
 from sqlmodel import Session, col, select
 
 from ledger.logbook import typelimits
-from ledger.logbook.fitness import facts
+from ledger.logbook.fitness import facts, type_limits
 from ledger.logbook.module_trend import project
 from ledger.logbook.modules import get_type, list_types, row_id
 from ledger.logbook.wear import Point, recovery_series
@@ -46,7 +46,6 @@ from ledger.store.tables import (
     Hold,
     IntegrityTest,
     Module,
-    ModuleType,
     ModuleUse,
     Storage,
     WaterFluxTest,
@@ -211,18 +210,6 @@ def _water_result(t: Any) -> WaterResult | None:
     return WaterResult(t.id or 0, t.activity_at, t.stage, t.nwp_m_s_pa, t.recovery)
 
 
-def _limits(mtype: ModuleType) -> Limits:
-    """The limits ``fitness.facts`` gives the rules, of a type with its limits in force."""
-    return Limits(
-        mtype.recovery_min,
-        mtype.recovery_alert,
-        mtype.damage_ratio,
-        mtype.preuse_band,
-        mtype.reuse_limit_cycles,
-        mtype.storage_limit_s,
-    )
-
-
 def _facts(module: Any, limits: Limits, b: _Book, now: datetime) -> Facts:
     """``fitness.facts(session, module, None, now)`` from the book; ``module`` a Module or a
     row of its columns, ``limits`` those of its type in force at ``now``."""
@@ -311,7 +298,7 @@ def fleet(
     for m in chosen:
         t = types[m.type_id]
         if m.type_id not in limits:
-            limits[m.type_id] = _limits(typelimits.in_force(session, t, at)[0])
+            limits[m.type_id] = type_limits(typelimits.in_force(session, t, at)[0])
         f = _facts(m, limits[m.type_id], book, at)
         points, holds = _points(book, m.id), tuple(book.holds.get(m.id, []))
         rows.append(_standing(m, t.code, f, points, holds))

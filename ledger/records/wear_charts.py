@@ -331,9 +331,19 @@ def rule_code(signal: Signal) -> str:
 def _signal_labels(
     g: Group, p: Plot, marks: dict[int, list[str]], at: Callable[[int], float | None]
 ) -> None:
-    """Ring each signal point and write its rule labels above it; labels that would touch the
-    one before are lifted a row."""
-    ends: list[float] = []
+    """Ring each signal point and write its rule labels beside it: above the point, lifted a
+    row at a time, else below, at the first place where the label touches no label already
+    written (the top row of the plot is left to the baseline caption)."""
+    placed: list[tuple[float, float, float, float]] = []  # x0, y0, x1, y1 of each label
+    height = TEXT_SIZE + 1.0
+    top = p.y1 - LABEL_ROW - 2  # the baseline caption's row
+
+    def free(x0: float, y0: float, x1: float) -> bool:
+        return all(
+            x1 + 2 <= a0 or x0 >= a1 + 2 or y0 + height <= b0 or y0 >= b1
+            for a0, b0, a1, b1 in placed
+        )
+
     for cycle in sorted(marks):
         y = at(cycle)
         if y is None:
@@ -343,13 +353,11 @@ def _signal_labels(
         text = " ".join(dict.fromkeys(marks[cycle]))
         w = _width(text, font=fonts.BOLD)
         left = min(max(x - w / 2, p.x0 + 1), p.x1 - w - 1)
-        row = next((r for r, end in enumerate(ends) if end + 3 <= left), len(ends))
-        if row == len(ends):
-            ends.append(0.0)
-        ends[row] = left + w
-        ty = y + 6 + row * LABEL_ROW
-        if ty + 6 > p.y1:
-            ty = y - 11 - row * LABEL_ROW
+        above = [y + 6 + k * LABEL_ROW for k in range(6)]
+        below = [y - 11 - k * LABEL_ROW for k in range(6)]
+        tries = [t for t in above if t + height <= top] + [t for t in below if t >= p.y0 + 1]
+        ty = next((t for t in tries if free(left, t, left + w)), tries[0] if tries else y + 6)
+        placed.append((left, ty, left + w, ty + height))
         g.add(_text(left, ty, text, font=fonts.BOLD, colour=ACCENT))
 
 
