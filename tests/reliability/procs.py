@@ -83,46 +83,62 @@ def _cheap_hashes() -> Iterator[None]:
 # --- A CLI command in a child ----------------------------------------------------------------
 
 
-# Statements that change the database file: the first one marks where a command's writing
-# begins (what comes before it, the start-up, sign-in and reads, leaves nothing to damage).
+# Statements that change the database file. Each of them, and each commit, is a "write
+# point": a child can be made to SIGKILL itself just before its k-th one.
 WRITES = ("INSERT", "UPDATE", "DELETE", "CREATE", "ALTER", "DROP")
 
 
-def _trace_writes(trace_path: str) -> Callable[[], None]:
+def _trace_writes(trace_path: str, die_at: int | None) -> Callable[[], None]:
     """Note in ``trace_path`` when this process first writes to a database (at once) and, by
-    the function returned, when it ended (JSON, s on the system-wide monotonic clock of
-    ``time.perf_counter``)."""
+    the function returned, when it ended and how many write points it passed (JSON; times in s
+    on the system-wide monotonic clock of ``time.perf_counter``). With ``die_at``, SIGKILL
+    this process just before its ``die_at``-th write point (1: the first write)."""
     import json
+    import signal
     import time
 
     from sqlalchemy import event
     from sqlalchemy.engine import Engine
 
     seen: dict[str, float] = {}
+    points = [0]
 
     def _save() -> None:
         with open(trace_path, "w") as f:
             json.dump(seen, f)
 
-    @event.listens_for(Engine, "before_cursor_execute")
-    def _first_write(*args: Any) -> None:
-        statement = str(args[2]).lstrip().upper()
-        if "first_write" not in seen and statement.startswith(WRITES):
+    def _point() -> None:
+        points[0] += 1
+        if points[0] == 1:
             seen["first_write"] = time.perf_counter()
             _save()  # at once: a killed child has told whether it had begun writing
+        if points[0] == die_at:
+            os.kill(os.getpid(), signal.SIGKILL)
+
+    @event.listens_for(Engine, "before_cursor_execute")
+    def _statement(*args: Any) -> None:
+        if str(args[2]).lstrip().upper().startswith(WRITES):
+            _point()
+
+    @event.listens_for(Engine, "commit")
+    def _commit(*args: Any) -> None:
+        if points[0]:  # a commit after writes (not a read's)
+            _point()
 
     def _end() -> None:
         seen["end"] = time.perf_counter()
+        seen["points"] = points[0]
         _save()
 
     return _end
 
 
 def run_cli(argv: list[str], stdin_path: str | None, out_path: str,
-            trace_path: str | None = None) -> None:  # fmt: skip
+            trace_path: str | None = None, die_at: int | None = None) -> None:  # fmt: skip
     """Run ``fluxledger ARGV`` here, as the console script would; stdout/stderr to a file;
-    with ``trace_path``, note when it first wrote to the database (``_trace_writes``)."""
-    save_trace = _trace_writes(trace_path) if trace_path is not None else None
+    with ``trace_path``, note when it wrote to the database and SIGKILL itself just before its
+    ``die_at``-th write point if given (``_trace_writes``)."""
+    save_trace = _trace_writes(trace_path, die_at) if trace_path is not None else None
     fd = os.open(out_path, os.O_WRONLY | os.O_CREAT | os.O_TRUNC, 0o600)
     os.dup2(fd, 1)
     os.dup2(fd, 2)

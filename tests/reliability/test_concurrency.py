@@ -1,4 +1,4 @@
-"""Eight processes write at once, 250 writes each (water-flux tests, integrity tests,
+"""Eight processes write at once, 150 writes each (water-flux tests, integrity tests,
 cleanings, and signatures on two runs), through the services as the front ends call them, on
 SQLite (WAL, BEGIN IMMEDIATE, busy timeout) and on PostgreSQL: afterwards every write is
 there exactly once, the audit chain verifies, and no caller saw an error ("database is

@@ -1,7 +1,8 @@
 """SIGKILL in the middle of a command: a skid-log import, a batch-record print, a signature and
-`init`, each killed eight times after a seeded random delay, two of them before the command's
-first database write and six from it to the end (the uninterrupted run, traced, says when it
-began writing and how long it took). After each kill the SQLite file passes
+`init`, each killed eight times: three times after a seeded random delay (up to the time the
+same command took uninterrupted), five times just before a seeded random one of its write points
+(a statement that changes the database, or a commit: the child SIGKILLs itself there, as if the
+kill had come at that instant). After each kill the SQLite file passes
 `PRAGMA integrity_check`, the audit chain verifies, no record stands without its audit event, no
 half-written PDF carries the final name, and the same command run again completes.
 
@@ -34,7 +35,8 @@ from tests.world import PASSWORDS, World
 pytestmark = pytest.mark.slow
 
 SEED = 20261203
-KILLS = 8  # killed runs of each command: 2 before its first write, 6 from it to the end
+KILLS = 8  # killed runs of each command: 3 after a delay, 5 at one of its write points
+TIMED = 3
 CREATED = text("SELECT entity_id FROM audit_event WHERE entity = :e AND action = 'create'")
 
 
@@ -44,9 +46,10 @@ class Child:
     output: str
     seconds: float
     # When traced, s after the start: its first database write (None: none) and its end (None:
-    # killed first).
+    # killed first); and the write points it passed (procs.WRITES), when it ended.
     first_write: float | None = None
     ended: float | None = None
+    points: int | None = None
 
 
 @dataclass
@@ -67,11 +70,13 @@ class Tally:
 
 
 def run(tmp: Path, argv: list[str], stdin: str | None = None, kill_after: float | None = None,
-        trace: bool = False) -> Child:  # fmt: skip
-    """Run ``fluxledger ARGV`` in a child; SIGKILL it after ``kill_after`` seconds if given;
-    with ``trace``, note when it first wrote to the database."""
+        trace: bool = False, die_at: int | None = None) -> Child:  # fmt: skip
+    """Run ``fluxledger ARGV`` in a child; SIGKILL it after ``kill_after`` seconds if given,
+    or have it SIGKILL itself just before its ``die_at``-th write point; with ``trace`` (or
+    ``die_at``), note when it wrote to the database."""
     import json
 
+    trace = trace or die_at is not None
     ctx = procs.context()
     out = tmp / "child.out"
     stdin_path = None
@@ -81,7 +86,7 @@ def run(tmp: Path, argv: list[str], stdin: str | None = None, kill_after: float 
     traced = tmp / "child.trace.json"
     traced.unlink(missing_ok=True)
     args = (argv, str(stdin_path) if stdin_path else None, str(out),
-            str(traced) if trace else None)  # fmt: skip
+            str(traced) if trace else None, die_at)  # fmt: skip
     p = ctx.Process(target=procs.run_cli, args=args)
     t0 = time.perf_counter()
     p.start()
@@ -93,7 +98,7 @@ def run(tmp: Path, argv: list[str], stdin: str | None = None, kill_after: float 
     seconds = time.perf_counter() - t0
     assert p.exitcode is not None, "the child did not end"
     code = None if p.exitcode == -9 else p.exitcode
-    first_write = ended = None
+    first_write = ended = points = None
     if trace:  # the child's clock is the parent's (CLOCK_MONOTONIC, system-wide)
         try:
             noted = json.loads(traced.read_text())
@@ -101,32 +106,34 @@ def run(tmp: Path, argv: list[str], stdin: str | None = None, kill_after: float 
             noted = {}
         first_write = noted["first_write"] - t0 if "first_write" in noted else None
         ended = noted["end"] - t0 if "end" in noted else None
-    return Child(code, out.read_text() if out.exists() else "", seconds, first_write, ended)
+        points = int(noted["points"]) if "points" in noted else None
+    text_ = out.read_text() if out.exists() else ""
+    return Child(code, text_, seconds, first_write, ended, points)
 
 
-def kill_delay(rng: random.Random, i: int, n: int, like: Child, before: int = 2) -> float:
-    """The delay to kill trial ``i`` of ``n`` after: the first ``before`` trials are spread
-    over the start-up, sign-in and reads that come before the command's first write, the rest
-    over the writing to its end, each seeded-random within its own equal slice of its phase.
-    ``like`` is the latest traced uninterrupted run of the command (the machine's load changes
-    how long a run takes).
+def kill_at(rng: random.Random, i: int, n: int, like: Child) -> tuple[float | None, int | None]:
+    """Where trial ``i`` of ``n`` is killed: (delay in s, None) or (None, write point).
 
-    Most of a command's time is spent before it writes (for an import, reading the log: 95 %
-    of it), so delays drawn over the whole run would mostly land where a kill can damage
-    nothing, and the writes themselves would go untried.
+    The first ``TIMED`` trials are killed after a delay, seeded-random within their own equal
+    slice of the time ``like`` took (the latest traced uninterrupted run: the machine's load
+    changes how long a run takes). Most of that time comes before the first write (for an
+    import, reading the log: 95 % of it), so delays alone would seldom land in the writing;
+    the other trials kill the child just before one of its write points (each statement that
+    changes the database, and each commit; procs.WRITES), seeded-random within their own
+    equal slice of the points ``like`` passed, from the first write to the last commit.
     """
-    assert like.first_write is not None and like.ended is not None, like
-    if i < before:
-        return rng.uniform(like.first_write * i / before, like.first_write * (i + 1) / before)
-    slices = n - before
-    assert i - before < slices
-    span = (like.ended - like.first_write) / slices
-    return like.first_write + span * rng.uniform(i - before, i - before + 1)
+    assert like.seconds > 0 and like.points, like
+    if i < TIMED:
+        return like.seconds * rng.uniform(i, i + 1) / TIMED, None
+    slices = n - TIMED
+    assert i - TIMED < slices
+    return None, min(like.points, 1 + int(like.points * rng.uniform(i - TIMED, i - TIMED + 1)
+                                          / slices))  # fmt: skip
 
 
 def _timing(latest: Child, again: Child) -> Child:
     """``again`` as the timing reference if it is a traced run that wrote and ended."""
-    return again if again.first_write is not None and again.ended is not None else latest
+    return again if again.points and again.ended is not None else latest
 
 
 def check_database(db: Path) -> None:
@@ -160,7 +167,7 @@ def trials(
     fresh: Callable[[int], tuple[list[str], str | None]],
     after: Callable[[int, Child, Child], None],
 ) -> Tally:
-    """Calibrate on one uninterrupted run, then ``n`` killed runs (``kill_delays``) each
+    """Calibrate on one uninterrupted run, then ``n`` killed runs (``kill_at``) each
     followed by the checks and a run to completion; ``fresh(i)`` prepares trial i and returns
     the command."""
     rng = random.Random(seed)
@@ -170,7 +177,9 @@ def trials(
     tally = Tally()
     for i in range(n):
         argv, stdin = fresh(i)
-        killed = run(tmp, argv, stdin, kill_after=kill_delay(rng, i, n, latest), trace=True)
+        delay, point = kill_at(rng, i, n, latest)
+        killed = run(tmp, argv, stdin, kill_after=delay, trace=True, die_at=point)
+        assert point is None or killed.code is None, (point, killed)  # it died at that point
         tally.add(killed)
         again = run(tmp, argv, stdin, trace=True)
         after(i, killed, again)
@@ -257,8 +266,9 @@ def test_killed_record_prints(review_world: World, tmp_path: Path) -> None:
     tally, latest = Tally(), whole
     for i in range(KILLS):
         argv, _ = fresh(i)
-        killed = run(tmp_path, argv, stdin, kill_after=kill_delay(rng, i, KILLS, latest),
-                     trace=True)  # fmt: skip
+        delay, point = kill_at(rng, i, KILLS, latest)
+        killed = run(tmp_path, argv, stdin, kill_after=delay, trace=True, die_at=point)
+        assert point is None or killed.code is None, (point, killed)  # it died at that point
         final = out / "BR-1.pdf"
         tally.add(killed)
         if final.exists():  # only ever the whole file, and a registered copy, under its name

@@ -60,7 +60,7 @@ def test_cli_json_lists_products_and_inputs() -> None:
     assert result.code == 0, result
     out = result.json()
     by_id = {t["id"]: t for t in out["templates"]}
-    stock = pint.UnitRegistry()  # built once: a registry takes most of a second to build
+    stock: pint.UnitRegistry = pint.UnitRegistry()  # built once: each takes most of a second
     for entry in template.catalogue():
         row = by_id[entry.id]
         assert row["product"] == entry.product and row["version"] == entry.version
