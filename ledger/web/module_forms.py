@@ -157,10 +157,13 @@ def _rows(v: Visit, values: dict[str, str]) -> int:
     """How many table rows to show: the rows asked for, and every row that holds a value."""
     from ledger.entries.water import MAX_ROWS
 
-    asked = v.request.query_params.get("rows", "")
-    rows = int(asked) if asked.isdigit() else TABLE_ROWS
-    filled = [int(k.rpartition("_")[2]) for k, t in values.items()
-              if k.rpartition("_")[2].isdigit() and t.strip()]  # fmt: skip
+    def number(text: str) -> int | None:  # "12"; not "²", nor a thousand digits
+        return int(text) if text.isascii() and text.isdigit() and len(text) <= 3 else None
+
+    asked = number(v.request.query_params.get("rows", ""))
+    rows = TABLE_ROWS if asked is None else asked
+    filled = [n for k, t in values.items()
+              if (n := number(k.rpartition("_")[2])) is not None and t.strip()]  # fmt: skip
     return max(1, min(MAX_ROWS, max([rows, *filled])))
 
 

@@ -295,3 +295,20 @@ def test_every_unit_the_forms_offer_is_one_the_entries_accept() -> None:
             assert value != 0 and value == value, (kind, unit)
     # The pressure units as pint converts them (1 psi = 6894.757 Pa, NIST SP 811).
     assert units.parse("1 psi", "pressure", field="p") == pytest.approx(6894.757293168)
+
+
+@pytest.mark.parametrize("rows", ["²", "٣", "9" * 5000, "-3", "0", "1e3", "\u200b5"])
+def test_odd_row_counts_and_field_names_are_answered_not_crashed(site: Site, rows: str) -> None:
+    """A row count or a table field's number that is not a plain small number (a superscript,
+    an Arabic-Indic digit, 5,000 digits, an invisible character) shows the default table; a bug
+    found in review answered "²" with the failure page."""
+    w = site.world
+    w.add_module("QMB-0401")
+    site.sign_in("op.kim", PASSWORDS["op.kim"])
+    page = site.client.get("/modules/QMB-0401/water", params={"rows": rows})
+    assert page.status_code == 200 and 'name="feed_1"' in page.text
+    before = w.snapshot()
+    sent = _post(site, "QMB-0401", "water", {"stage": "baseline", f"feed_{rows}": "3 psi",
+                                             "temperature": "20 degC"})  # fmt: skip
+    assert sent.status_code == 400 and "Something went wrong" not in sent.text
+    assert w.snapshot() == before
