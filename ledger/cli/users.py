@@ -194,7 +194,7 @@ def list_(
     """List every user, active or not."""
     from ledger.cli.output import Report, Table
     from ledger.cli.session import read
-    from ledger.logbook.users import list_users
+    from ledger.logbook.users import account_state, list_users
 
     rows = read(db, list_users, user, password_stdin)
     report = Report("user list")
@@ -210,7 +210,8 @@ def list_(
         ],
     )
     for u in rows:
-        state = "disabled" if not u.active else "locked" if u.locked else "active"
-        table.rows.append([u.id, u.login, u.full_name, u.role, state, u.created_at.isoformat()])
+        table.rows.append(
+            [u.id, u.login, u.full_name, u.role, account_state(u), u.created_at.isoformat()]
+        )
     report.tables.append(table)
     report.print(as_json)

@@ -207,6 +207,21 @@ class WaterTestEntry:
         return self.points_file.points.blame() if self.points_file else nullcontext()
 
 
+def _point(v: Values) -> WaterPoint:
+    """One point from checked values: feed, retentate, permeate (default 0), and a flow or
+    a volume over a time."""
+    from ledger.logbook.waterflux import WaterPoint
+
+    return WaterPoint(
+        feed_pa=v["feed"],
+        retentate_pa=v["retentate"],
+        permeate_pa=v.get("permeate", 0.0),
+        flow_m3_s=v["flow"],
+        volume_m3=v["volume"],
+        time_s=v["time"],
+    )
+
+
 def water_test(raw: Mapping[str, object]) -> WaterTestEntry:
     """Check a water-flux test entry: one point from options, or several from a points file."""
     from ledger.logbook.waterflux import WaterPoint
@@ -245,16 +260,7 @@ def water_test(raw: Mapping[str, object]) -> WaterTestEntry:
                 value=None,
                 expected="all three (or --points-file)",
             )
-        points = [
-            WaterPoint(
-                feed_pa=v["feed"],
-                retentate_pa=v["retentate"],
-                permeate_pa=v.get("permeate", 0.0),
-                flow_m3_s=v["flow"],
-                volume_m3=v["volume"],
-                time_s=v["time"],
-            )
-        ]
+        points = [_point(v)]
     return WaterTestEntry(
         serial=v["serial"],
         stage=v["stage"],
@@ -466,7 +472,6 @@ def water_test_rows(raw: Mapping[str, object], rows: int = MAX_ROWS) -> WaterTes
     message); :meth:`WaterTestEntry.blame` does the same for the service's errors on a point.
     One point is recorded as ``test water`` records its single-point options (the same
     ``entered`` text); several as from a points file (SI only, the temperature as typed)."""
-    from ledger.logbook.waterflux import WaterPoint
 
     v = WATER_TABLE.parse(raw)
     points: list[WaterPoint] = []
@@ -498,16 +503,7 @@ def water_test_rows(raw: Mapping[str, object], rows: int = MAX_ROWS) -> WaterTes
         except InputError as err:
             _name_row(err, row)
             raise
-        points.append(
-            WaterPoint(
-                feed_pa=p["feed"],
-                retentate_pa=p["retentate"],
-                permeate_pa=p.get("permeate", 0.0),
-                flow_m3_s=p["flow"],
-                volume_m3=p["volume"],
-                time_s=p["time"],
-            )
-        )
+        points.append(_point(p))
         numbers.append(row)
         typed = p.entered()
     if not points:

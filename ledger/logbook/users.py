@@ -10,6 +10,8 @@ owner must choose their own before recording or signing anything (ledger.logbook
 from __future__ import annotations
 
 import re
+from dataclasses import dataclass
+from datetime import datetime
 
 from sqlmodel import Session, select
 
@@ -219,6 +221,61 @@ def _set(session: Session, actor: UserAccount, key: str, value: str, reason: str
 
 def list_users(session: Session) -> list[UserAccount]:
     return list(session.exec(select(UserAccount).order_by(UserAccount.id)))  # type: ignore[arg-type]
+
+
+def account_state(user: UserAccount) -> str:
+    """How a list names an account's state: active, locked or disabled."""
+    return "disabled" if not user.active else "locked" if user.locked else "active"
+
+
+@dataclass(frozen=True)
+class Account:
+    """What the administrator's pages show of an account (never its password or hash)."""
+
+    login: str
+    name: str
+    role: str
+    active: bool
+    locked: bool
+    temporary_password: bool
+    failed_sign_ins: int
+    created_at: datetime | None
+    created_by: str | None
+    state: str
+
+
+def account(user: UserAccount) -> Account:
+    return Account(
+        login=user.login,
+        name=user.full_name,
+        role=user.role,
+        active=user.active,
+        locked=user.locked,
+        temporary_password=user.password_temporary,
+        failed_sign_ins=user.failed_logins,
+        created_at=user.created_at,
+        created_by=user.created_by,
+        state=account_state(user),
+    )
+
+
+def accounts(session: Session, actor: UserAccount) -> list[Account]:
+    """Every account, for an administrator (the account pages are theirs alone)."""
+    require_role(actor, ADMINS, "see the user accounts")
+    return [account(u) for u in list_users(session)]
+
+
+def account_of(session: Session, actor: UserAccount, login: str) -> Account:
+    """One account, for an administrator (InputError naming ``login`` if there is none)."""
+    from ledger.logbook.auth import find_user
+
+    require_role(actor, ADMINS, "see the user accounts")
+    user = find_user(session, login)
+    if user is None:
+        raise InputError(
+            f"no user {login!r}", field="login", value=login, expected="a registered user ID"
+        )
+    return account(user)
 
 
 def set_lockout(session: Session, actor: UserAccount, failures: int, reason: str) -> Setting:

@@ -6,9 +6,7 @@ No page or JSON carries a password or its hash: an account is shown through ``Ac
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-from datetime import datetime
-from typing import Any
+from typing import TYPE_CHECKING, Any
 from urllib.parse import quote
 
 from starlette.responses import Response
@@ -18,49 +16,10 @@ from ledger.errors import InputError, LedgerError, RefusedError
 from ledger.web.show import plain
 from ledger.web.visit import Visit, endpoint, field_errors
 
+if TYPE_CHECKING:
+    from ledger.logbook.users import Account
+
 DONE = ("added", "role", "password", "disabled")
-
-
-@dataclass(frozen=True)
-class Account:
-    """What the pages show of an account (never its password or hash)."""
-
-    login: str
-    name: str
-    role: str
-    active: bool
-    locked: bool
-    temporary_password: bool
-    failed_sign_ins: int
-    created_at: datetime | None
-    created_by: str | None
-    state: str  # active, locked or disabled, as `fluxledger user list` says
-
-
-def account(user: Any) -> Account:
-    return Account(
-        login=user.login,
-        name=user.full_name,
-        role=user.role,
-        active=user.active,
-        locked=user.locked,
-        temporary_password=user.password_temporary,
-        failed_sign_ins=user.failed_logins,
-        created_at=user.created_at,
-        created_by=user.created_by,
-        state="disabled" if not user.active else "locked" if user.locked else "active",
-    )
-
-
-def _as_admin(action: str, work: Any) -> Any:
-    """``work(session)`` for an administrator, else refused by the services' role check."""
-    from ledger.logbook.auth import ADMINS, require_role
-
-    def run(session: Any, user: Any) -> Any:
-        require_role(user, ADMINS, action)
-        return work(session)
-
-    return run
 
 
 def _roles() -> tuple[str, ...]:
@@ -70,25 +29,16 @@ def _roles() -> tuple[str, ...]:
 
 
 async def _all(v: Visit) -> list[Account]:
-    from ledger.logbook.users import list_users
+    from ledger.logbook.users import accounts
 
-    users = await v.as_user(_as_admin("see the user accounts", list_users))
-    return [account(u) for u in users]
+    rows: list[Account] = await v.as_user(accounts)
+    return rows
 
 
 async def _one(v: Visit, login: str) -> Account:
-    from ledger.logbook.auth import find_user
+    from ledger.logbook.users import account_of
 
-    def work(session: Any) -> Account:
-        user = find_user(session, login)
-        if user is None:
-            raise InputError(
-                f"no user {login!r}", field="login", value=login,
-                expected="a registered user ID",
-            )  # fmt: skip
-        return account(user)
-
-    found: Account = await v.as_user(_as_admin("see the user accounts", work))
+    found: Account = await v.as_user(lambda s, a: account_of(s, a, login))
     return found
 
 
@@ -158,6 +108,7 @@ def _repeat(form: dict[str, str]) -> str:
 @endpoint
 async def add_user(v: Visit) -> Response:
     """POST /users: add an account whose password is temporary (``fluxledger user add``)."""
+    from ledger.logbook.users import account
     from ledger.logbook.users import add_user as add
 
     v.require_user()
@@ -183,6 +134,8 @@ async def add_user(v: Visit) -> Response:
 async def _change(v: Visit, form_name: str, done: str, work: Any) -> Response:
     """Run ``work(session, actor, form)`` on the account of the path; errors beside the field
     of the form ``form_name``, nothing written."""
+    from ledger.logbook.users import account
+
     v.require_user()
     login = v.request.path_params["login"]
     form = await v.form()
