@@ -63,13 +63,6 @@ def _software() -> str:
     return __version__
 
 
-def _file_name(ctx: Any, copy: Any, suffix: str = "") -> str:
-    """e.g. BR-000001-rev1-in-review-copy3.pdf, BR-000001-draft-copy1.pdf: the state shows."""
-    h = ctx.header
-    rev = f"rev{h.revision}-{copy.state.replace(' ', '-')}" if h.revision else "draft"
-    return f"{h.record_id}-{rev}-copy{copy.number}{suffix}.pdf"
-
-
 PRINT_USER = typer.Option(
     None,
     "--user",
@@ -128,7 +121,7 @@ def print_record(
         paths: list[Path] = []
 
         def name(copy: Any) -> str:
-            paths.append(_out(out, _file_name(ctx, copy), force))
+            paths.append(_out(out, copies.copy_file_name(ctx, copy), force))
             return paths[-1].name
 
         def produce(copy: Any) -> bytes:
@@ -399,7 +392,7 @@ def seal(
         paths: list[Path] = []
 
         def name(copy: Any) -> str:
-            paths.append(_out(out, _file_name(ctx, copy, "-sealed"), force))
+            paths.append(_out(out, copies.copy_file_name(ctx, copy, "-sealed"), force))
             return paths[-1].name
 
         def produce(copy: Any) -> bytes:
@@ -450,7 +443,7 @@ def archive(
         paths: list[Path] = []
 
         def name(copy: Any) -> str:
-            paths.append(_out(out, _file_name(ctx, copy, "-archive"), force))
+            paths.append(_out(out, copies.copy_file_name(ctx, copy, "-archive"), force))
             return paths[-1].name
 
         def produce(copy: Any) -> bytes:

@@ -16,6 +16,7 @@ from __future__ import annotations
 import hashlib
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
+from typing import Any
 
 from sqlmodel import Session, func, select
 
@@ -236,3 +237,11 @@ def check(
             f"copy {copy.number} is older than the current state ({now}): " + "; ".join(why)
         )
     return out
+
+
+def copy_file_name(ctx: Any, copy: Any, suffix: str = "") -> str:
+    """The file name of a copy (``ctx`` a record context, ``copy`` its RecordCopy), the state
+    in it: BR-000001-rev1-in-review-copy3.pdf, BR-000001-draft-copy1.pdf."""
+    h = ctx.header
+    rev = f"rev{h.revision}-{copy.state.replace(' ', '-')}" if h.revision else "draft"
+    return f"{h.record_id}-{rev}-copy{copy.number}{suffix}.pdf"

@@ -190,11 +190,3 @@ def receipt(session: Session, run_id: int, signature_id: int) -> dict[str, Any]:
             expected="a signature of this record (see its review page)",
         )
     return signature_receipt(session, sig)
-
-
-def file_name(ctx: c.Context, copy: Any) -> str:
-    """The file name of a printed copy, as ``record print`` names it:
-    BR-000001-rev1-in-review-copy3.pdf, BR-000001-draft-copy1.pdf (the state shows)."""
-    h = ctx.header
-    rev = f"rev{h.revision}-{copy.state.replace(' ', '-')}" if h.revision else "draft"
-    return f"{h.record_id}-{rev}-copy{copy.number}.pdf"

@@ -24,7 +24,10 @@ async def history_page(v: Visit) -> Response:
     trend = await _trend(v)
     if v.wants_json():
         return v.json({"history": plain(trend)})
-    return v.page("history.html", t=trend)
+    from ledger.logbook.auth import RECORDERS
+
+    # The links to the forms for the roles that may record; the services check again.
+    return v.page("history.html", t=trend, may_record=v.role in RECORDERS)
 
 
 @endpoint

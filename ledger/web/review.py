@@ -141,7 +141,6 @@ async def record_pdf(v: Visit) -> Response:
     copy is a write: a prefetch or a reload of a GET must not number new copies."""
     from ledger import __version__
     from ledger.records import copies
-    from ledger.records.desk import file_name
     from ledger.records.pdf import render
     from ledger.records.service import record_of
 
@@ -156,7 +155,7 @@ async def record_pdf(v: Visit) -> Response:
         names: list[str] = []
 
         def name(copy: Any) -> str:
-            names.append(file_name(ctx, copy))
+            names.append(copies.copy_file_name(ctx, copy))
             return names[-1]
 
         def produce(copy: Any) -> bytes:
