@@ -226,7 +226,7 @@ async def sign_step(v: Visit) -> Response:
     """POST /runs/{run}/steps/{step}: ``run step`` — a signature, so the password is typed
     again (checked, and a wrong one counted, as the CLI does before its write)."""
     from ledger.entries.runs import run_step
-    from ledger.logbook.workspace import sign_in
+    from ledger.logbook.workspace import sign_with_password
     from ledger.runs.steps import StepValuesError, record_step
 
     run_id = _run_id(v)
@@ -245,8 +245,6 @@ async def sign_step(v: Visit) -> Response:
         if not password:  # not sent is not a wrong password: nothing counted toward lockout
             raise InputError("type your password to sign the step", field="password",
                              value="(empty)", expected="your password")  # fmt: skip
-        await run_in_threadpool(sign_in, v.app.engine, login, password)
-
         def write(s: Any, a: Any) -> dict[str, Any]:
             done = record_step(s, a, e.run, e.step, e.meaning, e.values, e.done_at,
                                deviation=e.deviation)  # fmt: skip
@@ -256,7 +254,8 @@ async def sign_step(v: Visit) -> Response:
                     "deviation": r.deviation_number,
                     "out_of_range": list(done.out_of_range)}  # fmt: skip
 
-        return "signed", {"signed": await v.write(write)}
+        signed = await run_in_threadpool(sign_with_password, v.app.engine, login, password, write)
+        return "signed", {"signed": signed}
 
     def place(err: LedgerError, form: Mapping[str, str]) -> dict[str, str]:
         """Each problem of the step's values beside the value it names."""
