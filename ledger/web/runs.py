@@ -167,18 +167,24 @@ def _given(form: Mapping[str, str], name: str) -> str | None:
     return text if text.strip() else None
 
 
-@endpoint
-async def approve_plan(v: Visit) -> Response:
-    """POST /runs/{run}/approve-plan: ``run approve-plan``."""
-    from ledger.runs.service import approve_plan as approve
+def _plain_action(action: str, word: str) -> Callable[[Any], Awaitable[Response]]:
+    """POST /runs/{run}/approve-plan or /submit (``run approve-plan`` / ``run submit``, the
+    latter refused while a FAIL check has no deviation): no fields but the CSRF token."""
 
-    run_id = _run_id(v)
+    async def handler(v: Visit) -> Response:
+        from ledger.runs import service
 
-    async def work(form: dict[str, str]) -> tuple[str, dict[str, Any]]:
-        status = await v.write(lambda s, a: approve(s, a, run_id).status)
-        return "approved", {"status": status}
+        run_id = _run_id(v)
+        do = service.approve_plan if action == "approve_plan" else service.submit_run
 
-    return await _post(v, "approve_plan", placed({}), work)
+        async def work(form: dict[str, str]) -> tuple[str, dict[str, Any]]:
+            status = await v.write(lambda s, a: do(s, a, run_id).status)
+            return word, {"status": status}
+
+        return await _post(v, action, placed({}), work)
+
+    handler.__name__ = action
+    return endpoint(handler)
 
 
 def _timed(action: str, word: str) -> Callable[[Any], Awaitable[Response]]:
@@ -201,20 +207,6 @@ def _timed(action: str, word: str) -> Callable[[Any], Awaitable[Response]]:
 
     handler.__name__ = f"{action}_run"
     return endpoint(handler)
-
-
-@endpoint
-async def submit(v: Visit) -> Response:
-    """POST /runs/{run}/submit: ``run submit`` (refused while a FAIL has no deviation)."""
-    from ledger.runs.service import submit_run
-
-    run_id = _run_id(v)
-
-    async def work(form: dict[str, str]) -> tuple[str, dict[str, Any]]:
-        status = await v.write(lambda s, a: submit_run(s, a, run_id).status)
-        return "submitted", {"status": status}
-
-    return await _post(v, "submit", placed({}), work)
 
 
 STEP_INPUTS = {"deviation": "deviation", "activity_time": "activity_time",
@@ -245,6 +237,7 @@ async def sign_step(v: Visit) -> Response:
         if not password:  # not sent is not a wrong password: nothing counted toward lockout
             raise InputError("type your password to sign the step", field="password",
                              value="(empty)", expected="your password")  # fmt: skip
+
         def write(s: Any, a: Any) -> dict[str, Any]:
             done = record_step(s, a, e.run, e.step, e.meaning, e.values, e.done_at,
                                deviation=e.deviation)  # fmt: skip
@@ -445,10 +438,12 @@ async def close_deviation(v: Visit) -> Response:
 routes = [
     Route("/runs", run_list, methods=["GET"]),
     Route("/runs/{run:int}", run_page, methods=["GET"]),
-    Route("/runs/{run:int}/approve-plan", approve_plan, methods=["POST"]),
+    Route(
+        "/runs/{run:int}/approve-plan", _plain_action("approve_plan", "approved"), methods=["POST"]
+    ),
     Route("/runs/{run:int}/start", _timed("start", "started"), methods=["POST"]),
     Route("/runs/{run:int}/finish", _timed("finish", "finished"), methods=["POST"]),
-    Route("/runs/{run:int}/submit", submit, methods=["POST"]),
+    Route("/runs/{run:int}/submit", _plain_action("submit", "submitted"), methods=["POST"]),
     Route("/runs/{run:int}/steps/{step:int}", sign_step, methods=["POST"]),
     Route("/runs/{run:int}/log", upload_log, methods=["POST"]),
     Route("/runs/{run:int}/qc", enter_qc, methods=["POST"]),
