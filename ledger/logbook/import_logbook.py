@@ -27,10 +27,12 @@ row is a late entry.
 
 from __future__ import annotations
 
-import hashlib
-from collections.abc import Callable, Iterable
+import pickle
+import subprocess
+from collections.abc import Callable, Generator, Iterable
+from contextlib import closing
 from dataclasses import dataclass, field
-from datetime import UTC, datetime
+from datetime import datetime
 from types import SimpleNamespace
 from typing import Any
 
@@ -38,7 +40,6 @@ from sqlalchemy import func, text
 from sqlmodel import Session, select
 
 from ledger import __version__
-from ledger.canonical import canonical
 from ledger.errors import InputError
 from ledger.logbook import typelimits
 from ledger.logbook.auth import RECORDERS, require_role
@@ -53,6 +54,7 @@ from ledger.science import integrity as integrity_sci
 from ledger.science import permeability as perm
 from ledger.science import water
 from ledger.store.audit import CreateEvents, StoredRows
+from ledger.store.sealing import EventForm, RecordForm, Sealed, iso_utc, seal, worker_command
 from ledger.store.tables import (
     STAGES,
     AuditHead,
@@ -70,6 +72,7 @@ from ledger.store.types import UTCDateTime
 
 KINDS = ("water_flux", "pressure_decay")
 CHUNK = 5_000  # rows per executemany
+PARALLEL_ROWS = 20_000  # from this many rows on, a worker process makes the hashes
 _IN_CHUNK = 500  # values per SQL IN list
 DECAY_METHOD = "pressure decay: (start − end) / hold time"
 
@@ -434,17 +437,6 @@ def _reserve_ids(session: Session, table: str, n: int) -> list[int]:
     return list(range(top + 1, top + 1 + n))
 
 
-_ENCODE_UTC = "microseconds"
-
-
-def _iso(t: datetime) -> str:
-    # As store.audit encodes a datetime in a hash: UTC, ISO 8601 with microseconds (a time
-    # already in UTC, as the entry gives them, needs no conversion: the same text).
-    if t.tzinfo is not UTC:
-        t = t.astimezone(UTC)
-    return t.isoformat(timespec=_ENCODE_UTC)
-
-
 def import_rows(
     session: Session,
     actor: UserAccount,
@@ -524,7 +516,12 @@ def _write(
 ) -> None:
     """Insert the records and their events, move the chain head: the columns, record hashes
     and events of ``Journal.create`` (canonical JSON of the record's columns, SHA-256; the
-    event's HMAC, chained), through the driver's executemany in chunks."""
+    event's HMAC, chained), through the driver's executemany in chunks.
+
+    From PARALLEL_ROWS rows on, ``sealing.seal`` makes each chunk's hashes in a worker
+    process while this one writes the chunk before: the same function on the same values, so
+    the same bytes (tests/store/test_audit_bulk.py runs both ways). A worker that cannot start
+    or dies leaves the rest to this process."""
     cls: Any = WaterFluxTest if sheet.kind == "water_flux" else IntegrityTest
     table: Any = cls.__table__
     entity = table.name
@@ -539,74 +536,161 @@ def _write(
     computed = list(accepted[0][3])  # every row of a kind has the same columns
     names = ["id", "module_id", "activity_at", "limits_version_id", "entered", *computed]
     rows = StoredRows(session.connection(), table, [*names, "record_hash"], fixed)
-    content = _Content(cls, names, fixed)
-    stored_rows: list[Any] = []
-    stored_events: list[Any] = []
-    for (i, m, version, values), new_id in zip(accepted, ids, strict=True):
-        if len(values) != len(computed):
-            raise RuntimeError("rows of one kind must have the same columns")
-        baseline = values.get("baseline_test_id")
-        if baseline is not None and baseline < 0:
-            values["baseline_test_id"] = ids[-baseline - 1]
-        module_id = m.module.id
-        row: list[Any] = [new_id, module_id, sheet.at[i], version, sheet.entered[i] or None]
-        row += [values[k] for k in computed]
-        body = content.dumps(row)
-        # canonical({"entity": e, "content": c}) with its keys sorted, without a second dump.
-        record = hashlib.sha256(f'{{"content":{body},"entity":"{entity}"}}'.encode()).hexdigest()
-        stored_events.append(events.add(str(new_id), module_id, body, record))
-        row.append(record)
-        stored_rows.append(rows.stored(row))
-    for part, evs in zip(_chunks(stored_rows, CHUNK), _chunks(stored_events, CHUNK), strict=True):
-        rows.insert(part)
-        events.rows.insert(evs)
-        if progress is not None:
-            progress(len(part))
+    form = _form(cls, names, fixed)
+    batches: list[list[tuple[str, int | None, list[Any]]]] = []
+    for part, part_ids in zip(_chunks(accepted, CHUNK), _chunks(ids, CHUNK), strict=True):
+        batch = []
+        for (i, m, version, values), new_id in zip(part, part_ids, strict=True):
+            if len(values) != len(computed):
+                raise RuntimeError("rows of one kind must have the same columns")
+            baseline = values.get("baseline_test_id")
+            if baseline is not None and baseline < 0:
+                values["baseline_test_id"] = ids[-baseline - 1]
+            module_id = m.module.id
+            row: list[Any] = [new_id, module_id, sheet.at[i], version, sheet.entered[i] or None]
+            row += [values[k] for k in computed]
+            batch.append((str(new_id), module_id, row))
+        batches.append(batch)
+    parallel = len(accepted) >= PARALLEL_ROWS
+    sealing = closing(_sealed(form, events.form, batches, events.seq, events.prev, parallel))
+    with sealing as each:
+        for batch, sealed in zip(batches, each, strict=True):
+            _insert(rows, events, batch, sealed)
+            if progress is not None:
+                progress(len(batch))
     events.close()
-    result.written = len(stored_rows)
+    result.written = len(accepted)
     result.first_id, result.last_id = ids[0], ids[-1]
 
 
-class _Content:
-    """The canonical JSON of a record's hashed columns (``store.audit.content``) from its row
-    values: a float column as float, a time as ISO 8601 UTC, a column holding its hash default
-    left out; the columns in ``fixed`` encoded once."""
+def _insert(
+    rows: StoredRows, events: CreateEvents, batch: list[tuple[str, int | None, list[Any]]],
+    sealed: Sealed,
+) -> None:  # fmt: skip
+    """Write one sealed batch: its records, then their create events."""
+    stored_rows: list[Any] = []
+    stored_events: list[Any] = []
+    for (entity_id, module_id, row), (body, record, digest) in zip(
+        batch, sealed.records, strict=True
+    ):
+        stored_events.append(events.stored(entity_id, module_id, body, record, digest))
+        row.append(record)
+        stored_rows.append(rows.stored(row))
+    rows.insert(stored_rows)
+    events.rows.insert(stored_events)
 
-    def __init__(self, cls: Any, names: list[str], fixed: dict[str, Any]) -> None:
-        from sqlalchemy import Float
 
-        table = cls.__table__
-        hashed = {c.name for c in table.columns} - cls.hash_excluded
-        if hashed != {*names, *fixed} - cls.hash_excluded:
-            raise RuntimeError(f"{table.name}: the hashed columns are not those given")
-        defaults: dict[str, Any] = cls.hash_defaults
-        self.fixed = {
-            k: _content_value(v)
+def _sealed(
+    form: RecordForm,
+    events: EventForm,
+    batches: list[list[tuple[str, int | None, list[Any]]]],
+    seq: int,
+    prev: str,
+    parallel: bool,
+) -> Generator[Sealed, None, None]:
+    """``seal`` of each batch in turn, the chain running on from one to the next. In
+    parallel, batch k + 1 is sealed in a worker process while the caller writes batch k
+    (each batch is pickled when it is handed over, before the caller changes its rows)."""
+    worker = None
+    if parallel and len(batches) > 1:
+        try:
+            worker = _Worker(form, events)
+            worker.submit(batches[0], seq, prev)
+        except _GONE:
+            _stopped(worker)
+            worker = None
+    try:
+        for k, batch in enumerate(batches):
+            sealed = None
+            if worker is not None:
+                try:
+                    sealed = worker.result()
+                    if k + 1 < len(batches):
+                        worker.submit(batches[k + 1], sealed.seq, sealed.prev)
+                except _GONE:
+                    _stopped(worker)
+                    worker = None
+            if sealed is None:
+                sealed = seal(form, events, batch, seq, prev)
+            seq, prev = sealed.seq, sealed.prev
+            yield sealed
+    finally:
+        _stopped(worker)
+
+
+# What a worker that could not start, or died, looks like from here (its hashes are then
+# made in this process: the same function on the same values).
+_GONE = (OSError, EOFError, pickle.UnpicklingError)
+
+
+class _Worker:
+    """A sealing worker (``sealing.serve``) in its own process, fed one batch at a time
+    through its standard input; its standard error is discarded (a worker that fails is
+    replaced by this process, which then raises any error itself)."""
+
+    def __init__(self, form: RecordForm, events: EventForm) -> None:
+        self.process = subprocess.Popen(
+            worker_command(), stdin=subprocess.PIPE, stdout=subprocess.PIPE,
+            stderr=subprocess.DEVNULL,
+        )  # fmt: skip
+        self._send((form, events))
+
+    def _send(self, value: Any) -> None:
+        pipe: Any = self.process.stdin
+        pickle.dump(value, pipe, pickle.HIGHEST_PROTOCOL)
+        pipe.flush()
+
+    def submit(self, rows: list[Any], seq: int, prev: str) -> None:
+        """Hand over the next batch, its chain starting after event ``seq`` (digest ``prev``)."""
+        self._send((rows, seq, prev))
+
+    def result(self) -> Sealed:
+        """The sealed batch last handed over."""
+        records, seq, prev = pickle.load(self.process.stdout)  # type: ignore[arg-type]
+        return Sealed(records, seq, prev)
+
+    def close(self) -> None:
+        """End the worker: close its input (it stops there), then wait for it; kill it if it
+        does not stop."""
+        try:
+            if self.process.stdin is not None:
+                self.process.stdin.close()
+        except OSError:
+            pass
+        try:
+            self.process.wait(timeout=10)
+        except subprocess.TimeoutExpired:
+            self.process.kill()
+            self.process.wait()
+        if self.process.stdout is not None:
+            self.process.stdout.close()
+
+
+def _stopped(worker: _Worker | None) -> None:
+    if worker is not None:
+        worker.close()
+
+
+def _form(cls: Any, names: list[str], fixed: dict[str, Any]) -> RecordForm:
+    """How ``cls``'s content JSON (``store.audit.content``) is made from its row values: a
+    float column as float, a time as ISO 8601 UTC, a column holding its hash default left
+    out; the columns in ``fixed`` encoded once."""
+    from sqlalchemy import Float
+
+    table = cls.__table__
+    hashed = {c.name for c in table.columns} - cls.hash_excluded
+    if hashed != {*names, *fixed} - cls.hash_excluded:
+        raise RuntimeError(f"{table.name}: the hashed columns are not those given")
+    defaults: dict[str, Any] = cls.hash_defaults
+    return RecordForm(
+        entity=table.name,
+        names=tuple(names),
+        fixed={
+            k: iso_utc(v) if isinstance(v, datetime) else v  # these tables hold no bytes
             for k, v in fixed.items()
             if k in hashed and not (k in defaults and v == defaults[k])
-        }
-        self.names = names
-        self.floats = [n for n in names if isinstance(table.c[n].type, Float)]
-        self.times = [n for n in names if isinstance(table.c[n].type, UTCDateTime)]
-        self.defaults = [(n, v) for n, v in defaults.items() if n in names]
-
-    def dumps(self, row: list[Any]) -> str:
-        """The content JSON of one row (values in ``names`` order)."""
-        values = self.fixed.copy()
-        values.update(zip(self.names, row, strict=True))
-        for name in self.floats:
-            v = values[name]
-            if v is not None and type(v) is not float:
-                values[name] = float(v)
-        for name in self.times:
-            if values[name] is not None:
-                values[name] = _iso(values[name])
-        for name, default in self.defaults:
-            if values[name] == default:
-                del values[name]
-        return canonical(values)
-
-
-def _content_value(value: Any) -> Any:
-    # As store.audit encodes a column for its hash (these tables hold no bytes).
-    return _iso(value) if isinstance(value, datetime) else value
+        },
+        floats=tuple(n for n in names if isinstance(table.c[n].type, Float)),
+        times=tuple(n for n in names if isinstance(table.c[n].type, UTCDateTime)),
+        defaults=tuple((n, v) for n, v in defaults.items() if n in names),
+    )

@@ -17,8 +17,7 @@ every event up to the newest checkpoint.
 from __future__ import annotations
 
 import hashlib
-import hmac
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
 from datetime import UTC, date, datetime
@@ -30,6 +29,7 @@ from sqlmodel import Session, select
 
 from ledger.canonical import Template, canonical
 from ledger.errors import InputError, RefusedError
+from ledger.store.sealing import VARYING, EventForm
 from ledger.store.sitekey import SiteKey
 from ledger.store.tables import RECORDS, AuditEvent, AuditHead, Recorded, entity_of, primary_key
 from ledger.store.types import utc_now
@@ -609,28 +609,14 @@ class StoredRows:
             self.conn.exec_driver_sql(self.sql, rows)
 
 
-def _digester(key: SiteKey | None) -> Callable[[bytes], str]:
-    """``key.mac`` (or SHA-256 for a chain not yet keyed), with the key's HMAC state set up
-    once: HMAC(k, m) is the keyed state for k updated with m, so a copy of it gives the same
-    digest as ``hmac.new(k, m, sha256)``."""
-    if key is None:
-        return lambda payload: hashlib.sha256(payload).hexdigest()
-    keyed = hmac.new(key.secret, digestmod=hashlib.sha256)
-
-    def mac(payload: bytes) -> str:
-        h = keyed.copy()
-        h.update(payload)
-        return h.hexdigest()
-
-    return mac
-
-
 class CreateEvents:
     """``create`` events for many records of one entity, appended to the chain as
     ``Journal.create`` appends them: the same columns, canonical JSON and digest as
     ``event_hash`` (HMAC-SHA-256 under the site key), each linked to the one before, made from
-    a template rather than an AuditEvent per event. ``add`` makes one event's row; ``close``
-    moves the chain head. tests/store/test_audit_bulk.py compares them with Journal.create's.
+    a template (``form``, a ``sealing.EventForm``) rather than an AuditEvent per event. The
+    digests come from ``sealing.seal`` (which may run in another process); ``stored`` makes
+    one event's row from its digest, ``close`` moves the chain head.
+    tests/store/test_audit_bulk.py compares them with Journal.create's.
     """
 
     def __init__(
@@ -642,21 +628,20 @@ class CreateEvents:
         self.seq, self.prev = head.seq, head.hash
         fixed = {"at": at, "actor": actor, "action": "create", "entity": entity, "field": None,
                  "old_value": None, "reason": None}  # fmt: skip
-        varying = ("seq", "entity_id", "module_id", "new_value", "record_hash", "prev_hash")
         hashed = {c.name for c in _EVENT_TABLE.columns} - {"hash"}
-        if hashed != {*fixed, *varying}:
+        if hashed != {*fixed, *VARYING}:
             raise RuntimeError("audit_event has columns CreateEvents does not fill")
-        self._payload = Template({k: _encode(v) for k, v in fixed.items()}, varying)
-        self._sorted = itemgetter(*(varying.index(n) for n in self._payload.names))
-        self._mac = _digester(self.key)
-        self.rows = StoredRows(session.connection(), _EVENT_TABLE, [*varying, "hash"], fixed)
+        payload = Template({k: _encode(v) for k, v in fixed.items()}, VARYING)
+        self.form = EventForm(payload, self.key.secret if self.key is not None else None)
+        self.rows = StoredRows(session.connection(), _EVENT_TABLE, [*VARYING, "hash"], fixed)
 
-    def add(self, entity_id: str, module_id: int | None, new_value: str, record_hash: str) -> Any:
+    def stored(
+        self, entity_id: str, module_id: int | None, new_value: str, record_hash: str, digest: str
+    ) -> Any:
         """The next event's parameters (for ``self.rows.insert``): the creation of record
-        ``entity_id`` with content ``new_value`` (canonical JSON) and hash ``record_hash``."""
+        ``entity_id`` with content ``new_value`` (canonical JSON), hash ``record_hash`` and the
+        event digest ``seal`` gave it, linked to the event before."""
         seq, prev = self.seq + 1, self.prev
-        varying = (seq, entity_id, module_id, new_value, record_hash, prev)
-        digest = self._mac(self._payload.dumps(self._sorted(varying)).encode())
         self.seq, self.prev = seq, digest
         return self.rows.stored([seq, entity_id, module_id, new_value, record_hash, prev, digest])
 

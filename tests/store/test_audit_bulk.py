@@ -15,7 +15,7 @@ import hmac
 import json
 import math
 from datetime import UTC, datetime, timedelta
-from typing import Any
+from typing import Any, ClassVar
 
 import pytest
 from hypothesis import given, settings
@@ -26,7 +26,8 @@ import ledger.logbook.import_logbook as importer
 from ledger.canonical import NotCanonicalError, Template, canonical, member
 from ledger.logbook.auth import find_user
 from ledger.logbook.import_logbook import SheetRows, import_rows
-from ledger.store.audit import GENESIS, Journal, _digester, verify
+from ledger.store.audit import GENESIS, Journal, verify
+from ledger.store.sealing import VARYING, EventForm
 from ledger.store.sitekey import SiteKey
 from ledger.store.tables import AuditHead, IntegrityTest, WaterFluxTest
 from tests.world import World
@@ -88,14 +89,20 @@ def test_a_template_refuses_nan_and_infinity_naming_the_key(bad: float) -> None:
     assert nested.value.path == "$.points[0].feed_pa"
 
 
-def test_the_digester_is_hmac_sha256_under_the_key() -> None:
-    key = SiteKey(bytes(range(32)), "test")
-    mac = _digester(key)
-    for payload in (b"", b"{}", "µ".encode() * 500):
-        # RFC 2104 HMAC through the stdlib, and the key's own mac, for each payload in turn
-        assert mac(payload) == hmac.new(bytes(range(32)), payload, "sha256").hexdigest()
-        assert mac(payload) == key.mac(payload)
-    assert _digester(None)(b"x") == hashlib.sha256(b"x").hexdigest()
+def test_an_event_digest_is_hmac_sha256_under_the_key() -> None:
+    secret = bytes(range(32))
+    key = SiteKey(secret, "test")
+    payload = Template({"action": "create", "actor": "op.kim"}, VARYING)
+    keyed, plain = EventForm(payload, secret), EventForm(payload, None)
+    for varying in ((1, "7", None, "", "a" * 64, "0" * 64), (2, "8", 3, "µ" * 500, "b", "c")):
+        text = payload.dumps(
+            [dict(zip(VARYING, varying, strict=True))[n] for n in payload.names]
+        ).encode()
+        # RFC 2104 HMAC through the stdlib, and the site key's own mac, for each event
+        assert keyed.digest(varying) == hmac.new(secret, text, "sha256").hexdigest()
+        assert keyed.digest(varying) == key.mac(text)
+        assert plain.digest(varying) == hashlib.sha256(text).hexdigest()
+    assert secret.hex() not in repr(keyed)  # the key is never shown
 
 
 def _sheet(kind: str) -> SheetRows:
@@ -176,12 +183,20 @@ def _stored(session: Session, table: str, first_id: int, seq: int) -> dict[str, 
 
 
 @pytest.mark.parametrize("kind", ["water_flux", "pressure_decay"])
+@pytest.mark.parametrize("sealing", ["in process", "worker process"])
 def test_bulk_rows_and_events_equal_journal_create_and_verify(
-    world: World, kind: str, monkeypatch: pytest.MonkeyPatch
+    world: World, kind: str, sealing: str, monkeypatch: pytest.MonkeyPatch
 ) -> None:
     world.add_module("QMB-0142")
     world.add_module("QMB-0143")
     monkeypatch.setattr(importer, "_now", lambda: CLOCK)
+    if sealing == "worker process":  # the hashes of 4-row chunks made in a spawned process
+        monkeypatch.setattr(importer, "PARALLEL_ROWS", 1)
+        monkeypatch.setattr(importer, "CHUNK", 4)
+        spawned: list[Any] = []
+        real = importer._Worker
+        monkeypatch.setattr(importer, "_Worker",
+                            lambda *a: spawned.append(1) or real(*a))  # fmt: skip
     table = "water_flux_test" if kind == "water_flux" else "integrity_test"
     found: list[dict[str, list[Any]]] = []
     ids: list[int] = []
@@ -206,3 +221,62 @@ def test_bulk_rows_and_events_equal_journal_create_and_verify(
     assert len(bulk[table]) == 6 and len(bulk["audit_event"]) == 6
     assert bulk == one
     assert chained != GENESIS  # the world's chain has events before the import's
+    if sealing == "worker process":
+        assert spawned == [1]
+
+
+class _NoProcesses:
+    """A worker that cannot start (as where a sandbox forbids new processes)."""
+
+    tried: ClassVar[list[int]] = []
+
+    def __init__(self, *args: Any) -> None:
+        self.tried.append(1)
+        raise OSError("no processes here")
+
+
+class _DiesAfterOne(importer._Worker):
+    """A real worker that answers the first batch, then dies."""
+
+    tried: ClassVar[list[int]] = []
+
+    def __init__(self, *args: Any) -> None:
+        self.tried.append(1)
+        self.answered = 0
+        super().__init__(*args)
+
+    def result(self) -> Any:
+        if self.answered:
+            self.process.kill()
+            self.process.wait()
+        self.answered += 1
+        return super().result()
+
+
+@pytest.mark.parametrize("pool", [_NoProcesses, _DiesAfterOne])
+def test_a_worker_that_cannot_start_or_dies_leaves_the_same_rows_to_the_import(
+    sqlite_world: World, pool: Any, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    world = sqlite_world  # the hand-over, not the database, is the subject
+    world.add_module("QMB-0142")
+    world.add_module("QMB-0143")
+    monkeypatch.setattr(importer, "_now", lambda: CLOCK)
+    monkeypatch.setattr(importer, "CHUNK", 2)
+    found = []
+    for threshold, worker in ((10**9, importer._Worker), (1, pool)):
+        monkeypatch.setattr(importer, "PARALLEL_ROWS", threshold)
+        monkeypatch.setattr(importer, "_Worker", worker)
+        with Session(world.engine()) as s:
+            seq = s.exec(select(AuditHead)).one().seq
+            actor = find_user(s, "op.kim")
+            assert actor is not None
+            result = import_rows(s, actor, _sheet("water_flux"))
+            assert result.written == 6 and result.first_id is not None
+            found.append(_stored(s, "water_flux_test", result.first_id, seq))
+            check = verify(s)
+            assert check.ok, check.problems
+            s.rollback()
+    in_process, fallen_back = found
+    assert pool.tried == [1]  # the import did hand its hashes over (or try to)
+    assert len(in_process["audit_event"]) == 6
+    assert fallen_back == in_process
