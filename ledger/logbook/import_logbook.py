@@ -650,20 +650,19 @@ class _Worker:
         return Sealed(records, seq, prev)
 
     def close(self) -> None:
-        """End the worker: close its input (it stops there), then wait for it; kill it if it
-        does not stop."""
+        """End the worker: close both pipes (it stops at the end of its input, or at a write
+        nobody reads when the import stopped early), wait for it, kill it if it lingers."""
+        for pipe in (self.process.stdin, self.process.stdout):
+            try:
+                if pipe is not None:
+                    pipe.close()
+            except OSError:
+                pass
         try:
-            if self.process.stdin is not None:
-                self.process.stdin.close()
-        except OSError:
-            pass
-        try:
-            self.process.wait(timeout=10)
+            self.process.wait(timeout=5)
         except subprocess.TimeoutExpired:
             self.process.kill()
             self.process.wait()
-        if self.process.stdout is not None:
-            self.process.stdout.close()
 
 
 def _stopped(worker: _Worker | None) -> None:

@@ -280,3 +280,38 @@ def test_a_worker_that_cannot_start_or_dies_leaves_the_same_rows_to_the_import(
     assert pool.tried == [1]  # the import did hand its hashes over (or try to)
     assert len(in_process["audit_event"]) == 6
     assert fallen_back == in_process
+
+
+def test_an_import_that_fails_while_writing_leaves_no_worker_running(
+    sqlite_world: World, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    world = sqlite_world
+    world.add_module("QMB-0142")
+    world.add_module("QMB-0143")
+    monkeypatch.setattr(importer, "PARALLEL_ROWS", 1)
+    monkeypatch.setattr(importer, "CHUNK", 1)
+    workers: list[Any] = []
+    real = importer._Worker
+
+    def made(*args: Any) -> Any:
+        workers.append(real(*args))
+        return workers[-1]
+
+    written = importer._insert
+
+    def insert_then_fail(*args: Any) -> None:
+        written(*args)
+        raise RuntimeError("the disk filled up")  # as a database error would stop it
+
+    monkeypatch.setattr(importer, "_Worker", made)
+    monkeypatch.setattr(importer, "_insert", insert_then_fail)
+    with Session(world.engine()) as s:
+        actor = find_user(s, "op.kim")
+        assert actor is not None
+        with pytest.raises(RuntimeError, match="disk filled up"):
+            import_rows(s, actor, _sheet("water_flux"))
+        s.rollback()
+    assert len(workers) == 1
+    assert workers[0].process.poll() is not None  # the worker has ended, not left behind
+    with Session(world.engine()) as s:
+        assert s.exec(select(WaterFluxTest)).all() == []
