@@ -140,14 +140,18 @@ def end_to_end(repeats: int, seconds: int) -> list[Row]:
     with tempfile.TemporaryDirectory() as tmp:
         path = _day_long_export(Path(tmp), seconds)
         content = path.read_bytes()
+    import hashlib
+
+    # A one-file log as the database holds it (no parts: _charts reads no other rows).
     log = SimpleNamespace(file_name="day.csv", content=content, mapping_text=mapping,
-                          windows=None)  # fmt: skip
+                          windows=None, parts=None, run_id=1, size_bytes=len(content),
+                          sha256=hashlib.sha256(content).hexdigest())  # fmt: skip
     mtype = SimpleNamespace(area_m2=0.0565, fiber_count=120, lumen_diameter_m=0.5e-3)
     plan = Plan("t", "1", "0" * 64, None, {}, {}, [], [], [])  # type: ignore[arg-type]
     base = sample_context(log_seconds=60)
 
     def whole() -> bytes:
-        ctx = replace(base, charts=_charts(log, mtype, plan))  # type: ignore[arg-type]
+        ctx = replace(base, charts=_charts(None, log, mtype, plan))  # type: ignore[arg-type]
         return render(ctx, software_version=SOFTWARE)
 
     data = whole()
