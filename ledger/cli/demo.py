@@ -9,6 +9,7 @@ SQLite database under the output folder.
 from __future__ import annotations
 
 import contextlib
+import functools
 import io
 import json
 import os
@@ -42,13 +43,21 @@ TRANSCRIPT_COLUMNS = 132
 COMPANIONS = ("-wal", "-shm", "-journal", ".tmp")
 
 
-def _run(args: list[str], stdin: str = "") -> tuple[int, str]:
-    """Run one fluxledger command in-process; return its exit code and stdout (and, when it
-    failed, stderr)."""
+@functools.cache
+def _command() -> Any:
+    """The app's click command, built once for all the demo's steps: typer builds the whole
+    command tree (every option's type hints) on each get_command, about as long as a small
+    command takes to run, and the demo runs some three hundred."""
     from typer.main import get_command
 
     from ledger.cli.main import app
 
+    return get_command(app)
+
+
+def _run(args: list[str], stdin: str = "") -> tuple[int, str]:
+    """Run one fluxledger command in-process; return its exit code and stdout (and, when it
+    failed, stderr)."""
     out, err = io.StringIO(), io.StringIO()
     code = 0
     saved_stdin, sys.stdin = sys.stdin, io.StringIO(stdin)
@@ -64,7 +73,7 @@ def _run(args: list[str], stdin: str = "") -> tuple[int, str]:
         restore.callback(setattr, sys, "stdin", saved_stdin)
         restore.callback(_restore_columns, saved_columns)
         try:
-            result = get_command(app).main(args=args, prog_name="fluxledger", standalone_mode=False)
+            result = _command().main(args=args, prog_name="fluxledger", standalone_mode=False)
             code = result if isinstance(result, int) else 0
         except typer.Exit as exc:
             code = exc.exit_code

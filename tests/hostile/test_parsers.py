@@ -14,7 +14,6 @@ from pathlib import Path
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
-from typer.testing import CliRunner
 
 from ledger import units
 from ledger.errors import LedgerError
@@ -24,6 +23,7 @@ from ledger.runs.mapping import parse_mapping
 from ledger.runs.skidlog import read_log
 from ledger.tomlfile import parse_toml
 from ledger.userfiles import read_user_file
+from tests.world import invoke as world_invoke
 
 # Characters that have broken parsers: non-ASCII digits (Arabic-Indic, full-width, Devanagari),
 # control and invisible characters, pint's comment sign, operators, look-alike symbols.
@@ -337,11 +337,10 @@ def test_skid_logs_give_si_arrays_or_a_ledger_error(
 
 
 def invoke(*args: str) -> tuple[int, str, BaseException | None]:
-    from ledger.cli.main import app
-
-    result = CliRunner().invoke(app, list(args))
-    exc = result.exception if not isinstance(result.exception, SystemExit) else None
-    return result.exit_code, result.stderr, exc
+    """Exit code, stderr and any escaped exception (a traceback) of one CLI call, in process
+    on the app's command built once (tests/world.py)."""
+    result = world_invoke(list(args))
+    return result.code, result.stderr, result.exception
 
 
 DECAY = ["calc", "decay", "--volume", "45 mL", "--rate", "0.05 psi/min", "--operating-tmp",

@@ -1,4 +1,4 @@
-"""Eight processes write at once, 100 writes each (water-flux tests, integrity tests,
+"""Eight processes write at once, 70 writes each (water-flux tests, integrity tests,
 cleanings, and signatures on two runs), through the services as the front ends call them, on
 SQLite (WAL, BEGIN IMMEDIATE, busy timeout) and on PostgreSQL: afterwards every write is
 there exactly once, the audit chain verifies, and no caller saw an error ("database is
@@ -27,7 +27,7 @@ from tests.reliability import procs
 from tests.reliability.conftest import WRITER_MODULES
 from tests.world import World
 
-WRITES = 100  # each; the eight start together at a barrier, so their writes overlap throughout
+WRITES = 70  # each; the eight start together at a barrier, so their writes overlap throughout
 SIGNING = {0: 1, 1: 2}  # writer index -> the run whose four signatures it adds among its writes
 TABLES = {"water": WaterFluxTest, "integrity": IntegrityTest, "cleaning": Cleaning}
 

@@ -35,8 +35,8 @@ from tests.world import PASSWORDS, World
 pytestmark = pytest.mark.slow
 
 SEED = 20261203
-KILLS = 8  # killed runs of each command: 3 after a delay, 5 at one of its write points
-TIMED = 3
+KILLS = 6  # killed runs of each command: 2 after a delay, 4 at one of its write points
+TIMED = 2
 CREATED = text("SELECT entity_id FROM audit_event WHERE entity = :e AND action = 'create'")
 
 
