@@ -47,7 +47,7 @@ def _race(
 ) -> list[str]:
     """Run ``work`` in WRITERS threads at once; each returns "created" or its error.
 
-    After its lookup each writer waits (up to 3 s) until all four have looked. Where nothing
+    After its lookup each writer waits (up to 1.5 s) until all four have looked. Where nothing
     serializes the lookups (``locked=False`` on PostgreSQL) all four find the identifier free
     and insert it, so the unique constraint decides; where the lookup holds the write lock
     (and always on SQLite, BEGIN IMMEDIATE) the wait times out and the writers queue.
@@ -58,7 +58,7 @@ def _race(
     def look_then_wait(session: Session, column: Any, value: str) -> str | None:
         found = lookup(session, column, value)
         with contextlib.suppress(threading.BrokenBarrierError):
-            barrier.wait(timeout=3)
+            barrier.wait(timeout=1.5)
         return found
 
     monkeypatch.setattr(required, "existing", look_then_wait)
