@@ -14,7 +14,6 @@ checks them equal on 1,000 modules).
 
 from __future__ import annotations
 
-from bisect import bisect_left
 from collections import defaultdict
 from dataclasses import dataclass, field
 from datetime import datetime, timedelta
@@ -29,7 +28,7 @@ from ledger.logbook import typelimits
 from ledger.logbook.fitness import facts, type_limits
 from ledger.logbook.module_trend import project
 from ledger.logbook.modules import get_type, list_types, row_id
-from ledger.logbook.wear import Point, recovery_series
+from ledger.logbook.wear import Point, recovery_points, recovery_series
 from ledger.rules.fitness import (
     CleaningResult,
     Facts,
@@ -253,14 +252,7 @@ def _facts(module: Any, limits: Limits, b: _Book, now: datetime) -> Facts:
 
 def _points(b: _Book, mid: int) -> list[Point]:
     """``wear.recovery_series(session, mid)`` from the book."""
-    starts = b.use_starts.get(mid, [])
-    out: list[Point] = []
-    for r in b.recovery_rows.get(mid, []):
-        if r.stage == "baseline":
-            out.append(Point(bisect_left(starts, r.activity_at), r.activity_at, 1.0, r.id))
-        elif r.recovery is not None:
-            out.append(Point(bisect_left(starts, r.activity_at), r.activity_at, r.recovery, r.id))
-    return out
+    return recovery_points(b.recovery_rows.get(mid, []), b.use_starts.get(mid, []))
 
 
 def _products(session: Session, product: str) -> set[int]:

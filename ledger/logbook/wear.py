@@ -9,8 +9,10 @@ left out. Recovery is a fraction of baseline NWP; decay rates are Pa/s.
 from __future__ import annotations
 
 from bisect import bisect_left
+from collections.abc import Iterable
 from dataclasses import dataclass
 from datetime import datetime
+from typing import Any
 
 from sqlmodel import Session, col, select
 
@@ -52,13 +54,21 @@ def recovery_series(session: Session, module_id: int) -> list[Point]:
         )
         .order_by(col(WaterFluxTest.activity_at), col(WaterFluxTest.id))
     ).all()
+    return recovery_points(rows, starts)
+
+
+def recovery_points(rows: Iterable[Any], starts: list[datetime]) -> list[Point]:
+    """The recovery series from a module's valid baseline and post-clean tests (oldest first;
+    each with stage, activity_at, recovery and id) and its sorted use start times: the
+    baseline is 1.0, a post-clean test its recovery (one without is left out)."""
     out: list[Point] = []
     for r in rows:
         assert r.id is not None
+        cycle = bisect_left(starts, r.activity_at)
         if r.stage == "baseline":
-            out.append(Point(bisect_left(starts, r.activity_at), r.activity_at, 1.0, r.id))
+            out.append(Point(cycle, r.activity_at, 1.0, r.id))
         elif r.recovery is not None:
-            out.append(Point(bisect_left(starts, r.activity_at), r.activity_at, r.recovery, r.id))
+            out.append(Point(cycle, r.activity_at, r.recovery, r.id))
     return out
 
 
