@@ -29,6 +29,33 @@ def add_second_qa(w: World) -> None:
     w.add_user(login, name, "qa", password)
 
 
+def planned(w: World, serial: str, lot: str, *, ready: bool = True) -> int:
+    """A module made ready (baseline, integrity; unless ``ready`` is False), its pre-use
+    test, and a run planned on it by the engineer and approved by QA; the run's number."""
+    if ready:
+        w.ready(serial)
+    w.ok(w.water(serial, "pre-use", "168 mL/min"))
+    out = w.ok(
+        w.as_user(
+            "eng.ray",
+            "run",
+            "plan",
+            "QB-MR-LNP-101",
+            "--module",
+            serial,
+            "--product",
+            "QB-117",
+            "--lot",
+            lot,
+            *INPUTS,
+            "--json",
+        )
+    ).json()
+    number = next(k for k in out if k.startswith("run_")).removeprefix("run_")
+    w.ok(w.as_user("qa.lin", "run", "approve-plan", number))
+    return int(number)
+
+
 def to_review(
     w: World,
     tmp_path: Path,
@@ -42,26 +69,8 @@ def to_review(
     finish and submit run ``run`` on QMB-0142."""
     from ledger.cli.demo_log import write_log
 
-    if ready:
-        w.ready()
-    w.ok(w.water("QMB-0142", "pre-use", "168 mL/min"))
-    w.ok(
-        w.as_user(
-            "eng.ray",
-            "run",
-            "plan",
-            "QB-MR-LNP-101",
-            "--module",
-            "QMB-0142",
-            "--product",
-            "QB-117",
-            "--lot",
-            lot,
-            *INPUTS,
-        )
-    )
+    planned(w, "QMB-0142", lot, ready=ready)
     r = str(run)
-    w.ok(w.as_user("qa.lin", "run", "approve-plan", r))
     w.ok(w.as_user("op.kim", "run", "start", r))
     w.wide_log_tolerance()
     log = write_log(tmp_path / f"skid-{run}.csv", datetime.now(UTC) - timedelta(hours=2))

@@ -9,8 +9,8 @@ from pathlib import Path
 from typing import Any
 
 from tests.cli.test_runs import MAPPING
+from tests.records.flow import planned
 from tests.web.conftest import sign_in_page
-from tests.web.test_runs import planned
 from tests.world import PASSWORDS, World
 
 

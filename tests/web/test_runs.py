@@ -18,39 +18,14 @@ from typing import Any
 
 import pytest
 
-from tests.cli.test_runs import INPUTS, MAPPING
+from tests.cli.test_runs import MAPPING
+from tests.records.flow import planned
 from tests.web.conftest import Site
-from tests.world import PASSWORDS, World
+from tests.world import PASSWORDS
 
 pytestmark = pytest.mark.sqlite_only
 
 PNG = b"\x89PNG\r\n\x1a\n\x00\x00\x00\rIHDR\x00\x00\x00\x01\x00\x00\x00\x01\x08\x06\x00\x00\x00"
-
-
-def planned(w: World, serial: str, lot: str) -> int:
-    """A module made ready (baseline, integrity, pre-use test) and a run planned on it by the
-    engineer and approved by QA; its number."""
-    w.ready(serial)
-    w.ok(w.water(serial, "pre-use", "168 mL/min"))
-    out = w.ok(
-        w.as_user(
-            "eng.ray",
-            "run",
-            "plan",
-            "QB-MR-LNP-101",
-            "--module",
-            serial,
-            "--product",
-            "QB-117",
-            "--lot",
-            lot,
-            *INPUTS,
-            "--json",
-        )
-    ).json()
-    number = next(k for k in out if k.startswith("run_")).removeprefix("run_")
-    w.ok(w.as_user("qa.lin", "run", "approve-plan", number))
-    return int(number)
 
 
 def post(site: Site, path: str, data: dict[str, str], **more: Any) -> Any:
